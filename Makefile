@@ -1,0 +1,27 @@
+# Tessera: the two set-up commands are `make run` and `make test`.
+PYTHON ?= python3
+VENV := .venv
+PY := $(VENV)/bin/python
+STAMP := $(VENV)/.installed
+
+.PHONY: run test bench clean screenshots
+
+$(PY):
+	$(PYTHON) -m venv $(VENV)
+
+$(STAMP): pyproject.toml | $(PY)
+	$(PY) -m pip install --quiet --upgrade pip
+	$(PY) -m pip install --quiet -e ".[test]"
+	touch $(STAMP)
+
+run: $(STAMP)
+	$(VENV)/bin/tessera
+
+test: $(STAMP)
+	QT_QPA_PLATFORM=offscreen $(PY) -m pytest -q
+
+bench: $(STAMP)
+	QT_QPA_PLATFORM=offscreen $(PY) benchmarks/run.py
+
+clean:
+	rm -rf $(VENV) .pytest_cache
