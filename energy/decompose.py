@@ -1,0 +1,144 @@
+"""Residue-pair decomposition: sparse residue x residue matrices of every term.
+
+Attribution rule (docs/physics.md): a nonbonded atom pair goes to the pair of residues of its two
+atoms.  A bonded term whose atoms lie in one residue goes to the diagonal; one whose atoms span m
+distinct residues is split equally among the m(m-1)/2 distinct residue pairs they form (a peptide
+dihedral spanning residues i and i+1 goes wholly to (i, i+1); a CMAP term spanning i-1, i, i+1
+puts a third on each of (i-1, i), (i-1, i+1) and (i, i+1)).  So every matrix sums to its term's
+total.  Per-residue totals give each residue half of every off-diagonal entry it is part of and
+the whole of its diagonal entry, so they too sum to the total.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+from itertools import combinations
+
+import numpy as np
+import scipy.sparse as sp
+
+from .system import TERMS
+
+
+def split_over_residue_pairs(atoms: np.ndarray, energies: np.ndarray, resindex: np.ndarray):
+    """Attribute each bonded interaction to residue pairs.
+
+    Parameters
+    ----------
+    atoms : (n, k) intp atom indices of each interaction.
+    energies : (n,) float64, kcal/mol.
+    resindex : (n_atoms,) atom -> residue.
+
+    Returns
+    -------
+    (pair_i, pair_j, values) with pair_i <= pair_j, one row per (interaction, residue pair).
+    """
+    if len(atoms) == 0:
+        z = np.zeros(0, np.intp)
+        return z, z, np.zeros(0)
+    res = np.sort(resindex[atoms], axis=1)
+    distinct = np.ones(res.shape, dtype=bool)
+    distinct[:, 1:] = res[:, 1:] != res[:, :-1]
+    m = distinct.sum(axis=1)
+    out_i, out_j, out_v = [], [], []
+    for n_res in np.unique(m):
+        rows = np.flatnonzero(m == n_res)
+        uniq = res[rows][distinct[rows]].reshape(len(rows), n_res)
+        e = energies[rows]
+        if n_res == 1:
+            out_i.append(uniq[:, 0]); out_j.append(uniq[:, 0]); out_v.append(e)
+            continue
+        combos = list(combinations(range(n_res), 2))
+        share = e / len(combos)
+        for a, b in combos:
+            out_i.append(uniq[:, a]); out_j.append(uniq[:, b]); out_v.append(share)
+    return np.concatenate(out_i), np.concatenate(out_j), np.concatenate(out_v)
+
+
+@dataclass(frozen=True)
+class ResiduePairEnergies:
+    """Sparse upper-triangular residue-pair matrices, one value column per term (kcal/mol).
+
+    ``pair_i``, ``pair_j`` (n_pairs,) with i <= j; ``values[term]`` (n_pairs,); ``total`` is
+    their sum; ``min_heavy_distance`` (n_pairs,) A, the smallest heavy-atom distance seen between
+    the two residues (inf when none was examined, e.g. beyond the cutoff).
+    """
+
+    n_residues: int
+    pair_i: np.ndarray
+    pair_j: np.ndarray
+    values: dict
+    min_heavy_distance: np.ndarray
+
+    @property
+    def total(self) -> np.ndarray:
+        return sum(self.values[t] for t in TERMS)
+
+    def __len__(self) -> int:
+        return len(self.pair_i)
+
+    def column(self, quantity: str) -> np.ndarray:
+        """A term name, ``total``, ``bonded`` (sum of bonded terms) or ``nonbonded``."""
+        if quantity == "total":
+            return self.total
+        if quantity == "bonded":
+            return sum(self.values[t] for t in TERMS[:6])
+        if quantity == "nonbonded":
+            return self.values["coulomb"] + self.values["lj"]
+        return self.values[quantity]
+
+    def matrix(self, quantity: str = "total") -> sp.csr_matrix:
+        """Symmetric sparse (n_residues, n_residues) matrix; the upper triangle sums to the total."""
+        v = self.column(quantity)
+        n = self.n_residues
+        off = self.pair_i != self.pair_j
+        rows = np.concatenate([self.pair_i, self.pair_j[off]])
+        cols = np.concatenate([self.pair_j, self.pair_i[off]])
+        return sp.csr_matrix((np.concatenate([v, v[off]]), (rows, cols)), shape=(n, n))
+
+    def dense(self, quantity: str = "total") -> np.ndarray:
+        return self.matrix(quantity).toarray()
+
+    def per_residue(self, quantity: str = "total") -> np.ndarray:
+        """(n_residues,) per-residue totals: half of each off-diagonal entry, all of the diagonal."""
+        v = self.column(quantity)
+        diag = self.pair_i == self.pair_j
+        w = np.where(diag, v, 0.5 * v)
+        out = np.bincount(self.pair_i, weights=w, minlength=self.n_residues)
+        out += np.bincount(self.pair_j[~diag], weights=w[~diag], minlength=self.n_residues)
+        return out
+
+    def lookup(self, i: int, j: int) -> int | None:
+        """Row of residue pair (i, j) (any order), or None if it holds no entry."""
+        i, j = min(i, j), max(i, j)
+        key = np.int64(i) * self.n_residues + j
+        keys = self.pair_i.astype(np.int64) * self.n_residues + self.pair_j
+        k = np.searchsorted(keys, key)
+        return int(k) if k < len(keys) and keys[k] == key else None
+
+
+def assemble(n_residues: int, contributions, min_heavy=None) -> ResiduePairEnergies:
+    """Reduce (term, pair_i, pair_j, values) contributions into one sorted sparse table.
+
+    ``min_heavy`` is an optional (pair_i, pair_j, distance) triple, reduced by minimum.
+    """
+    all_i = [c[1] for c in contributions]
+    all_j = [c[2] for c in contributions]
+    if min_heavy is not None:
+        all_i.append(min_heavy[0]); all_j.append(min_heavy[1])
+    keys = np.concatenate([np.asarray(i, np.int64) * n_residues + np.asarray(j, np.int64)
+                           for i, j in zip(all_i, all_j)]) if all_i else np.zeros(0, np.int64)
+    uniq, inverse = np.unique(keys, return_inverse=True)
+    values = {t: np.zeros(len(uniq)) for t in TERMS}
+    offset = 0
+    for term, pi, _, v in contributions:
+        n = len(pi)
+        values[term] += np.bincount(inverse[offset:offset + n], weights=v, minlength=len(uniq))
+        offset += n
+    min_d = np.full(len(uniq), np.inf)
+    if min_heavy is not None:
+        np.minimum.at(min_d, inverse[offset:], min_heavy[2])
+    pair_i = (uniq // n_residues).astype(np.intp)
+    pair_j = (uniq % n_residues).astype(np.intp)
+    for v in values.values():
+        v.flags.writeable = False
+    return ResiduePairEnergies(n_residues, pair_i, pair_j, values, min_d)

@@ -1,0 +1,174 @@
+"""One energy evaluation: every term, every interaction, decomposed per residue pair.
+
+:func:`compute_steps` is a generator that yields ``(done, total)`` progress and returns the
+:class:`EnergyResult`; :func:`compute` runs it to the end.  GUI workers drive the generator and
+check for cancellation between steps.
+"""
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .decompose import ResiduePairEnergies, assemble, split_over_residue_pairs
+from .errors import InputMismatchError
+from .neighbors import (ResidueAtoms, all_residue_pairs, candidate_residue_pairs,
+                        check_periodic_box, residue_spheres)
+from .settings import EnergySettings
+from .system import BONDED_TERMS, TERMS, Frame, MolecularSystem
+from .terms import bonded, cmap
+from .terms.nonbonded import (KernelConstants, exception_energies, exclusion_csr,
+                              residue_pair_kernel)
+
+#: Bonded term name -> (system attribute, energy function).
+BONDED_TABLES = {
+    "bond": [("bonds", bonded.bond_energies)],
+    "urey_bradley": [("urey_bradley", bonded.urey_bradley_energies)],
+    "angle": [("angles", bonded.angle_energies)],
+    "dihedral": [("dihedrals", bonded.periodic_torsion_energies)],
+    "improper": [("impropers", bonded.harmonic_improper_energies),
+                 ("periodic_impropers", bonded.periodic_torsion_energies)],
+}
+
+#: Residue-pair rows evaluated per kernel call (a progress step).
+KERNEL_BLOCK = 200_000
+
+
+@dataclass(frozen=True)
+class EnergyResult:
+    """Everything one evaluation produced.
+
+    ``totals``: term -> kcal/mol (all of :data:`TERMS` plus ``total``).
+    ``interactions``: system attribute (``bonds``, ``angles``, ..., ``exceptions``) -> (n,) energies
+      aligned with that table's rows; for ``exceptions`` a dict with ``coulomb``, ``lj``, ``distance``.
+    ``residue_pairs``: the sparse decomposition.  ``timings``: seconds per phase.
+    """
+
+    settings: EnergySettings
+    totals: dict
+    interactions: dict
+    residue_pairs: ResiduePairEnergies
+    timings: dict = field(default_factory=dict)
+    periodic: bool = False
+    n_atom_pairs: int = 0
+
+
+def _validate_frame(system: MolecularSystem, frame: Frame):
+    if frame.positions.shape[0] != system.n_atoms:
+        raise InputMismatchError(f"the coordinates hold {frame.positions.shape[0]} atoms but the "
+                                 f"topology has {system.n_atoms}")
+    bad = ~np.isfinite(frame.positions).all(axis=1)
+    if bad.any():
+        i = int(np.flatnonzero(bad)[0])
+        raise InputMismatchError(f"{int(bad.sum())} atom(s) have non-finite coordinates, first: atom "
+                                 f"{i + 1} {system.names[i]} of {system.residues.label(system.resindex[i])}")
+
+
+def _exception_residue_flags(system, pairs_ij, n_res):
+    """(n_pairs,) bool: residue pair holds at least one exception pair."""
+    ex = system.exception_pairs
+    if len(ex) == 0:
+        return np.zeros(len(pairs_ij), dtype=np.bool_)
+    ri, rj = system.resindex[ex[:, 0]], system.resindex[ex[:, 1]]
+    ex_keys = np.unique(np.minimum(ri, rj).astype(np.int64) * n_res + np.maximum(ri, rj))
+    keys = pairs_ij[:, 0].astype(np.int64) * n_res + pairs_ij[:, 1]
+    return np.isin(keys, ex_keys)
+
+
+def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySettings | None = None):
+    """Generator: yields ``(done, total)``, returns an :class:`EnergyResult`."""
+    settings = settings or EnergySettings()
+    _validate_frame(system, frame)
+    t0 = time.perf_counter()
+    x = frame.positions
+    n_res = system.n_residues
+    box = frame.box if settings.use_periodic else None
+    periodic = box is not None and settings.cutoff_angstrom is not None
+    box_lengths = check_periodic_box(box, settings.cutoff_angstrom) if periodic else np.ones(3)
+
+    # Bonded terms (minimum image on bond vectors whenever a cell is known: molecules may be split).
+    contributions, interactions, totals = [], {}, dict.fromkeys(TERMS, 0.0)
+    for term, tables in BONDED_TABLES.items():
+        for attr, func in tables:
+            table = getattr(system, attr)
+            e = func(table, x, box)
+            interactions[attr] = e
+            totals[term] += float(e.sum())
+            contributions.append((term, *split_over_residue_pairs(table.atoms, e, system.resindex)))
+    e = cmap.cmap_energies(system.cmap, system.cmap_maps, x, box)
+    interactions["cmap"] = e
+    totals["cmap"] = float(e.sum())
+    contributions.append(("cmap", *split_over_residue_pairs(system.cmap.atoms, e, system.resindex)))
+
+    # Exceptions (1-4 with their own parameters; 1-2, 1-3 carry zeros).
+    coul_ex, lj_ex, r_ex = exception_energies(system, x, settings, box if periodic else None)
+    interactions["exceptions"] = {"coulomb": coul_ex, "lj": lj_ex, "distance": r_ex}
+    ex_i = system.resindex[system.exception_pairs[:, 0]]
+    ex_j = system.resindex[system.exception_pairs[:, 1]]
+    lo, hi = np.minimum(ex_i, ex_j), np.maximum(ex_i, ex_j)
+    contributions += [("coulomb", lo, hi, coul_ex), ("lj", lo, hi, lj_ex)]
+    totals["coulomb"] += float(coul_ex.sum())
+    totals["lj"] += float(lj_ex.sum())
+    t_bonded = time.perf_counter()
+
+    # Ordinary nonbonded pairs, residue pair by residue pair.
+    res_atoms = ResidueAtoms.from_resindex(system.resindex, n_res)
+    if settings.cutoff_angstrom is None:
+        candidates = all_residue_pairs(n_res)
+    else:
+        centers, radii = residue_spheres(x, res_atoms, system.resindex, box if periodic else None)
+        candidates = candidate_residue_pairs(centers, radii, settings.cutoff_angstrom,
+                                             box_lengths if periodic else None)
+    has_excl = _exception_residue_flags(system, candidates, n_res)
+    excl_ptr, excl_idx = exclusion_csr(system.exception_pairs, system.n_atoms)
+    kc = KernelConstants.from_settings(settings)
+    heavy = system.is_heavy
+    n_cand = len(candidates)
+    coul = np.zeros(n_cand); lj = np.zeros(n_cand)
+    count = np.zeros(n_cand, np.int64); min_h2 = np.zeros(n_cand)
+    t_search = time.perf_counter()
+    yield 0, n_cand
+    for start in range(0, n_cand, KERNEL_BLOCK):
+        stop = min(start + KERNEL_BLOCK, n_cand)
+        residue_pair_kernel(x, system.charges, system.lj_type, system.lj_rmin, system.lj_eps, heavy,
+                            res_atoms.ptr, res_atoms.atoms,
+                            np.ascontiguousarray(candidates[start:stop, 0]),
+                            np.ascontiguousarray(candidates[start:stop, 1]),
+                            has_excl[start:stop], excl_ptr, excl_idx, box_lengths, periodic,
+                            kc.mode, kc.coulomb_factor, kc.cutoff2, kc.switch_on, kc.switch_width,
+                            kc.k_rf, kc.c_rf,
+                            coul[start:stop], lj[start:stop], count[start:stop], min_h2[start:stop])
+        yield stop, n_cand
+    keep = count > 0
+    ci, cj = candidates[keep, 0], candidates[keep, 1]
+    contributions += [("coulomb", ci, cj, coul[keep]), ("lj", ci, cj, lj[keep])]
+    totals["coulomb"] += float(coul.sum())
+    totals["lj"] += float(lj.sum())
+    t_kernel = time.perf_counter()
+
+    residue_pairs = assemble(n_res, contributions, (ci, cj, np.sqrt(min_h2[keep])))
+    totals["total"] = float(sum(totals[t] for t in TERMS))
+    t_end = time.perf_counter()
+    timings = {"bonded": t_bonded - t0, "neighbour_search": t_search - t_bonded,
+               "nonbonded": t_kernel - t_search, "aggregate": t_end - t_kernel,
+               "compute": t_end - t0}
+    return EnergyResult(settings=settings, totals=totals, interactions=interactions,
+                        residue_pairs=residue_pairs, timings=timings, periodic=periodic,
+                        n_atom_pairs=int(count.sum()))
+
+
+def compute(system: MolecularSystem, frame: Frame, settings: EnergySettings | None = None,
+            progress=None) -> EnergyResult:
+    """Run :func:`compute_steps` to the end; ``progress(done, total)`` is called at each step."""
+    steps = compute_steps(system, frame, settings)
+    while True:
+        try:
+            done, total = next(steps)
+        except StopIteration as stop:
+            return stop.value
+        if progress is not None:
+            progress(done, total)
+
+
+__all__ = ["EnergyResult", "compute", "compute_steps", "BONDED_TERMS"]

@@ -1,0 +1,1 @@
+"""Energy terms: each module evaluates one family of interactions, one energy per interaction."""
