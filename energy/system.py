@@ -92,7 +92,8 @@ class ResidueTable:
 
     def label(self, i: int) -> str:
         """``A:LYS12`` style label of residue ``i``."""
-        return f"{self.chain[i]}:{self.resname[i]}{self.resid[i]}{self.icode[i]}"
+        chain = str(self.chain[i]).strip()
+        return f"{chain + ':' if chain else ''}{self.resname[i]}{self.resid[i]}{self.icode[i]}"
 
 
 @dataclass(frozen=True)

@@ -82,7 +82,7 @@ def _residue_table(topology):
     chains, resids, icodes, names = [], [], [], []
     for res in topology.residues():
         m = re.match(r"\s*(-?\d+)\s*(\S*)", str(res.id))
-        chains.append(res.chain.id or "A")
+        chains.append(str(res.chain.id).strip())
         resids.append(int(m.group(1)) if m else res.index + 1)
         icodes.append((m.group(2) if m else "") or getattr(res, "insertionCode", "").strip())
         names.append(res.name)
@@ -173,9 +173,16 @@ def system_from_openmm(omm_system, topology, types=None, force_field="", source_
 
 
 def load_builtin(path: str, add_hydrogens: bool = False, force_field=DEFAULT_FORCE_FIELD, ph: float = 7.0):
-    """Read ``path`` (PDB/mmCIF), parameterise it; return ``(MolecularSystem, Frame, topology)``."""
+    """Read ``path`` (PDB/mmCIF) and parameterise it.
+
+    Returns ``(MolecularSystem, Frame, openmm Topology, seconds spent reading the file)``.
+    """
+    import time
+
     from openmm import app, unit
+    t0 = time.perf_counter()
     structure = _read_openmm_structure(path)
+    read_seconds = time.perf_counter() - t0
     ff = app.ForceField(*force_field)
     modeller = app.Modeller(structure.topology, structure.positions)
     if add_hydrogens:
@@ -195,4 +202,4 @@ def load_builtin(path: str, add_hydrogens: bool = False, force_field=DEFAULT_FOR
     positions = np.array(modeller.positions.value_in_unit(unit.angstrom))
     system = system_from_openmm(omm_system, topology, _atom_types(ff, topology),
                                 force_field=" + ".join(force_field), source_files=(path,))
-    return system, Frame(positions, _box_from_topology(topology), 0, path), topology
+    return system, Frame(positions, _box_from_topology(topology), 0, path), topology, read_seconds

@@ -1,0 +1,142 @@
+"""The ``tessera`` command.
+
+``tessera`` with no arguments (or ``tessera view FILES...``, or plain ``tessera FILES...``) opens
+the desktop window; ``tessera scan ...`` runs the headless decomposition.  Expected failures
+print one line on stderr and exit with status 2; nothing is left half-written.
+"""
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+import time
+
+from .errors import EnergyError
+
+SUBCOMMANDS = ("scan", "view")
+
+
+def add_input_arguments(p: argparse.ArgumentParser) -> None:
+    """Arguments shared by every command that loads a system."""
+    p.add_argument("structure", help="PSF topology, or a PDB/mmCIF for the built-in force field")
+    p.add_argument("coords", nargs="?", default=None,
+                   help="coordinates (PDB, CRD, DCD, ...); required with a PSF")
+    p.add_argument("--params", action="append", default=[], metavar="FILE",
+                   help="CHARMM-style parameter or stream file (repeat for several)")
+    p.add_argument("--frame", type=int, default=0, metavar="N", help="frame of a trajectory (0-based)")
+    p.add_argument("--add-hydrogens", action="store_true",
+                   help="add missing hydrogens at pH 7 (built-in force field only)")
+
+
+def add_settings_arguments(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--cutoff", type=float, default=None, metavar="R",
+                   help="nonbonded cutoff in A (default: none, all pairs)")
+    p.add_argument("--switch", type=float, default=None, metavar="R_ON",
+                   help="start of the LJ switching function in A (needs --cutoff)")
+    p.add_argument("--electrostatics", choices=("plain", "reaction-field", "distance-dependent"),
+                   default="plain")
+    p.add_argument("--dielectric", type=float, default=1.0,
+                   help="relative dielectric (plain), or D in eps = D*r (distance-dependent)")
+    p.add_argument("--solvent-dielectric", type=float, default=78.5,
+                   help="dielectric beyond the cutoff for the reaction field (default 78.5)")
+    p.add_argument("--no-periodic", action="store_true",
+                   help="ignore the unit cell (no minimum image)")
+
+
+def settings_from_args(args):
+    from .settings import EnergySettings
+    return EnergySettings(cutoff_angstrom=args.cutoff, switch_angstrom=args.switch,
+                          electrostatics=args.electrostatics, dielectric=args.dielectric,
+                          solvent_dielectric=args.solvent_dielectric,
+                          use_periodic=not args.no_periodic)
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(prog="tessera", description=(
+        "Where is the energy? Per-term, per-residue-pair force-field energies of a protein model."))
+    sub = parser.add_subparsers(dest="command")
+    scan = sub.add_parser("scan", help="compute every term and the residue-pair decomposition")
+    add_input_arguments(scan)
+    add_settings_arguments(scan)
+    scan.add_argument("--select-a", metavar="SEL", help="MDAnalysis selection A (e.g. 'segid A')")
+    scan.add_argument("--select-b", metavar="SEL", help="MDAnalysis selection B")
+    scan.add_argument("--json", metavar="OUT.json", help="write the full result as JSON")
+    scan.add_argument("--csv-dir", metavar="DIR", help="write residues.csv and residue_pairs.csv")
+    scan.add_argument("--top", type=int, default=8, help="pairs shown in the summary (default 8)")
+    scan.add_argument("--quiet", action="store_true", help="no summary on stdout")
+    view = sub.add_parser("view", help="open the desktop window")
+    view.add_argument("files", nargs="*")
+    return parser
+
+
+def run_scan(args) -> int:
+    from .io.loaders import load_system
+    from .pipeline import compute
+    from . import report
+
+    if (args.select_a is None) != (args.select_b is None):
+        raise EnergyError("give both --select-a and --select-b, or neither")
+    settings = settings_from_args(args)
+    for out in (args.json,):
+        if out and not os.path.isdir(os.path.dirname(os.path.abspath(out))):
+            raise EnergyError(f"{out}: the output folder does not exist")
+    loaded = load_system(args.structure, args.coords, args.params, frame=args.frame,
+                         add_hydrogens=args.add_hydrogens)
+    result = compute(loaded.system, loaded.frame, settings)
+    selection = None
+    extra = {}
+    if args.select_a is not None:
+        from .io.selection import select_atoms, universe_for
+        from .pairs import interaction_energy
+        t0 = time.perf_counter()
+        u = universe_for(loaded.system, loaded.frame)
+        a = select_atoms(loaded.system, loaded.frame, args.select_a, u)
+        b = select_atoms(loaded.system, loaded.frame, args.select_b, u)
+        selection = {"a": args.select_a, "b": args.select_b, "n_atoms_a": int(len(a)),
+                     "n_atoms_b": int(len(b)),
+                     **interaction_energy(loaded.system, loaded.frame, settings, a, b)}
+        extra["selection"] = time.perf_counter() - t0
+    if args.json:
+        t0 = time.perf_counter()
+        doc = report.scan_document(loaded, result, selection, extra)
+        doc["timings"]["write"] = time.perf_counter() - t0
+        report.write_json(args.json, doc)
+    if args.csv_dir:
+        report.write_csv_dir(args.csv_dir, loaded.system, result)
+    if not args.quiet:
+        print(report.summary_text(loaded, result, args.top, selection))
+    return 0
+
+
+def run_view(files) -> int:
+    try:
+        from app.main import run_app
+    except ImportError as exc:
+        raise EnergyError(f"the desktop window is not available: {exc}") from None
+    return run_app(files)
+
+
+def main(argv=None) -> int:
+    argv = list(sys.argv[1:] if argv is None else argv)
+    if not argv or (argv[0] not in SUBCOMMANDS and not argv[0].startswith("-")):
+        argv = ["view", *argv]
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    try:
+        if args.command == "scan":
+            return run_scan(args)
+        return run_view(args.files)
+    except EnergyError as exc:
+        print(f"tessera: error: {exc}", file=sys.stderr)
+        return 2
+    except OSError as exc:
+        name = getattr(exc, "filename", None)
+        print(f"tessera: error: {name + ': ' if name else ''}{exc.strerror or exc}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print("tessera: interrupted", file=sys.stderr)
+        return 130
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,185 @@
+"""Results as JSON, CSV tables and a human summary; atomic file writing.
+
+Every file is written to a temporary file in the target folder and renamed into place, so a
+failure never leaves a half-written file.
+"""
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+import os
+import tempfile
+
+import numpy as np
+
+from .system import TERMS
+
+UNITS = {"energy": "kcal/mol", "distance": "angstrom"}
+
+
+def _default_permissions(path) -> None:
+    """mkstemp creates 0600 files; give the file the permissions a plain open() would."""
+    umask = os.umask(0)
+    os.umask(umask)
+    os.chmod(path, 0o666 & ~umask)
+
+
+def atomic_write_text(path, text: str) -> None:
+    """Write ``text`` to ``path`` via a temporary file and an atomic rename."""
+    path = os.fspath(path)
+    folder = os.path.dirname(os.path.abspath(path))
+    fd, tmp = tempfile.mkstemp(prefix=".tessera-", suffix=".tmp", dir=folder)
+    try:
+        with os.fdopen(fd, "w", newline="") as fh:
+            fh.write(text)
+        _default_permissions(tmp)
+        os.replace(tmp, path)
+    except BaseException:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+        raise
+
+
+def atomic_write_bytes(path, data: bytes) -> None:
+    path = os.fspath(path)
+    folder = os.path.dirname(os.path.abspath(path))
+    fd, tmp = tempfile.mkstemp(prefix=".tessera-", suffix=".tmp", dir=folder)
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(data)
+        _default_permissions(tmp)
+        os.replace(tmp, path)
+    except BaseException:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+        raise
+
+
+def residue_records(system) -> list[dict]:
+    r = system.residues
+    return [{"index": i, "chain": str(r.chain[i]), "resid": int(r.resid[i]), "icode": str(r.icode[i]),
+             "resname": str(r.resname[i])} for i in range(len(r))]
+
+
+def pair_rows(result, include_zero: bool = False):
+    """Residue-pair rows (dicts) with every term, total and minimum heavy-atom distance."""
+    rp = result.residue_pairs
+    total = rp.total
+    cols = {t: rp.values[t] for t in TERMS}
+    nonzero = np.ones(len(rp), bool) if include_zero else np.any(
+        np.stack([cols[t] != 0.0 for t in TERMS]), axis=0)
+    rows = []
+    for k in np.flatnonzero(nonzero):
+        row = {"i": int(rp.pair_i[k]), "j": int(rp.pair_j[k])}
+        for t in TERMS:
+            row[t] = float(cols[t][k])
+        row["total"] = float(total[k])
+        d = float(rp.min_heavy_distance[k])
+        row["min_heavy_distance"] = d if math.isfinite(d) else None
+        rows.append(row)
+    return rows
+
+
+def scan_document(loaded, result, selection=None, extra_timings=None) -> dict:
+    """The JSON document of ``tessera scan``."""
+    system = loaded.system
+    timings = {"read": loaded.timings.get("read", 0.0),
+               "parameterise": loaded.timings.get("parameterise", 0.0),
+               "compute": result.timings["compute"]}
+    timings.update({f"compute_{k}": v for k, v in result.timings.items() if k != "compute"})
+    timings.update(extra_timings or {})
+    doc = {
+        "program": "tessera",
+        "units": UNITS,
+        "inputs": {"structure": loaded.structure_path, "coordinates": loaded.coords_path or None,
+                   "parameters": list(loaded.param_paths), "frame": loaded.frame.index},
+        "force_field": system.force_field,
+        "n_atoms": system.n_atoms,
+        "n_residues": system.n_residues,
+        "settings": {**result.settings.as_dict(), "periodic": result.periodic},
+        "totals": {k: float(result.totals[k]) for k in (*TERMS, "total")},
+        "n_atom_pairs_within_cutoff": result.n_atom_pairs,
+        "residues": residue_records(system),
+        "pairs": pair_rows(result),
+        "timings": timings,
+    }
+    if selection is not None:
+        doc["selection"] = selection
+    return doc
+
+
+def residue_table_csv(system, result) -> str:
+    rp = result.residue_pairs
+    per = {t: rp.per_residue(t) for t in TERMS}
+    per_total = rp.per_residue("total")
+    out = io.StringIO()
+    w = csv.writer(out)
+    w.writerow(["index", "chain", "resid", "icode", "resname", *TERMS, "total"])
+    r = system.residues
+    for i in range(system.n_residues):
+        w.writerow([i, r.chain[i], int(r.resid[i]), r.icode[i], r.resname[i],
+                    *(f"{per[t][i]:.6f}" for t in TERMS), f"{per_total[i]:.6f}"])
+    return out.getvalue()
+
+
+def pair_table_csv(system, result) -> str:
+    out = io.StringIO()
+    w = csv.writer(out)
+    w.writerow(["i", "j", "label_i", "label_j", *TERMS, "total", "min_heavy_distance"])
+    for row in pair_rows(result):
+        d = row["min_heavy_distance"]
+        w.writerow([row["i"], row["j"], system.residues.label(row["i"]), system.residues.label(row["j"]),
+                    *(f"{row[t]:.6f}" for t in TERMS), f"{row['total']:.6f}",
+                    "" if d is None else f"{d:.3f}"])
+    return out.getvalue()
+
+
+def write_json(path, doc: dict) -> None:
+    atomic_write_text(path, json.dumps(doc, indent=1, allow_nan=False) + "\n")
+
+
+def write_csv_dir(folder, system, result) -> list[str]:
+    folder = os.fspath(folder)
+    os.makedirs(folder, exist_ok=True)
+    paths = [os.path.join(folder, "residues.csv"), os.path.join(folder, "residue_pairs.csv")]
+    atomic_write_text(paths[0], residue_table_csv(system, result))
+    atomic_write_text(paths[1], pair_table_csv(system, result))
+    return paths
+
+
+def summary_text(loaded, result, top: int = 8, selection=None) -> str:
+    """Human summary: system, per-term totals, strongest repulsive and attractive residue pairs."""
+    system = loaded.system
+    lines = [f"{loaded.structure_path}: {system.n_atoms} atoms, {system.n_residues} residues; "
+             f"{system.force_field}",
+             f"settings: {result.settings.describe()}"
+             + ("; periodic (minimum image)" if result.periodic else ""),
+             "", "per-term totals (kcal/mol):"]
+    for t in (*TERMS, "total"):
+        lines.append(f"  {t:<13}{result.totals[t]:>16.4f}")
+    rp = result.residue_pairs
+    inter = rp.pair_i != rp.pair_j
+    total = rp.total
+    idx = np.flatnonzero(inter)
+    if len(idx):
+        order = idx[np.argsort(total[idx])]
+        label = system.residues.label
+        lines += ["", f"most repulsive residue pairs (kcal/mol; bonded neighbours included):"]
+        for k in order[::-1][:top]:
+            if total[k] <= 0:
+                break
+            lines.append(f"  {label(rp.pair_i[k]):>14} - {label(rp.pair_j[k]):<14}{total[k]:>14.3f}")
+        lines += ["", "most attractive residue pairs (kcal/mol):"]
+        for k in order[:top]:
+            if total[k] >= 0:
+                break
+            lines.append(f"  {label(rp.pair_i[k]):>14} - {label(rp.pair_j[k]):<14}{total[k]:>14.3f}")
+    if selection is not None:
+        lines += ["", f"interaction {selection['a']!r} vs {selection['b']!r}: "
+                  f"Coulomb {selection['coulomb']:.4f}, LJ {selection['lj']:.4f}, "
+                  f"total {selection['total']:.4f} kcal/mol ({selection['n_pairs']} atom pairs)"]
+    lines += ["", "timings (s): " + ", ".join(f"{k} {v:.3f}" for k, v in
+                                           {**loaded.timings, "compute": result.timings['compute']}.items())]
+    return "\n".join(lines)
