@@ -13,7 +13,7 @@ import time
 
 from .errors import EnergyError
 
-SUBCOMMANDS = ("scan", "view")
+SUBCOMMANDS = ("scan", "view", "compare")
 
 
 def add_input_arguments(p: argparse.ArgumentParser) -> None:
@@ -64,6 +64,13 @@ def build_parser() -> argparse.ArgumentParser:
     scan.add_argument("--csv-dir", metavar="DIR", help="write residues.csv and residue_pairs.csv")
     scan.add_argument("--top", type=int, default=8, help="pairs shown in the summary (default 8)")
     scan.add_argument("--quiet", action="store_true", help="no summary on stdout")
+    compare = sub.add_parser("compare", help="difference map of two structures of the same system")
+    try:
+        from . import compare_cli
+    except ImportError:
+        compare_cli = None
+    if compare_cli is not None:
+        compare_cli.configure_parser(compare)
     view = sub.add_parser("view", help="open the desktop window")
     view.add_argument("files", nargs="*")
     return parser
@@ -125,6 +132,9 @@ def main(argv=None) -> int:
     try:
         if args.command == "scan":
             return run_scan(args)
+        if args.command == "compare":
+            from . import compare_cli
+            return compare_cli.run(args)
         return run_view(args.files)
     except EnergyError as exc:
         print(f"tessera: error: {exc}", file=sys.stderr)

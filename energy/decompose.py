@@ -142,3 +142,33 @@ def assemble(n_residues: int, contributions, min_heavy=None) -> ResiduePairEnerg
     for v in values.values():
         v.flags.writeable = False
     return ResiduePairEnergies(n_residues, pair_i, pair_j, values, min_d)
+
+
+def bonded_terms_for_pair(system, result, res_i: int, res_j: int) -> list[dict]:
+    """Bonded interactions that contribute to residue pair (i, j), with the share attributed.
+
+    Each entry: ``term``, ``table`` (system attribute), ``row``, ``atoms`` (tuple of indices),
+    ``energy`` (the whole interaction, kcal/mol) and ``share`` (the part in this pair's entry).
+    """
+    from .pipeline import BONDED_TABLES
+    lo, hi = min(res_i, res_j), max(res_i, res_j)
+    tables = [(term, attr) for term, entries in BONDED_TABLES.items() for attr, _ in entries]
+    tables.append(("cmap", "cmap"))
+    out = []
+    for term, attr in tables:
+        table = getattr(system, attr)
+        if not len(table):
+            continue
+        res = system.resindex[table.atoms]
+        touches = np.any(res == lo, axis=1) & np.any(res == hi, axis=1)
+        energies = result.interactions[attr]
+        for row in np.flatnonzero(touches):
+            distinct = np.unique(res[row])
+            if lo == hi and len(distinct) > 1:
+                continue
+            n_pairs = 1 if len(distinct) == 1 else len(distinct) * (len(distinct) - 1) // 2
+            e = float(energies[row])
+            out.append({"term": term, "table": attr, "row": int(row),
+                        "atoms": tuple(int(a) for a in table.atoms[row]), "energy": e,
+                        "share": e / n_pairs})
+    return out

@@ -140,3 +140,44 @@ def interaction_energy(system, frame, settings, atoms_a, atoms_b) -> dict:
     e = atom_pair_energies(system, frame, settings, atoms_a, atoms_b)
     c, l = float(e.coulomb.sum()), float(e.lj.sum())
     return {"coulomb": c, "lj": l, "total": c + l, "n_pairs": int(len(e))}
+
+
+def pair_parameters(system: MolecularSystem, a: int, b: int) -> dict:
+    """Nonbonded parameters of atom pair (a, b): ``qq`` (e^2), ``rmin`` (A), ``eps`` (kcal/mol),
+    ``is_exception`` (its own 1-4 values, or zeros for 1-2/1-3)."""
+    lo, hi = min(a, b), max(a, b)
+    ex = system.exception_pairs
+    hit = np.flatnonzero((ex[:, 0] == lo) & (ex[:, 1] == hi))
+    if len(hit):
+        k = int(hit[0])
+        return {"qq": float(system.exception_qq[k]), "rmin": float(system.exception_rmin[k]),
+                "eps": float(system.exception_eps[k]), "is_exception": True}
+    ti, tj = system.lj_type[a], system.lj_type[b]
+    return {"qq": float(system.charges[a] * system.charges[b]), "rmin": float(system.lj_rmin[ti, tj]),
+            "eps": float(system.lj_eps[ti, tj]), "is_exception": False}
+
+
+def pair_curve(system: MolecularSystem, settings: EnergySettings | None, a: int, b: int, distances):
+    """Coulomb and LJ of atom pair (a, b) over ``distances`` (A): two arrays, kcal/mol.
+
+    The same forms as the energy evaluation (cutoff: zero beyond it; exception pairs use plain
+    Coulomb and LJ).  Returns also the parameters (see :func:`pair_parameters`).
+    """
+    settings = settings or EnergySettings()
+    p = pair_parameters(system, a, b)
+    r = np.asarray(distances, dtype=np.float64)
+    r2 = r * r
+    n = len(r)
+    if p["is_exception"]:
+        plain = EnergySettings(dielectric=settings.dielectric,
+                               electrostatics="distance-dependent" if settings.electrostatics == "distance-dependent" else "plain")
+        kc = KernelConstants.from_settings(plain)
+    else:
+        kc = KernelConstants.from_settings(settings)
+    coul, lj = _pair_energies(r2, np.full(n, p["qq"]), np.full(n, p["rmin"]), np.full(n, p["eps"]),
+                              kc.mode, kc.coulomb_factor, kc.k_rf, kc.c_rf, kc.switch_on, kc.switch_width)
+    if not p["is_exception"] and settings.cutoff_angstrom is not None:
+        beyond = r2 >= kc.cutoff2
+        coul[beyond] = 0.0
+        lj[beyond] = 0.0
+    return coul, lj, p
