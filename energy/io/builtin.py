@@ -41,18 +41,22 @@ def _read_openmm_structure(path: str):
 def _unmatched_message(ff, topology, add_hydrogens: bool, ff_names) -> str:
     unmatched = ff.getUnmatchedResidues(topology)
     known = {name for name in ff._templates}
-    labels, hint_h = [], False
-    for res in unmatched[:20]:
-        labels.append(f"{res.chain.id}:{res.name}{res.id}")
-        hint_h |= res.name in known
-    more = f" and {len(unmatched) - 20} more" if len(unmatched) > 20 else ""
-    msg = (f"{len(unmatched)} residue(s) have no template in {', '.join(ff_names)}: "
-           f"{', '.join(labels)}{more}. ")
-    if hint_h and not add_hydrogens:
-        msg += "Their names are known, so atoms are missing or extra: try --add-hydrogens. "
-    msg += ("Remove unknown residues (ligands, modified residues) from the file, or use the PSF "
-            "route with parameter files that cover them.")
-    return msg
+    has_h = any(a.element is not None and a.element.symbol == "H" for a in topology.atoms())
+    names_known = [r for r in unmatched if r.name in known]
+    labels = [f"{r.chain.id.strip() + ':' if r.chain.id.strip() else ''}{r.name}{r.id}" for r in unmatched[:12]]
+    more = f" and {len(unmatched) - 12} more" if len(unmatched) > 12 else ""
+    head = f"{len(unmatched)} residue(s) match no template of {', '.join(ff_names)}: {', '.join(labels)}{more}. "
+    if not has_h and not add_hydrogens:
+        return "the structure has no hydrogen atoms: add them with --add-hydrogens. " + head
+    if names_known and not add_hydrogens:
+        head += "Residues with standard names but missing or extra atoms may need --add-hydrogens. "
+    return head + ("Remove unsupported residues (ligands, modified residues) from the file, or use "
+                   "the PSF route with parameter files that cover them.")
+
+
+def _clean_openmm_message(exc: Exception) -> str:
+    text = str(exc).split("For more information")[0].strip()
+    return " ".join(text.split())
 
 
 def _atom_types(ff, topology):
@@ -189,8 +193,10 @@ def load_builtin(path: str, add_hydrogens: bool = False, force_field=DEFAULT_FOR
         try:
             modeller.addHydrogens(ff, pH=ph)
         except Exception as exc:
-            raise UnknownResidueError(f"{path}: could not add hydrogens: {exc}. "
-                                      + _unmatched_message(ff, modeller.topology, True, force_field)) from None
+            raise UnknownResidueError(
+                f"{path}: could not add hydrogens: {_clean_openmm_message(exc)} Remove or rename "
+                "unsupported residues (ligands, modified residues), or use the PSF route with "
+                "parameter files that cover them.") from None
     topology = modeller.topology
     if ff.getUnmatchedResidues(topology):
         raise UnknownResidueError(f"{path}: " + _unmatched_message(ff, topology, add_hydrogens, force_field))
@@ -198,7 +204,8 @@ def load_builtin(path: str, add_hydrogens: bool = False, force_field=DEFAULT_FOR
         omm_system = ff.createSystem(topology, nonbondedMethod=app.NoCutoff, constraints=None,
                                      rigidWater=False, removeCMMotion=False)
     except ValueError as exc:
-        raise UnknownResidueError(f"{path}: the force field could not parameterise the structure: {exc}") from None
+        raise UnknownResidueError(f"{path}: the force field could not parameterise the structure: "
+                                  f"{_clean_openmm_message(exc)}") from None
     positions = np.array(modeller.positions.value_in_unit(unit.angstrom))
     system = system_from_openmm(omm_system, topology, _atom_types(ff, topology),
                                 force_field=" + ".join(force_field), source_files=(path,))

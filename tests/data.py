@@ -1,0 +1,25 @@
+"""Registry of the structure files the tests use, each with its provenance."""
+from __future__ import annotations
+
+import os
+
+import MDAnalysisTests.datafiles as _mdat
+import openmm.app as _omm_app
+
+REPO = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
+
+#: OpenMM 8.6 package data: a small protein with hydrogens in a periodic TIP3P water box
+#: (8,867 atoms, CRYST1 49.2 x 46.0 x 38.9 A).  Ships with the `openmm` wheel.
+OPENMM_TEST_PDB = os.path.join(os.path.dirname(_omm_app.__file__), "data", "test.pdb")
+
+#: MDAnalysisTests 2.11 package data: adenylate kinase, open form, 214 residues, with hydrogens.
+ADK_OPEN_PDB = os.path.join(os.path.dirname(_mdat.__file__), "data", "adk_open.pdb")
+
+#: MDAnalysisTests 2.11 package data: the same protein as a CHARMM PSF (3341 atoms) and a DCD.
+ADK_PSF = _mdat.PSF
+ADK_DCD = _mdat.DCD
+
+#: Our own demo scenario (samples/make_scenario.py): invented binder on an invented helix bundle.
+SCENARIO_DIR = os.path.join(REPO, "samples", "scenario")
+SCENARIO_CLASH_PDB = os.path.join(SCENARIO_DIR, "complex_clash.pdb")
+SCENARIO_FIXED_PDB = os.path.join(SCENARIO_DIR, "complex_fixed.pdb")
