@@ -74,9 +74,12 @@ def heavy_atoms():
 
 def build_coordinates():
     """OpenMM topology and minimised positions (A) of the capped peptide with hydrogens."""
+    import random
+
     import openmm
     from openmm import app, unit
 
+    random.seed(20261201)  # Modeller places some hydrogens with random offsets: reproducible
     lines = [f"ATOM  {i + 1:5d} {name:<4s} {res:3s} A{resid:4d}    "
              f"{x[0]:8.3f}{x[1]:8.3f}{x[2]:8.3f}  1.00  0.00          {el:>2s}"
              for i, (res, resid, name, el, x) in enumerate(heavy_atoms())]
