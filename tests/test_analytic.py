@@ -40,7 +40,7 @@ def test_lj_minimum_at_rmin_with_depth_minus_eps(rmin_half, eps):
     # eps = sqrt(eps_i eps_j).
     rmin = sum(rmin_half)
     depth = np.sqrt(eps[0] * eps[1])
-    r_grid = np.linspace(0.8 * rmin, 1.5 * rmin, 2001)
+    r_grid = np.linspace(0.8 * rmin, 1.5 * rmin, 401)
     energies = []
     for r in r_grid:
         system, frame = _two_atoms(r, rmin_half=rmin_half, eps=eps)
