@@ -13,7 +13,7 @@ import time
 
 from .errors import EnergyError
 
-SUBCOMMANDS = ("scan", "view", "compare")
+SUBCOMMANDS = ("scan", "view", "compare", "clashes")
 
 
 def add_input_arguments(p: argparse.ArgumentParser) -> None:
@@ -63,7 +63,19 @@ def build_parser() -> argparse.ArgumentParser:
     scan.add_argument("--json", metavar="OUT.json", help="write the full result as JSON")
     scan.add_argument("--csv-dir", metavar="DIR", help="write residues.csv and residue_pairs.csv")
     scan.add_argument("--top", type=int, default=8, help="pairs shown in the summary (default 8)")
-    scan.add_argument("--quiet", action="store_true", help="no summary on stdout")
+    scan.add_argument("--quiet", action="store_true", help="no summary or progress on stdout/stderr")
+    traj = scan.add_argument_group("trajectories")
+    traj.add_argument("--frames", metavar="START:STOP:STEP", default=None,
+                      help="decompose a range of frames of the coordinate trajectory")
+    traj.add_argument("--workers", type=int, default=1, metavar="N",
+                      help="frames in parallel on this machine (with --frames)")
+    traj.add_argument("--scheduler", metavar="ADDRESS", default=None,
+                      help="send frames to a running Dask distributed scheduler (with --frames)")
+    traj.add_argument("--pairs", metavar="I-J", action="append", default=[],
+                      help="residue pair (0-based indices, e.g. 12-87) whose per-frame energies to record")
+    traj.add_argument("--persistence-threshold", type=float, default=-1.0, metavar="E",
+                      help="a residue pair 'persists' in frames where its total is below E kcal/mol "
+                           "(default -1.0)")
     compare = sub.add_parser("compare", help="difference map of two structures of the same system")
     try:
         from . import compare_cli
@@ -71,12 +83,25 @@ def build_parser() -> argparse.ArgumentParser:
         compare_cli = None
     if compare_cli is not None:
         compare_cli.configure_parser(compare)
+    clashes = sub.add_parser("clashes", help="rank overlapping atom pairs (steric clashes)")
+    try:
+        from . import clashes_cli
+    except ImportError:
+        clashes_cli = None
+    if clashes_cli is not None:
+        clashes_cli.configure_parser(clashes)
     view = sub.add_parser("view", help="open the desktop window")
     view.add_argument("files", nargs="*")
     return parser
 
 
 def run_scan(args) -> int:
+    if args.frames is not None:
+        try:
+            from . import trajectory_cli
+        except ImportError as exc:
+            raise EnergyError(f"trajectory scans are not available: {exc}") from None
+        return trajectory_cli.run(args)
     from .io.loaders import load_system
     from .pipeline import compute
     from . import report
@@ -132,6 +157,9 @@ def main(argv=None) -> int:
     try:
         if args.command == "scan":
             return run_scan(args)
+        if args.command == "clashes":
+            from . import clashes_cli
+            return clashes_cli.run(args)
         if args.command == "compare":
             from . import compare_cli
             return compare_cli.run(args)
