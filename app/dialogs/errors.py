@@ -1,0 +1,34 @@
+"""Error reporting: a message box with the engine's one-line message, never a raw traceback
+(unexpected errors put theirs under "Show Details...")."""
+from __future__ import annotations
+
+import logging
+import sys
+import traceback
+
+from PySide6.QtWidgets import QMessageBox
+
+log = logging.getLogger(__name__)
+
+
+def show_error(parent, title: str, message: str, details: str = "") -> None:
+    box = QMessageBox(parent)
+    box.setIcon(QMessageBox.Icon.Warning)
+    box.setWindowTitle(title)
+    box.setText(message)
+    if details:
+        box.setDetailedText(details)
+    box.setStandardButtons(QMessageBox.StandardButton.Ok)
+    box.exec()
+
+
+def install_excepthook(parent_getter) -> None:
+    """Log unexpected exceptions in Qt slots and show them with their traceback under Details."""
+    def hook(kind, value, tb):
+        text = "".join(traceback.format_exception(kind, value, tb))
+        log.error("unexpected error\n%s", text)
+        try:
+            show_error(parent_getter(), "Unexpected error", f"{kind.__name__}: {value}", text)
+        except Exception:  # never raise from the hook
+            sys.__excepthook__(kind, value, tb)
+    sys.excepthook = hook

@@ -1,0 +1,69 @@
+"""The one shared selection of the window: a residue pair, an atom pair, and the A/B groups.
+
+Every view reads and writes this model only.  Setters that receive the value already held
+return without emitting, so the two-way syncing between views never ping-pongs.
+"""
+from __future__ import annotations
+
+from PySide6.QtCore import QObject, Signal
+
+
+def _norm_pair(pair):
+    if pair is None:
+        return None
+    i, j = int(pair[0]), int(pair[1])
+    return (i, j) if i <= j else (j, i)
+
+
+class SelectionModel(QObject):
+    """Residue pair ``(i, j)`` with i <= j (residue indices of the current dataset), atom pair
+    ``(a, b)`` (atom indices) and the two group selection strings."""
+
+    pairChanged = Signal(object)        # (i, j) or None
+    atomPairChanged = Signal(object)    # (a, b) or None
+    groupsChanged = Signal(str, str)
+
+    def __init__(self, parent=None):
+        super().__init__(parent)
+        self._pair = None
+        self._atom_pair = None
+        self._groups = ("", "")
+
+    @property
+    def pair(self):
+        return self._pair
+
+    @property
+    def atom_pair(self):
+        return self._atom_pair
+
+    @property
+    def groups(self):
+        return self._groups
+
+    def set_pair(self, pair) -> None:
+        pair = _norm_pair(pair)
+        if pair == self._pair:
+            return
+        self._pair = pair
+        if self._atom_pair is not None:
+            self._atom_pair = None
+            self.atomPairChanged.emit(None)
+        self.pairChanged.emit(pair)
+
+    def set_atom_pair(self, pair) -> None:
+        pair = None if pair is None else (int(pair[0]), int(pair[1]))
+        if pair == self._atom_pair:
+            return
+        self._atom_pair = pair
+        self.atomPairChanged.emit(pair)
+
+    def set_groups(self, a: str, b: str) -> None:
+        groups = (a.strip(), b.strip())
+        if groups == self._groups:
+            return
+        self._groups = groups
+        self.groupsChanged.emit(*groups)
+
+    def clear(self) -> None:
+        self.set_pair(None)

@@ -1,0 +1,58 @@
+"""Atom contributions: every atom pair and bonded term behind the selected residue pair."""
+from __future__ import annotations
+
+from PySide6.QtCore import Qt, QItemSelectionModel
+from PySide6.QtWidgets import (QAbstractItemView, QLabel, QTableView, QVBoxLayout, QWidget)
+
+from ..models.atom_table import AtomTableModel
+
+
+class AtomContributionsView(QWidget):
+    def __init__(self, selection, parent=None):
+        super().__init__(parent)
+        self.selection = selection
+        self.model = AtomTableModel(self)
+        self._syncing = False
+        self.caption = QLabel("Select a residue pair in the map or the ledger.")
+        self.caption.setObjectName("atomCaption")
+        self.caption.setWordWrap(True)
+        self.table = QTableView(); self.table.setObjectName("atomTable")
+        self.table.setModel(self.model)
+        self.table.setSortingEnabled(True)
+        self.table.horizontalHeader().setSortIndicator(-1, Qt.SortOrder.AscendingOrder)
+        self.table.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
+        self.table.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
+        self.table.setAlternatingRowColors(True)
+        self.table.verticalHeader().setVisible(False)
+        self.table.verticalHeader().setDefaultSectionSize(22)
+        self.table.horizontalHeader().setStretchLastSection(True)
+        lay = QVBoxLayout(self); lay.setContentsMargins(2, 2, 2, 2)
+        lay.addWidget(self.caption); lay.addWidget(self.table, 1)
+        self.table.selectionModel().currentRowChanged.connect(self._on_row)
+        selection.atomPairChanged.connect(self._on_atom_pair)
+
+    def show_contributions(self, system, contrib, caption: str) -> None:
+        self.model.set_contributions(system, contrib)
+        self.caption.setText(caption)
+        self.table.resizeColumnsToContents()
+
+    def _on_row(self, current, _prev) -> None:
+        if self._syncing or not current.isValid():
+            return
+        pair = self.model.atom_pair_of_row(current.row())
+        self.selection.set_atom_pair(pair)
+
+    def _on_atom_pair(self, pair) -> None:
+        row = self.model.row_of_atom_pair(pair)
+        self._syncing = True
+        try:
+            sm = self.table.selectionModel()
+            if row < 0:
+                sm.clearSelection()
+            else:
+                idx = self.model.index(row, 0)
+                sm.setCurrentIndex(idx, QItemSelectionModel.SelectionFlag.ClearAndSelect
+                                   | QItemSelectionModel.SelectionFlag.Rows)
+                self.table.scrollTo(idx)
+        finally:
+            self._syncing = False
