@@ -33,8 +33,13 @@ def add_settings_arguments(p: argparse.ArgumentParser) -> None:
                    help="nonbonded cutoff in A (default: none, all pairs)")
     p.add_argument("--switch", type=float, default=None, metavar="R_ON",
                    help="start of the LJ switching function in A (needs --cutoff)")
-    p.add_argument("--electrostatics", choices=("plain", "reaction-field", "distance-dependent"),
-                   default="plain")
+    p.add_argument("--electrostatics", choices=("plain", "reaction-field", "distance-dependent", "shifted"),
+                   default="plain", help="Coulomb model (reaction-field and shifted need --cutoff)")
+    p.add_argument("--vdw", choices=("lj", "exp6"), default="lj",
+                   help="repulsion-dispersion form: the force field's LJ 12-6, or exp-6 with the same "
+                        "minimum per pair")
+    p.add_argument("--exp6-alpha", type=float, default=None, metavar="A",
+                   help="exp-6 steepness (default 13.772, matching the LJ curvature at the minimum)")
     p.add_argument("--dielectric", type=float, default=1.0,
                    help="relative dielectric (plain), or D in eps = D*r (distance-dependent)")
     p.add_argument("--solvent-dielectric", type=float, default=78.5,
@@ -44,11 +49,12 @@ def add_settings_arguments(p: argparse.ArgumentParser) -> None:
 
 
 def settings_from_args(args):
-    from .settings import EnergySettings
+    from .settings import EXP6_ALPHA_MATCHING_LJ, EnergySettings
+    alpha = EXP6_ALPHA_MATCHING_LJ if args.exp6_alpha is None else args.exp6_alpha
     return EnergySettings(cutoff_angstrom=args.cutoff, switch_angstrom=args.switch,
                           electrostatics=args.electrostatics, dielectric=args.dielectric,
                           solvent_dielectric=args.solvent_dielectric,
-                          use_periodic=not args.no_periodic)
+                          use_periodic=not args.no_periodic, vdw=args.vdw, exp6_alpha=alpha)
 
 
 def build_parser() -> argparse.ArgumentParser:

@@ -2,14 +2,13 @@
 
 :func:`atom_pair_energies` lists every nonbonded atom pair between two atom sets (or within one),
 with distance, Coulomb and LJ, exception pairs (1-4, and zero-valued 1-2/1-3) flagged.  It uses
-the same pair formula as the residue-pair kernel (:func:`energy.terms.nonbonded._pair_energy`).
+the same pair formula as the residue-pair kernel (:func:`energy.terms.nonbonded.pair_energies`).
 :func:`interaction_energy` sums it for two selections.
 """
 from __future__ import annotations
 
 from dataclasses import dataclass
 
-import numba
 import numpy as np
 from scipy.spatial import cKDTree
 
@@ -17,7 +16,7 @@ from .geometry import minimum_image
 from .neighbors import check_periodic_box
 from .settings import EnergySettings
 from .system import Frame, MolecularSystem
-from .terms.nonbonded import KernelConstants, _pair_energy, exception_energies
+from .terms.nonbonded import KernelConstants, exception_energies, pair_energies
 
 #: Atom pairs evaluated per block when a no-cutoff request spans many atoms.
 PAIR_BLOCK = 2_000_000
@@ -43,17 +42,6 @@ class AtomPairEnergies:
 
     def __len__(self) -> int:
         return len(self.pairs)
-
-
-@numba.njit(cache=True)
-def _pair_energies(r2, qq, rmin, eps, mode, cf, k_rf, c_rf, switch_on, switch_width):
-    n = len(r2)
-    coul = np.empty(n)
-    lj = np.empty(n)
-    for k in range(n):
-        coul[k], lj[k] = _pair_energy(r2[k], qq[k], rmin[k], eps[k], mode, cf, k_rf, c_rf,
-                                      switch_on, switch_width)
-    return coul, lj
 
 
 def _candidate_pairs(x, atoms_a, atoms_b, cutoff, box_lengths):
@@ -110,9 +98,8 @@ def atom_pair_energies(system: MolecularSystem, frame: Frame, settings: EnergySe
         d = minimum_image(x[p[:, 1]] - x[p[:, 0]], box if periodic else None)
         r2 = np.einsum("ij,ij->i", d, d)
         ti, tj = system.lj_type[p[:, 0]], system.lj_type[p[:, 1]]
-        c, l = _pair_energies(r2, system.charges[p[:, 0]] * system.charges[p[:, 1]],
-                              system.lj_rmin[ti, tj], system.lj_eps[ti, tj], kc.mode,
-                              kc.coulomb_factor, kc.k_rf, kc.c_rf, kc.switch_on, kc.switch_width)
+        c, l = pair_energies(r2, system.charges[p[:, 0]] * system.charges[p[:, 1]],
+                             system.lj_rmin[ti, tj], system.lj_eps[ti, tj], kc.values)
         coul_parts.append(c); lj_parts.append(l); d_parts.append(np.sqrt(r2))
     coul_ex, lj_ex, r_ex = exception_energies(system, x, settings, box if periodic else None)
     coul_parts.append(coul_ex[ex_sel]); lj_parts.append(lj_ex[ex_sel]); d_parts.append(r_ex[ex_sel])
@@ -168,14 +155,9 @@ def pair_curve(system: MolecularSystem, settings: EnergySettings | None, a: int,
     r = np.asarray(distances, dtype=np.float64)
     r2 = r * r
     n = len(r)
-    if p["is_exception"]:
-        plain = EnergySettings(dielectric=settings.dielectric,
-                               electrostatics="distance-dependent" if settings.electrostatics == "distance-dependent" else "plain")
-        kc = KernelConstants.from_settings(plain)
-    else:
-        kc = KernelConstants.from_settings(settings)
-    coul, lj = _pair_energies(r2, np.full(n, p["qq"]), np.full(n, p["rmin"]), np.full(n, p["eps"]),
-                              kc.mode, kc.coulomb_factor, kc.k_rf, kc.c_rf, kc.switch_on, kc.switch_width)
+    kc = KernelConstants.from_settings(settings, for_exceptions=p["is_exception"])
+    coul, lj = pair_energies(r2, np.full(n, p["qq"]), np.full(n, p["rmin"]), np.full(n, p["eps"]),
+                             kc.values)
     if not p["is_exception"] and settings.cutoff_angstrom is not None:
         beyond = r2 >= kc.cutoff2
         coul[beyond] = 0.0

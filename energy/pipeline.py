@@ -136,8 +136,7 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
                             np.ascontiguousarray(candidates[start:stop, 0]),
                             np.ascontiguousarray(candidates[start:stop, 1]),
                             has_excl[start:stop], excl_ptr, excl_idx, box_lengths, periodic,
-                            kc.mode, kc.coulomb_factor, kc.cutoff2, kc.switch_on, kc.switch_width,
-                            kc.k_rf, kc.c_rf,
+                            kc.values, kc.cutoff2,
                             coul[start:stop], lj[start:stop], count[start:stop], min_h2[start:stop])
         yield stop, n_cand
     keep = count > 0

@@ -3,10 +3,13 @@
 Forms (docs/physics.md):
   LJ       eps_ij [(Rmin_ij/r)^12 - 2 (Rmin_ij/r)^6], times the switching function S(r) when a
            switching distance is set: S = 1 - 10x^3 + 15x^4 - 6x^5, x = (r - r_on)/(r_c - r_on).
+  exp-6    eps/(a-6) [6 exp(a(1 - r/Rmin)) - a (Rmin/r)^6], held at its short-range maximum
+           inside the turnover point (optional alternative to LJ).
   Coulomb  plain              k q_i q_j / (eps r)
            reaction field     k q_i q_j / eps (1/r + k_rf r^2 - c_rf),
                               k_rf = (eps_rf - eps)/((2 eps_rf + eps) r_c^3), c_rf = 1/r_c + k_rf r_c^2
            distance-dependent k q_i q_j / (D r^2)
+           shifted            k q_i q_j / eps (1/r - 1/r_c + (r - r_c)/r_c^2)
 Exception pairs (1-2, 1-3, 1-4) are skipped here and evaluated by :func:`exception_energies`
 with their own parameters, plain Coulomb and plain LJ, no cutoff.
 
@@ -23,56 +26,102 @@ import numpy as np
 from ..settings import EnergySettings
 from ..units import COULOMB_CONSTANT
 
-MODE_PLAIN, MODE_REACTION_FIELD, MODE_DISTANCE_DEPENDENT = 0, 1, 2
+MODE_PLAIN, MODE_REACTION_FIELD, MODE_DISTANCE_DEPENDENT, MODE_SHIFTED = 0, 1, 2, 3
 _MODES = {"plain": MODE_PLAIN, "reaction-field": MODE_REACTION_FIELD,
-          "distance-dependent": MODE_DISTANCE_DEPENDENT}
+          "distance-dependent": MODE_DISTANCE_DEPENDENT, "shifted": MODE_SHIFTED}
+VDW_LJ, VDW_EXP6 = 0, 1
+
+# Layout of the constants array handed to the numba kernels.
+C_MODE, C_COULOMB, C_KRF, C_CRF, C_RC, C_SWITCH_ON, C_SWITCH_WIDTH, C_VDW, C_ALPHA, C_XTURN = range(10)
+
+
+def exp6_turnover(alpha: float) -> float:
+    """x = r/Rmin of the exp-6 maximum at short range: the root of alpha(1-x) + 7 ln x in (0, 7/alpha).
+
+    Below it the exp-6 energy falls towards minus infinity; the engine holds the energy at its
+    value there (docs/physics.md).
+    """
+    from scipy.optimize import brentq
+    return float(brentq(lambda x: alpha * (1.0 - x) + 7.0 * np.log(x), 1e-9, 7.0 / alpha, xtol=1e-15))
 
 
 @dataclass(frozen=True)
 class KernelConstants:
     """Scalars of one nonbonded evaluation, derived once from :class:`EnergySettings`."""
 
-    mode: int
-    coulomb_factor: float     # k / eps (plain, RF) or k / D (distance-dependent)
+    values: np.ndarray        # float64 array, indices C_*
     cutoff2: float            # A^2, inf without cutoff
-    switch_on: float          # A, or 0 without switching
-    switch_width: float       # r_c - r_on, or 0
-    k_rf: float
-    c_rf: float
 
     @classmethod
-    def from_settings(cls, s: EnergySettings) -> "KernelConstants":
+    def from_settings(cls, s: EnergySettings, for_exceptions: bool = False) -> "KernelConstants":
+        """Constants for ordinary pairs, or (``for_exceptions``) for exception pairs: plain or
+        distance-dependent Coulomb, no cutoff, no switching, same vdW model."""
         rc = s.cutoff_angstrom
+        mode = _MODES[s.electrostatics]
+        if for_exceptions:
+            mode = MODE_DISTANCE_DEPENDENT if mode == MODE_DISTANCE_DEPENDENT else MODE_PLAIN
+            rc = None
         k_rf = c_rf = 0.0
-        if s.electrostatics == "reaction-field":
+        if mode == MODE_REACTION_FIELD:
             e_in, e_rf = s.dielectric, s.solvent_dielectric
             k_rf = (e_rf - e_in) / ((2.0 * e_rf + e_in) * rc ** 3)
             c_rf = 1.0 / rc + k_rf * rc * rc
-        switch_on = s.switch_angstrom or 0.0
-        return cls(mode=_MODES[s.electrostatics],
-                   coulomb_factor=COULOMB_CONSTANT / s.dielectric,
-                   cutoff2=np.inf if rc is None else rc * rc,
-                   switch_on=switch_on,
-                   switch_width=(rc - switch_on) if s.switch_angstrom else 0.0,
-                   k_rf=k_rf, c_rf=c_rf)
+        switch_on = 0.0 if for_exceptions else (s.switch_angstrom or 0.0)
+        switch_width = (rc - switch_on) if (s.switch_angstrom and not for_exceptions) else 0.0
+        vdw = VDW_EXP6 if s.vdw == "exp6" else VDW_LJ
+        x_turn = exp6_turnover(s.exp6_alpha) if vdw == VDW_EXP6 else 0.0
+        values = np.array([mode, COULOMB_CONSTANT / s.dielectric, k_rf, c_rf,
+                           0.0 if rc is None else rc, switch_on, switch_width, vdw, s.exp6_alpha,
+                           x_turn], dtype=np.float64)
+        return cls(values, np.inf if rc is None else rc * rc)
 
 
 @numba.njit(cache=True, inline="always")
-def _pair_energy(r2, qq, rmin, eps, mode, cf, k_rf, c_rf, switch_on, switch_width):
+def _pair_energy(r2, qq, rmin, eps, c):
+    """Coulomb and vdW energy (kcal/mol) of one pair at squared distance r2 (A^2); ``c`` holds
+    the constants (indices C_*).  The single place where the pair forms are written."""
     r = np.sqrt(r2)
-    if mode == 0:
+    mode = c[C_MODE]
+    cf = c[C_COULOMB]
+    if mode == MODE_PLAIN:
         coul = cf * qq / r
-    elif mode == 1:
-        coul = cf * qq * (1.0 / r + k_rf * r2 - c_rf)
-    else:
+    elif mode == MODE_REACTION_FIELD:
+        coul = cf * qq * (1.0 / r + c[C_KRF] * r2 - c[C_CRF])
+    elif mode == MODE_DISTANCE_DEPENDENT:
         coul = cf * qq / r2
-    s2 = rmin * rmin / r2
-    s6 = s2 * s2 * s2
-    lj = eps * (s6 * s6 - 2.0 * s6)
-    if switch_width > 0.0 and r > switch_on:
-        x = (r - switch_on) / switch_width
-        lj *= 1.0 + x * x * x * (-10.0 + x * (15.0 - 6.0 * x))
-    return coul, lj
+    else:  # shifted force: 1/r - 1/rc + (r - rc)/rc^2
+        rc = c[C_RC]
+        coul = cf * qq * (1.0 / r - 1.0 / rc + (r - rc) / (rc * rc))
+    if eps == 0.0:
+        vdw = 0.0
+    elif c[C_VDW] == VDW_LJ:
+        s2 = rmin * rmin / r2
+        s6 = s2 * s2 * s2
+        vdw = eps * (s6 * s6 - 2.0 * s6)
+    else:
+        alpha = c[C_ALPHA]
+        x = r / rmin
+        if x < c[C_XTURN]:
+            x = c[C_XTURN]
+        x6 = x * x * x
+        x6 *= x6
+        vdw = eps / (alpha - 6.0) * (6.0 * np.exp(alpha * (1.0 - x)) - alpha / x6)
+    width = c[C_SWITCH_WIDTH]
+    if width > 0.0 and r > c[C_SWITCH_ON]:
+        t = (r - c[C_SWITCH_ON]) / width
+        vdw *= 1.0 + t * t * t * (-10.0 + t * (15.0 - 6.0 * t))
+    return coul, vdw
+
+
+@numba.njit(cache=True)
+def pair_energies(r2, qq, rmin, eps, c):
+    """Vectorised :func:`_pair_energy` over aligned arrays; returns (coulomb, vdw)."""
+    n = len(r2)
+    coul = np.empty(n)
+    vdw = np.empty(n)
+    for k in range(n):
+        coul[k], vdw[k] = _pair_energy(r2[k], qq[k], rmin[k], eps[k], c)
+    return coul, vdw
 
 
 @numba.njit(cache=True, inline="always")
@@ -87,8 +136,7 @@ def _is_excluded(a, b, excl_ptr, excl_idx):
 @numba.njit(parallel=True, cache=True)
 def residue_pair_kernel(pos, charges, lj_type, rmin_tab, eps_tab, is_heavy,
                         res_ptr, res_atoms, pair_i, pair_j, pair_has_excl,
-                        excl_ptr, excl_idx, box_lengths, periodic,
-                        mode, cf, cutoff2, switch_on, switch_width, k_rf, c_rf,
+                        excl_ptr, excl_idx, box_lengths, periodic, consts, cutoff2,
                         out_coul, out_lj, out_count, out_min_heavy2):
     """Sum Coulomb and LJ over every atom pair of each candidate residue pair (kcal/mol)."""
     for p in numba.prange(len(pair_i)):
@@ -119,7 +167,7 @@ def residue_pair_kernel(pos, charges, lj_type, rmin_tab, eps_tab, is_heavy,
                     continue
                 ta, tb = lj_type[a], lj_type[b]
                 c, l = _pair_energy(r2, charges[a] * charges[b], rmin_tab[ta, tb], eps_tab[ta, tb],
-                                    mode, cf, k_rf, c_rf, switch_on, switch_width)
+                                    consts)
                 coul_sum += c
                 lj_sum += l
                 count += 1
@@ -142,7 +190,10 @@ def exclusion_csr(exception_pairs: np.ndarray, n_atoms: int):
 
 
 def exception_energies(system, positions, settings: EnergySettings, box=None):
-    """Coulomb and LJ of every exception pair (n_exceptions,) each, kcal/mol, and distances."""
+    """Coulomb, vdW and distance of every exception pair, each (n_exceptions,); kcal/mol, A.
+
+    Exception pairs use plain (or distance-dependent) Coulomb and the chosen vdW form with their
+    own parameters, with no cutoff and no switching (docs/physics.md)."""
     from ..geometry import minimum_image
     pairs = system.exception_pairs
     if len(pairs) == 0:
@@ -150,12 +201,7 @@ def exception_energies(system, positions, settings: EnergySettings, box=None):
         return z, z, z
     d = minimum_image(positions[pairs[:, 1]] - positions[pairs[:, 0]], box)
     r2 = np.einsum("ij,ij->i", d, d)
-    r = np.sqrt(r2)
-    factor = COULOMB_CONSTANT / settings.dielectric
-    if settings.electrostatics == "distance-dependent":
-        coul = factor * system.exception_qq / r2
-    else:
-        coul = factor * system.exception_qq / r
-    s6 = (system.exception_rmin ** 2 / r2) ** 3
-    lj = system.exception_eps * (s6 * s6 - 2.0 * s6)
-    return coul, lj, r
+    kc = KernelConstants.from_settings(settings, for_exceptions=True)
+    coul, vdw = pair_energies(r2, system.exception_qq, system.exception_rmin, system.exception_eps,
+                              kc.values)
+    return coul, vdw, np.sqrt(r2)
