@@ -1,0 +1,515 @@
+"""Steric clash finder: atom pairs whose spheres overlap, ranked, with residue-level summaries.
+
+Definitions, defaults and their sources are in ``docs/clashes.md``; in short:
+
+* candidates are atom pairs that are not excluded: 1-2 and 1-3 pairs never count, 1-4 pairs only
+  with ``include_14``; heavy atoms only unless ``include_hydrogens``;
+* overlap = contact - r, where the contact distance is R_i + R_j with Bondi's radii by element
+  (``radii="bondi"``, the default), or the force field's own Rmin_ij of the pair
+  (``radii="forcefield"``: the Lennard-Jones table entry, NBFIX included; for a 1-4 pair its 1-4
+  Rmin); with Lorentz (arithmetic) combination Rmin_ij = Rmin/2_i + Rmin/2_j, so this *is*
+  R_i + R_j with R = Rmin/2 of each atom;
+* a pair is a clash when overlap >= ``overlap`` (0.4 A by default) and/or its Lennard-Jones
+  energy is above ``lj_above`` (``combine`` = "any" or "all");
+* rank: overlap (largest first), then LJ energy (largest first).
+
+The LJ energy of a pair is the force field's plain form eps_ij [(Rmin_ij/r)^12 - 2 (Rmin_ij/r)^6]
+with no cutoff and no switching (1-4 pairs: their own 1-4 Rmin and eps), the form of
+``docs/physics.md``.
+
+No Qt here; the viewer and the command line (:mod:`energy.clashes_cli`) both use this module.
+"""
+from __future__ import annotations
+
+import csv
+import io
+from dataclasses import asdict, dataclass, field
+
+import numpy as np
+from scipy.spatial import cKDTree
+
+from .errors import SettingsError
+from .geometry import minimum_image
+from .system import Frame, MolecularSystem
+from .vdw_radii import BONDI_SOURCE, bondi_radius
+
+#: Default overlap threshold (A).  Common practice in structure validation: sphere overlaps of
+#: 0.4 A or more are treated as serious clashes.
+DEFAULT_OVERLAP = 0.4
+RADII_SOURCES = ("bondi", "forcefield")
+COMBINE_MODES = ("any", "all")
+
+#: Contact distances (A) of a hydrogen-bonding pair: the short end of the "moderate" hydrogen
+#: bond range, donor...acceptor 2.5 A and H...acceptor 1.5 A (G. A. Jeffrey, *An Introduction to
+#: Hydrogen Bonding*, Oxford University Press, 1997, Table 2.2; values from memory).  A donor-
+#: acceptor pair is measured against min(ordinary contact, this), so a hydrogen bond of normal
+#: length is not a clash but one squeezed well below the shortest moderate H-bond still is.
+HBOND_CONTACT_HEAVY = 2.5
+HBOND_CONTACT_H = 1.5
+
+
+@dataclass(frozen=True)
+class ClashOptions:
+    """Knobs of one clash search (validated here).
+
+    overlap: flag pairs with overlap >= this (A); ``None`` disables the overlap criterion.
+    lj_above: flag pairs whose LJ energy is > this (kcal/mol, must be >= 0); ``None``: off.
+    combine: "any" (either criterion flags a pair) or "all" (every active criterion must).
+    radii: "bondi" (Bondi 1964 radii by element) or "forcefield" (Rmin_ij of the pair).
+    include_hydrogens: search hydrogens too (default: heavy atoms only).
+    include_14: let 1-4 pairs count (default: they never do, like 1-2 and 1-3 pairs).
+    periodic: minimum image in the frame's orthorhombic unit cell (default off).
+    hbond: hydrogen-bonding pairs (donor-acceptor, polar H-acceptor) get the shorter H-bond
+        contact distance (default on; see :func:`hbond_roles`).
+    """
+
+    overlap: float | None = DEFAULT_OVERLAP
+    lj_above: float | None = None
+    combine: str = "any"
+    radii: str = "bondi"
+    include_hydrogens: bool = False
+    include_14: bool = False
+    periodic: bool = False
+    hbond: bool = True
+
+    def __post_init__(self):
+        if self.radii not in RADII_SOURCES:
+            raise SettingsError(f"radii must be one of {', '.join(RADII_SOURCES)}; got {self.radii!r}")
+        if self.combine not in COMBINE_MODES:
+            raise SettingsError(f"combine must be one of {', '.join(COMBINE_MODES)}; got {self.combine!r}")
+        if self.overlap is None and self.lj_above is None:
+            raise SettingsError("no clash criterion: give an overlap threshold or an LJ threshold")
+        if self.overlap is not None and not np.isfinite(self.overlap):
+            raise SettingsError(f"overlap threshold must be a finite number, got {self.overlap}")
+        if self.lj_above is not None and not (np.isfinite(self.lj_above) and self.lj_above >= 0):
+            raise SettingsError(f"the LJ threshold must be >= 0 kcal/mol (a negative one would flag "
+                                f"every distant attractive pair), got {self.lj_above}")
+
+    def as_dict(self) -> dict:
+        return asdict(self)
+
+
+@dataclass(frozen=True)
+class ResiduePairClashes:
+    """Clashes of one residue pair (res_i <= res_j): count, worst overlap, summed LJ, worst clash
+    (row index into the ranked list)."""
+
+    res_i: int
+    res_j: int
+    count: int
+    worst_overlap: float
+    lj_sum: float
+    worst: int
+
+
+@dataclass(frozen=True)
+class ClashReport:
+    """Ranked clashes (rows aligned, most severe first) and what was searched.
+
+    ``pairs`` (n, 2) atom indices (i < j), ``distance`` r (A), ``contact`` the contact distance
+    (A), ``overlap`` = contact - r (A), ``lj`` pair LJ energy (kcal/mol), ``is_14`` bool,
+    ``is_hbond`` bool (a hydrogen-bonding pair measured against the H-bond contact distance).
+    ``radii`` (n_atoms,) the per-atom radius used (A; 0 for atoms not searched), ``fallback``
+    elements that had no Bondi radius (force-field radius used instead), ``n_candidates`` pairs
+    examined within the search distance ``search_distance`` (A).
+    """
+
+    options: ClashOptions
+    pairs: np.ndarray
+    distance: np.ndarray
+    contact: np.ndarray
+    overlap: np.ndarray
+    lj: np.ndarray
+    is_14: np.ndarray
+    is_hbond: np.ndarray
+    radii: np.ndarray
+    n_atoms_searched: int
+    n_candidates: int
+    search_distance: float
+    fallback: tuple = ()
+    notes: tuple = field(default=())
+
+    def __len__(self) -> int:
+        return len(self.pairs)
+
+    def residue_pairs(self, system: MolecularSystem) -> list[ResiduePairClashes]:
+        """Per residue-pair aggregation (for the pair-map overlay), most severe pair first."""
+        if not len(self):
+            return []
+        ri = system.resindex[self.pairs[:, 0]]
+        rj = system.resindex[self.pairs[:, 1]]
+        lo, hi = np.minimum(ri, rj), np.maximum(ri, rj)
+        out = {}
+        for k in range(len(self)):  # rows are ranked, so the first row of a key is its worst
+            key = (int(lo[k]), int(hi[k]))
+            if key not in out:
+                out[key] = [0, float(self.overlap[k]), 0.0, k]
+            out[key][0] += 1
+            out[key][2] += float(self.lj[k])
+        rows = [ResiduePairClashes(a, b, c, w, s, k) for (a, b), (c, w, s, k) in out.items()]
+        return sorted(rows, key=lambda r: r.worst)
+
+    def residue_counts(self, system: MolecularSystem) -> np.ndarray:
+        """(n_residues,) number of clashes each residue takes part in (an intra-residue clash
+        counts once)."""
+        counts = np.zeros(system.n_residues, np.int64)
+        if len(self):
+            ri = system.resindex[self.pairs[:, 0]]
+            rj = system.resindex[self.pairs[:, 1]]
+            np.add.at(counts, ri, 1)
+            np.add.at(counts, rj[rj != ri], 1)
+        return counts
+
+
+# ------------------------------------------------------------------------------------------------
+# exclusions and radii
+# ------------------------------------------------------------------------------------------------
+
+def _pair_keys(pairs: np.ndarray, n: int) -> np.ndarray:
+    pairs = np.asarray(pairs, np.int64).reshape(-1, 2)
+    lo, hi = np.minimum(pairs[:, 0], pairs[:, 1]), np.maximum(pairs[:, 0], pairs[:, 1])
+    return lo * n + hi
+
+
+def excluded_and_14(system: MolecularSystem) -> tuple[np.ndarray, np.ndarray]:
+    """Sorted pair keys (i * n + j, i < j) of the pairs that never count (1-2 and 1-3) and of the
+    1-4 pairs.
+
+    1-2 and 1-3 pairs come from the bond graph (bonds, and two bonds sharing an atom; the outer
+    atoms of every angle term too) and from the exception pairs carrying zero charge product and
+    zero well depth (the loaders' marking of 1-2/1-3 exclusions).  The other exception pairs are
+    the 1-4 pairs; a pair that is both 1-3 and 1-4 (small rings) is 1-3.
+    """
+    n = system.n_atoms
+    b = system.bonds.atoms
+    keys = [_pair_keys(b, n)]
+    if len(b):
+        # two bonds sharing an atom: for each atom, every pair of its neighbours
+        nbrs = [[] for _ in range(n)]
+        for i, j in b:
+            nbrs[i].append(j)
+            nbrs[j].append(i)
+        tri = [(p, q) for lst in nbrs for x, p in enumerate(lst) for q in lst[x + 1:]]
+        keys.append(_pair_keys(np.array(tri, np.int64).reshape(-1, 2), n))
+    if len(system.angles):
+        keys.append(_pair_keys(system.angles.atoms[:, [0, 2]], n))
+    ex = system.exception_pairs
+    zero = (system.exception_qq == 0.0) & (system.exception_eps == 0.0)
+    keys.append(_pair_keys(ex[zero], n))
+    excluded = np.unique(np.concatenate(keys))
+    excluded = excluded[(excluded // n) != (excluded % n)]
+    ex14 = np.setdiff1d(_pair_keys(ex[~zero], n), excluded)
+    return excluded, ex14
+
+
+def atom_radii(system: MolecularSystem, source: str) -> tuple[np.ndarray, tuple]:
+    """Per-atom radius (A) and the elements that fell back to the force field (Bondi only).
+
+    forcefield: Rmin/2 of the atom's own type, ``lj_rmin[t, t] / 2``; an atom type with zero well
+    depth has no size in the force field (OpenMM writes an arbitrary sigma for it) and gets 0.
+    bondi: Bondi's radius by element; elements not tabulated take their force-field radius.
+    """
+    t = system.lj_type
+    ff = np.where(system.lj_eps[t, t] > 0.0, system.lj_rmin[t, t] / 2.0, 0.0)
+    if source == "forcefield":
+        return ff, ()
+    radii = np.empty(system.n_atoms)
+    missing = set()
+    for k, el in enumerate(system.elements):
+        r = bondi_radius(el)
+        if r is None:
+            missing.add(str(el) or "?")
+            radii[k] = ff[k]
+        else:
+            radii[k] = r
+    return radii, tuple(sorted(missing))
+
+
+def hbond_roles(system: MolecularSystem) -> tuple[np.ndarray, np.ndarray, np.ndarray, bool]:
+    """(donor, acceptor, polar_h, guessed): per-atom bool arrays, from elements and bonds.
+
+    donor: N or O bonded to a hydrogen.  acceptor: any O, and N with no hydrogen and at most two
+    bonds (e.g. His ND1/NE2 when unprotonated; not Pro N).  polar_h: H bonded to a donor.
+    A model without any hydrogen cannot tell donors apart: then every N and O is taken as both
+    donor and acceptor (``guessed`` True).
+    """
+    el = np.array([str(e).strip().upper() for e in system.elements])
+    is_h = ~system.is_heavy
+    n = system.n_atoms
+    b = system.bonds.atoms
+    n_bonds = np.bincount(b.ravel(), minlength=n) if len(b) else np.zeros(n, np.int64)
+    has_h = np.zeros(n, bool)
+    h_partner = np.full(n, -1, np.intp)
+    for i, j in b:
+        if is_h[i] and not is_h[j]:
+            has_h[j] = True; h_partner[i] = j
+        elif is_h[j] and not is_h[i]:
+            has_h[i] = True; h_partner[j] = i
+    no = np.isin(el, ("N", "O"))
+    if not is_h.any():
+        return no.copy(), no.copy(), np.zeros(n, bool), True
+    donor = no & has_h
+    acceptor = (el == "O") | ((el == "N") & ~has_h & (n_bonds <= 2))
+    polar_h = is_h & (h_partner >= 0) & donor[np.maximum(h_partner, 0)]
+    return donor, acceptor, polar_h, False
+
+
+def _ff_contact(system, pairs, is14, ex_index_of):
+    """Force-field Rmin and eps of each pair: the LJ table (NBFIX included), or the 1-4 values."""
+    ti, tj = system.lj_type[pairs[:, 0]], system.lj_type[pairs[:, 1]]
+    rmin = system.lj_rmin[ti, tj].astype(float).copy()
+    eps = system.lj_eps[ti, tj].astype(float).copy()
+    if np.any(is14):
+        k = ex_index_of[is14]
+        rmin[is14] = system.exception_rmin[k]
+        eps[is14] = system.exception_eps[k]
+    return rmin, eps
+
+
+def lj_energy(r, rmin, eps) -> np.ndarray:
+    """Plain LJ eps [(Rmin/r)^12 - 2 (Rmin/r)^6] (kcal/mol); 0 where eps == 0 (docs/physics.md)."""
+    r = np.asarray(r, float)
+    rmin = np.asarray(rmin, float)
+    eps = np.asarray(eps, float)
+    with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
+        s6 = (rmin / r) ** 6
+        e = eps * (s6 * s6 - 2.0 * s6)
+    return np.where(eps == 0.0, 0.0, e)
+
+
+def _lj_reach(rmin, eps, threshold: float) -> float:
+    """Largest distance at which LJ(rmin, eps) can exceed ``threshold`` >= 0 (A)."""
+    ok = eps > 0
+    if not np.any(ok):
+        return 0.0
+    x = 1.0 + np.sqrt(1.0 + threshold / eps[ok])  # (Rmin/r)^6 at LJ == threshold, inner root
+    return float(np.max(rmin[ok] / x ** (1.0 / 6.0)))
+
+
+# ------------------------------------------------------------------------------------------------
+# the search
+# ------------------------------------------------------------------------------------------------
+
+def _box_lengths(frame: Frame, reach: float) -> np.ndarray:
+    if frame.box is None:
+        raise SettingsError("periodic clash search needs a unit cell, and this frame has none")
+    if not frame.is_orthorhombic:
+        raise SettingsError("periodic clash search supports orthorhombic unit cells only; "
+                            "this cell is triclinic (drop --periodic)")
+    lengths = np.asarray(frame.box[:3], float)
+    if np.any(lengths < 2.0 * reach):
+        raise SettingsError(f"the unit cell ({' x '.join(f'{v:.1f}' for v in lengths)} A) is smaller "
+                            f"than twice the search distance ({reach:.2f} A)")
+    return lengths
+
+
+def find_clashes(system: MolecularSystem, frame: Frame, options: ClashOptions | None = None) -> ClashReport:
+    """Every clash of ``frame``, ranked by overlap then LJ energy (see the module docstring)."""
+    opt = options or ClashOptions()
+    n = system.n_atoms
+    x = np.asarray(frame.positions, float)
+    if x.shape != (n, 3):
+        raise SettingsError(f"the frame has {len(x)} atoms, the system {n}")
+    searched = np.ones(n, bool) if opt.include_hydrogens else system.is_heavy
+    atoms = np.flatnonzero(searched)
+    radii, fallback = atom_radii(system, opt.radii)
+    excluded, keys14 = excluded_and_14(system)
+
+    # the largest distance at which a pair can be flagged
+    types = np.unique(system.lj_type[atoms])
+    tab_rmin = system.lj_rmin[np.ix_(types, types)]
+    tab_eps = system.lj_eps[np.ix_(types, types)]
+    ex = system.exception_pairs
+    if opt.include_14 and len(keys14):
+        ex_keys = _pair_keys(ex, n)
+        sel = np.isin(ex_keys, keys14) & searched[ex[:, 0]] & searched[ex[:, 1]]
+        ex_rmin, ex_eps = system.exception_rmin[sel], system.exception_eps[sel]
+    else:
+        ex_rmin = ex_eps = np.zeros(0)
+    reach = 0.0
+    if opt.overlap is not None:
+        if opt.radii == "bondi":
+            max_contact = 2.0 * float(radii[atoms].max()) if len(atoms) else 0.0
+        else:
+            max_contact = float(max(np.max(np.where(tab_eps > 0, tab_rmin, 0.0), initial=0.0),
+                                    np.max(np.where(ex_eps > 0, ex_rmin, 0.0), initial=0.0)))
+        reach = max(reach, max_contact - opt.overlap)
+    if opt.lj_above is not None:
+        reach = max(reach, _lj_reach(tab_rmin.ravel(), tab_eps.ravel(), opt.lj_above),
+                    _lj_reach(ex_rmin, ex_eps, opt.lj_above))
+    box = None
+    if reach <= 0 or len(atoms) < 2:
+        cand = np.zeros((0, 2), np.intp)
+    else:
+        if opt.periodic:
+            lengths = _box_lengths(frame, reach)
+            wrapped = np.minimum(x[atoms] - lengths * np.floor(x[atoms] / lengths),
+                                 np.nextafter(lengths, 0))
+            tree = cKDTree(wrapped, boxsize=lengths)
+            box = frame.box
+        else:
+            tree = cKDTree(x[atoms])
+        local = tree.query_pairs(reach, output_type="ndarray")
+        cand = atoms[local]
+        cand = np.sort(cand, axis=1)
+    keys = cand[:, 0].astype(np.int64) * n + cand[:, 1]
+    keep = ~np.isin(keys, excluded)
+    is14 = np.isin(keys, keys14)
+    if not opt.include_14:
+        keep &= ~is14
+    cand, keys, is14 = cand[keep], keys[keep], is14[keep]
+
+    d = minimum_image(x[cand[:, 1]] - x[cand[:, 0]], box)
+    r = np.sqrt(np.einsum("ij,ij->i", d, d))
+    ex_index_of = np.zeros(len(cand), np.intp)
+    if np.any(is14):
+        ex_keys = _pair_keys(ex, n)
+        order = np.argsort(ex_keys)
+        ex_index_of[is14] = order[np.searchsorted(ex_keys[order], keys[is14])]
+    rmin, eps = _ff_contact(system, cand, is14, ex_index_of)
+    if opt.radii == "forcefield":
+        contact = np.where(eps > 0, rmin, 0.0)
+    else:
+        contact = radii[cand[:, 0]] + radii[cand[:, 1]]
+    is_hb = np.zeros(len(cand), bool)
+    guessed = False
+    if opt.hbond and len(cand):
+        donor, acceptor, polar_h, guessed = hbond_roles(system)
+        a, b = cand[:, 0], cand[:, 1]
+        heavy_hb = (donor[a] & acceptor[b]) | (acceptor[a] & donor[b])
+        h_hb = (polar_h[a] & acceptor[b]) | (acceptor[a] & polar_h[b])
+        hb_contact = np.where(h_hb, HBOND_CONTACT_H, HBOND_CONTACT_HEAVY)
+        is_hb = (heavy_hb | h_hb) & (hb_contact < contact)
+        contact = np.where(is_hb, hb_contact, contact)
+    overlap = contact - r
+    lj = lj_energy(r, rmin, eps)
+
+    tests = []
+    if opt.overlap is not None:
+        tests.append(overlap >= opt.overlap - 1e-12)
+    if opt.lj_above is not None:
+        tests.append(lj > opt.lj_above)
+    flag = np.logical_or.reduce(tests) if opt.combine == "any" else np.logical_and.reduce(tests)
+
+    idx = np.flatnonzero(flag)
+    order = np.lexsort((cand[idx, 1], cand[idx, 0], -lj[idx], -np.round(overlap[idx], 9)))
+    idx = idx[order]
+    radii_out = np.where(searched, radii, 0.0)
+    notes = []
+    if fallback:
+        notes.append(f"no Bondi radius for element(s) {', '.join(fallback)}: force-field Rmin/2 used")
+    if guessed:
+        notes.append("the model has no hydrogens: every N/O pair is treated as possibly hydrogen-bonded")
+    return ClashReport(opt, cand[idx], r[idx], contact[idx], overlap[idx], lj[idx], is14[idx],
+                       is_hb[idx], radii_out, int(len(atoms)), int(len(cand)), float(reach), fallback, tuple(notes))
+
+
+# ------------------------------------------------------------------------------------------------
+# outputs
+# ------------------------------------------------------------------------------------------------
+
+def atom_label(system: MolecularSystem, i: int) -> str:
+    """``B:TRP33 CZ2`` style label of atom ``i``."""
+    return f"{system.residues.label(int(system.resindex[i]))} {system.names[i]}"
+
+
+def radii_description(options: ClashOptions) -> str:
+    if options.radii == "bondi":
+        return f"Bondi radii ({BONDI_SOURCE})"
+    return "force-field radii (contact = the pair's LJ Rmin_ij)"
+
+
+def clash_rows(system: MolecularSystem, report: ClashReport) -> list[dict]:
+    rows = []
+    for k in range(len(report)):
+        i, j = (int(v) for v in report.pairs[k])
+        rows.append({"rank": k + 1, "atom_i": i, "atom_j": j,
+                     "label_i": atom_label(system, i), "label_j": atom_label(system, j),
+                     "residue_i": int(system.resindex[i]), "residue_j": int(system.resindex[j]),
+                     "distance": float(report.distance[k]), "contact": float(report.contact[k]),
+                     "overlap": float(report.overlap[k]), "lj": float(report.lj[k]),
+                     "is_14": bool(report.is_14[k]), "is_hbond": bool(report.is_hbond[k])})
+    return rows
+
+
+def clash_document(system: MolecularSystem, report: ClashReport, source: dict | None = None) -> dict:
+    """Everything as one JSON-ready dict (units: angstrom, kcal/mol; indices 0-based)."""
+    counts = report.residue_counts(system)
+    return {
+        "kind": "tessera-clashes",
+        "units": {"distance": "angstrom", "energy": "kcal/mol"},
+        "source": source or {},
+        "options": report.options.as_dict(),
+        "radii": radii_description(report.options),
+        "notes": list(report.notes),
+        "n_atoms_searched": report.n_atoms_searched,
+        "n_candidate_pairs": report.n_candidates,
+        "search_distance": report.search_distance,
+        "n_clashes": len(report),
+        "clashes": clash_rows(system, report),
+        "residue_counts": [{"residue": int(r), "label": system.residues.label(int(r)),
+                            "count": int(counts[r])} for r in np.flatnonzero(counts)],
+        "residue_pairs": [{"res_i": p.res_i, "res_j": p.res_j,
+                           "label_i": system.residues.label(p.res_i),
+                           "label_j": system.residues.label(p.res_j),
+                           "count": p.count, "worst_overlap": p.worst_overlap, "lj_sum": p.lj_sum,
+                           "worst_rank": p.worst + 1} for p in report.residue_pairs(system)],
+    }
+
+
+CSV_FIELDS = ("rank", "label_i", "label_j", "atom_i", "atom_j", "residue_i", "residue_j",
+              "distance", "contact", "overlap", "lj", "is_14", "is_hbond")
+
+
+def clash_csv(system: MolecularSystem, report: ClashReport) -> str:
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(CSV_FIELDS)
+    for row in clash_rows(system, report):
+        w.writerow([f"{row[f]:.4f}" if isinstance(row[f], float) else row[f] for f in CSV_FIELDS])
+    return buf.getvalue()
+
+
+def _fmt_energy(e: float) -> str:
+    return f"{e:12.1f}" if abs(e) < 1e7 else f"{e:12.3e}"
+
+
+def clash_table(system: MolecularSystem, report: ClashReport, top: int = 20) -> str:
+    """Readable summary: criteria, ranked atom pairs, then residue pairs."""
+    o = report.options
+    crit = []
+    if o.overlap is not None:
+        crit.append(f"overlap >= {o.overlap:g} A")
+    if o.lj_above is not None:
+        crit.append(f"LJ > {o.lj_above:g} kcal/mol")
+    scope = "all atoms" if o.include_hydrogens else "heavy atoms"
+    lines = [f"{len(report)} clash(es): {(' or ' if o.combine == 'any' else ' and ').join(crit)}; "
+             f"{radii_description(o)}; {scope}; 1-2/1-3 excluded, 1-4 "
+             f"{'included' if o.include_14 else 'excluded'}"
+             f"{'; periodic' if o.periodic else ''}"
+             f"{'; H-bond pairs at H-bond contact' if o.hbond else '; no H-bond allowance'}"]
+    lines += [f"note: {n}" for n in report.notes]
+    if not len(report):
+        return "\n".join(lines)
+    rows = clash_rows(system, report)
+    shown = rows[:top] if top and top > 0 else rows
+    wi = max(len("atom i"), *(len(r["label_i"]) for r in shown))
+    wj = max(len("atom j"), *(len(r["label_j"]) for r in shown))
+    lines.append("")
+    lines.append(f"{'rank':>4}  {'atom i':<{wi}}  {'atom j':<{wj}}  {'r (A)':>6}  {'contact':>7}  "
+                 f"{'overlap':>7}  {'LJ (kcal/mol)':>13}")
+    for r in shown:
+        lines.append(f"{r['rank']:>4}  {r['label_i']:<{wi}}  {r['label_j']:<{wj}}  {r['distance']:6.2f}  "
+                     f"{r['contact']:7.2f}  {r['overlap']:7.2f}  {_fmt_energy(r['lj']):>13}"
+                     f"{'  (1-4)' if r['is_14'] else ''}{'  (H-bond pair)' if r['is_hbond'] else ''}")
+    if len(shown) < len(rows):
+        lines.append(f"... {len(rows) - len(shown)} more (use --top 0 for all, or --json/--csv)")
+    pairs = report.residue_pairs(system)
+    lines.append("")
+    lines.append(f"{len(pairs)} residue pair(s) with clashes:")
+    wl = max(len(f"{system.residues.label(p.res_i)} - {system.residues.label(p.res_j)}") for p in pairs)
+    lines.append(f"  {'residue pair':<{wl}}  {'count':>5}  {'worst overlap':>13}  {'sum LJ':>12}")
+    for p in pairs[:top] if top and top > 0 else pairs:
+        lab = f"{system.residues.label(p.res_i)} - {system.residues.label(p.res_j)}"
+        lines.append(f"  {lab:<{wl}}  {p.count:>5}  {p.worst_overlap:13.2f}  {_fmt_energy(p.lj_sum)}")
+    return "\n".join(lines)
