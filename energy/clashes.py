@@ -446,13 +446,15 @@ def clash_document(system: MolecularSystem, report: ClashReport, source: dict | 
         "n_candidate_pairs": report.n_candidates,
         "search_distance": report.search_distance,
         "n_clashes": len(report),
-        "clashes": clash_rows(system, report),
+        "clashes": [{k: (None if isinstance(v, float) and not np.isfinite(v) else v)
+                     for k, v in row.items()} for row in clash_rows(system, report)],
         "residue_counts": [{"residue": int(r), "label": system.residues.label(int(r)),
                             "count": int(counts[r])} for r in np.flatnonzero(counts)],
         "residue_pairs": [{"res_i": p.res_i, "res_j": p.res_j,
                            "label_i": system.residues.label(p.res_i),
                            "label_j": system.residues.label(p.res_j),
-                           "count": p.count, "worst_overlap": p.worst_overlap, "lj_sum": p.lj_sum,
+                           "count": p.count, "worst_overlap": p.worst_overlap,
+                           "lj_sum": p.lj_sum if np.isfinite(p.lj_sum) else None,
                            "worst_rank": p.worst + 1} for p in report.residue_pairs(system)],
     }
 
