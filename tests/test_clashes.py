@@ -436,3 +436,17 @@ def test_cli_rejects_negative_lj_threshold(capsys):
     with pytest.raises(SystemExit):
         main(["clashes", str(SCENARIO / "complex_clash.pdb"), "--lj-above", "-3"])
     assert ">= 0" in capsys.readouterr().err
+
+
+def test_scenario_pair_lj_agrees_with_the_engine_pair_curve(scenario_systems):
+    """The clash list's LJ column is the engine's own pair LJ (energy.pairs.pair_curve, default
+    settings: LJ 12-6, no cutoff) at the pair's distance, for ordinary and 1-4 pairs."""
+    from energy.pairs import pair_curve
+    loaded = scenario_systems["clash"]
+    rep = find_clashes(loaded.system, loaded.frame, ClashOptions(include_hydrogens=True, include_14=True))
+    assert rep.is_14.any() and (~rep.is_14).any()
+    rows = list(range(10)) + list(np.flatnonzero(rep.is_14)[:10])
+    for k in rows:
+        a, b = (int(v) for v in rep.pairs[k])
+        _, lj, _ = pair_curve(loaded.system, None, a, b, [rep.distance[k]])
+        assert rep.lj[k] == pytest.approx(float(lj[0]), rel=1e-9, abs=1e-9)
