@@ -527,6 +527,10 @@ class TrajectoryState:
             self.next_chunk += 1
         return merged
 
+    def done_records(self) -> list[FrameRecord]:
+        """Records final so far, in frame order (merged chunks, then the serial partial chunk)."""
+        return self.records + (self.partial.records if self.partial is not None else [])
+
     def flush(self) -> list[FrameRecord]:
         """After a stop: merge the chunks finished out of order (skipping the gaps), in order."""
         merged = []
