@@ -116,32 +116,70 @@ class ResiduePairEnergies:
         return int(k) if k < len(keys) and keys[k] == key else None
 
 
-def assemble(n_residues: int, contributions, min_heavy=None) -> ResiduePairEnergies:
-    """Reduce (term, pair_i, pair_j, values) contributions into one sorted sparse table.
+def sorted_unique(keys: np.ndarray) -> np.ndarray:
+    """Sorted distinct values of an int64 array (faster than np.unique's hash path here)."""
+    keys = np.sort(keys)
+    if len(keys) == 0:
+        return keys
+    keep = np.empty(len(keys), bool)
+    keep[0] = True
+    np.not_equal(keys[1:], keys[:-1], out=keep[1:])
+    return keys[keep]
 
-    ``min_heavy`` is an optional (pair_i, pair_j, distance) triple, reduced by minimum.
+
+def assemble(n_residues: int, base_pairs: np.ndarray, base_values: dict, base_min_heavy: np.ndarray,
+             base_keep: np.ndarray, contributions) -> ResiduePairEnergies:
+    """Merge per-interaction contributions into the nonbonded residue-pair rows.
+
+    ``base_pairs`` (m, 2) are the examined residue pairs, sorted by (i, j) and unique, with their
+    nonbonded sums ``base_values[term]``, minimum heavy-atom distance and ``base_keep`` (True where
+    at least one ordinary atom pair was within range).  ``contributions`` is a list of
+    ``(term, pair_i, pair_j, values)``; a contribution on a pair absent from the base adds a row.
+    Rows that end with no contribution at all are dropped.
     """
-    all_i = [c[1] for c in contributions]
-    all_j = [c[2] for c in contributions]
-    if min_heavy is not None:
-        all_i.append(min_heavy[0]); all_j.append(min_heavy[1])
-    keys = np.concatenate([np.asarray(i, np.int64) * n_residues + np.asarray(j, np.int64)
-                           for i, j in zip(all_i, all_j)]) if all_i else np.zeros(0, np.int64)
-    uniq, inverse = np.unique(keys, return_inverse=True)
-    values = {t: np.zeros(len(uniq)) for t in TERMS}
+    n = np.int64(n_residues)
+    base_keys = base_pairs[:, 0].astype(np.int64) * n + base_pairs[:, 1]
+    contrib_keys = [np.asarray(pi, np.int64) * n + np.asarray(pj, np.int64) for _, pi, pj, _ in contributions]
+    all_contrib = np.concatenate(contrib_keys) if contrib_keys else np.zeros(0, np.int64)
+    pos = np.searchsorted(base_keys, all_contrib)
+    found = (pos < len(base_keys)) & (base_keys[np.minimum(pos, len(base_keys) - 1)] == all_contrib) \
+        if len(base_keys) else np.zeros(len(all_contrib), bool)
+    if not found.all():
+        extra = sorted_unique(all_contrib[~found])
+        merged = np.concatenate([base_keys, extra])
+        order = np.argsort(merged, kind="stable")
+        base_keys = merged[order]
+        grow = lambda a, fill: np.concatenate([a, np.full(len(extra), fill, a.dtype)])[order]  # noqa: E731
+        base_values = {t: grow(v, 0.0) for t, v in base_values.items()}
+        base_min_heavy = grow(base_min_heavy, np.inf)
+        base_keep = grow(base_keep, False)
+        pos = np.searchsorted(base_keys, all_contrib)
+    m = len(base_keys)
+    values = {t: base_values.get(t) for t in TERMS}  # base columns are consumed (added to in place)
+    touched = base_keep.copy()
     offset = 0
-    for term, pi, _, v in contributions:
-        n = len(pi)
-        values[term] += np.bincount(inverse[offset:offset + n], weights=v, minlength=len(uniq))
-        offset += n
-    min_d = np.full(len(uniq), np.inf)
-    if min_heavy is not None:
-        np.minimum.at(min_d, inverse[offset:], min_heavy[2])
-    pair_i = (uniq // n_residues).astype(np.intp)
-    pair_j = (uniq % n_residues).astype(np.intp)
+    for (term, _, _, v), keys in zip(contributions, contrib_keys):
+        idx = pos[offset:offset + len(keys)]
+        offset += len(keys)
+        if len(idx):
+            if values[term] is None:
+                values[term] = np.zeros(m)
+            np.add.at(values[term], idx, v)
+            touched[idx] = True
+    # Rows with no contribution are dropped, unless they are few (then copying costs more than
+    # keeping them; they hold zeros and never reach the reports, which list nonzero entries).
+    n_touched = int(np.count_nonzero(touched))
+    everything = n_touched >= 0.9 * m
+    keep = slice(None) if everything else np.flatnonzero(touched)
+    pair_i = (base_keys[keep] // n).astype(np.intp)
+    pair_j = (base_keys[keep] % n).astype(np.intp)
+    n_rows = m if everything else n_touched
+    values = {t: (np.zeros(n_rows) if v is None else (v if everything else v[keep]))
+              for t, v in values.items()}
     for v in values.values():
         v.flags.writeable = False
-    return ResiduePairEnergies(n_residues, pair_i, pair_j, values, min_d)
+    base_min_heavy = base_min_heavy if everything else base_min_heavy[keep]
+    return ResiduePairEnergies(n_residues, pair_i, pair_j, values, base_min_heavy)
 
 
 def bonded_terms_for_pair(system, result, res_i: int, res_j: int) -> list[dict]:

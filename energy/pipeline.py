@@ -11,10 +11,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .decompose import ResiduePairEnergies, assemble, split_over_residue_pairs
+from .cells import candidate_pairs_cells
+from .decompose import ResiduePairEnergies, assemble, sorted_unique, split_over_residue_pairs
 from .errors import InputMismatchError
-from .neighbors import (ResidueAtoms, all_residue_pairs, candidate_residue_pairs,
-                        check_periodic_box, residue_spheres)
+from .neighbors import ResidueAtoms, all_residue_pairs, check_periodic_box, residue_spheres
 from .settings import EnergySettings
 from .system import BONDED_TERMS, TERMS, Frame, MolecularSystem
 from .terms import bonded, cmap
@@ -71,9 +71,10 @@ def _exception_residue_flags(system, pairs_ij, n_res):
     if len(ex) == 0:
         return np.zeros(len(pairs_ij), dtype=np.bool_)
     ri, rj = system.resindex[ex[:, 0]], system.resindex[ex[:, 1]]
-    ex_keys = np.unique(np.minimum(ri, rj).astype(np.int64) * n_res + np.maximum(ri, rj))
+    ex_keys = sorted_unique(np.minimum(ri, rj).astype(np.int64) * n_res + np.maximum(ri, rj))
     keys = pairs_ij[:, 0].astype(np.int64) * n_res + pairs_ij[:, 1]
-    return np.isin(keys, ex_keys)
+    pos = np.minimum(np.searchsorted(ex_keys, keys), len(ex_keys) - 1)
+    return ex_keys[pos] == keys
 
 
 def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySettings | None = None):
@@ -118,8 +119,8 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
         candidates = all_residue_pairs(n_res)
     else:
         centers, radii = residue_spheres(x, res_atoms, system.resindex, box if periodic else None)
-        candidates = candidate_residue_pairs(centers, radii, settings.cutoff_angstrom,
-                                             box_lengths if periodic else None)
+        candidates = candidate_pairs_cells(centers, radii, settings.cutoff_angstrom,
+                                           box_lengths if periodic else None)
     has_excl = _exception_residue_flags(system, candidates, n_res)
     excl_ptr, excl_idx = exclusion_csr(system.exception_pairs, system.n_atoms)
     kc = KernelConstants.from_settings(settings)
@@ -139,14 +140,12 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
                             kc.values, kc.cutoff2,
                             coul[start:stop], lj[start:stop], count[start:stop], min_h2[start:stop])
         yield stop, n_cand
-    keep = count > 0
-    ci, cj = candidates[keep, 0], candidates[keep, 1]
-    contributions += [("coulomb", ci, cj, coul[keep]), ("lj", ci, cj, lj[keep])]
     totals["coulomb"] += float(coul.sum())
     totals["lj"] += float(lj.sum())
     t_kernel = time.perf_counter()
 
-    residue_pairs = assemble(n_res, contributions, (ci, cj, np.sqrt(min_h2[keep])))
+    residue_pairs = assemble(n_res, candidates, {"coulomb": coul, "lj": lj}, np.sqrt(min_h2),
+                             count > 0, contributions)
     totals["total"] = float(sum(totals[t] for t in TERMS))
     t_end = time.perf_counter()
     timings = {"bonded": t_bonded - t0, "neighbour_search": t_search - t_bonded,

@@ -185,8 +185,14 @@ class MolecularSystem:
 
     @property
     def is_heavy(self) -> np.ndarray:
-        """(n_atoms,) bool: True for every atom that is not hydrogen."""
-        return np.array([e.upper() not in ("H", "D") for e in self.elements], dtype=bool)
+        """(n_atoms,) bool: True for every atom that is not hydrogen (computed once)."""
+        cached = self.__dict__.get("_is_heavy")
+        if cached is None:
+            upper = np.char.upper(self.elements.astype(str))
+            cached = ~np.isin(upper, ["H", "D"])
+            cached.flags.writeable = False
+            object.__setattr__(self, "_is_heavy", cached)
+        return cached
 
     def term_counts(self) -> dict[str, int]:
         return {"bonds": len(self.bonds), "urey_bradley": len(self.urey_bradley),
