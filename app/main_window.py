@@ -404,6 +404,7 @@ class MainWindow(QMainWindow):
         return self.snapshot, pair
 
     def _on_pair(self, pair) -> None:
+        pair = pair or None
         if pair is None or self.dataset is None:
             self.atoms.show_contributions(None, None, "Select a residue pair in the map or the ledger.")
             self.profile.show_pair(None, None, None)

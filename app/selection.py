@@ -9,7 +9,7 @@ from PySide6.QtCore import QObject, Signal
 
 
 def _norm_pair(pair):
-    if pair is None:
+    if pair is None or len(pair) == 0:
         return None
     i, j = int(pair[0]), int(pair[1])
     return (i, j) if i <= j else (j, i)
@@ -19,8 +19,11 @@ class SelectionModel(QObject):
     """Residue pair ``(i, j)`` with i <= j (residue indices of the current dataset), atom pair
     ``(a, b)`` (atom indices) and the two group selection strings."""
 
-    pairChanged = Signal(object)        # (i, j) or None
-    atomPairChanged = Signal(object)    # (a, b) or None
+    # Signals carry () for "nothing selected", never None: PySide6 6.12 on Python 3.11 drops a
+    # reference to None for every None sent through a Signal(object), which ends in a crash
+    # ("none_dealloc") after a few thousand emits.  Properties still return None.
+    pairChanged = Signal(object)        # (i, j) or ()
+    atomPairChanged = Signal(object)    # (a, b) or ()
     groupsChanged = Signal(str, str)
 
     def __init__(self, parent=None):
@@ -48,15 +51,15 @@ class SelectionModel(QObject):
         self._pair = pair
         if self._atom_pair is not None:
             self._atom_pair = None
-            self.atomPairChanged.emit(None)
-        self.pairChanged.emit(pair)
+            self.atomPairChanged.emit(())
+        self.pairChanged.emit(pair or ())
 
     def set_atom_pair(self, pair) -> None:
-        pair = None if pair is None else (int(pair[0]), int(pair[1]))
+        pair = None if pair is None or len(pair) == 0 else (int(pair[0]), int(pair[1]))
         if pair == self._atom_pair:
             return
         self._atom_pair = pair
-        self.atomPairChanged.emit(pair)
+        self.atomPairChanged.emit(pair or ())
 
     def set_groups(self, a: str, b: str) -> None:
         groups = (a.strip(), b.strip())

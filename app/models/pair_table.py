@@ -32,8 +32,8 @@ class PairTableModel(ArrayTableModel):
         pi, pj = rp.pair_i[rows], rp.pair_j[rows]
         self._lab_i, self._lab_j = ds.labels[pi], ds.labels[pj]
         self._ch_i, self._ch_j = ds.chains[pi], ds.chains[pj]
-        self._lower_i = np.array([s.lower() for s in self._lab_i], dtype=str) if len(rows) else np.zeros(0, str)
-        self._lower_j = np.array([s.lower() for s in self._lab_j], dtype=str) if len(rows) else np.zeros(0, str)
+        lower = np.array([str(s).lower() for s in ds.labels], dtype=str)   # per residue, then indexed
+        self._lower_i, self._lower_j = lower[pi], lower[pj]
         dist = rp.min_heavy_distance[rows]
         col = lambda q: rp.column(q)[rows]  # noqa: E731
         if ds.is_difference:

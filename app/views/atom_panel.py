@@ -43,6 +43,7 @@ class AtomContributionsView(QWidget):
         self.selection.set_atom_pair(pair)
 
     def _on_atom_pair(self, pair) -> None:
+        pair = pair or None
         row = self.model.row_of_atom_pair(pair)
         self._syncing = True
         try:

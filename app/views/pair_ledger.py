@@ -99,6 +99,7 @@ class PairLedgerView(QWidget):
         self.selection.set_pair(self.model.pair_of_row(current.row()))
 
     def _on_selection(self, pair) -> None:
+        pair = pair or None
         row = self.model.row_of_pair(pair)
         self._syncing = True
         try:

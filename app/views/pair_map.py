@@ -340,6 +340,7 @@ class PairMapView(QWidget):
                                padding=0)
 
     def _on_selection(self, pair) -> None:
+        pair = pair or None
         if pair is None or self.dataset is None or not len(self.order):
             self._cursor = None
         else:

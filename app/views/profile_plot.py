@@ -151,6 +151,7 @@ class DistanceProfileView(QWidget):
             self.selection.set_atom_pair((int(p[0]), int(p[1])))
 
     def _on_atom_pair(self, pair) -> None:
+        pair = pair or None
         self.curve_data = None
         if pair is not None and self.contrib is not None and self.system is not None:
             p = self.contrib.energies.pairs

@@ -98,6 +98,7 @@ class ResidueRosterView(QWidget):
         self.selection.set_pair((i, i))
 
     def _on_pair(self, pair) -> None:
+        pair = pair or None
         if pair is None:
             return
         row = self.model.row_of(pair[0])
