@@ -378,6 +378,10 @@ class MainWindow(QMainWindow):
             self.roster.set_groups_text(f"segid {chains[0]}", f"segid {chains[1]}")
         if keep is not None and max(keep) < ds.n:
             self.selection.set_pair(keep)
+        self._group_results = None
+        self.roster.show_group_result("—")
+        if all(self.selection.groups):
+            self.compute_groups(*self.selection.groups)
         self._update_actions()
         self.datasetChanged.emit()
 

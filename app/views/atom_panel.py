@@ -26,6 +26,7 @@ class AtomContributionsView(QWidget):
         self.table.verticalHeader().setVisible(False)
         self.table.verticalHeader().setDefaultSectionSize(22)
         self.table.horizontalHeader().setStretchLastSection(True)
+        self.table.horizontalHeader().setResizeContentsPrecision(40)   # size columns from 40 rows
         lay = QVBoxLayout(self); lay.setContentsMargins(2, 2, 2, 2)
         lay.addWidget(self.caption); lay.addWidget(self.table, 1)
         self.table.selectionModel().currentRowChanged.connect(self._on_row)

@@ -44,6 +44,7 @@ class PairLedgerView(QWidget):
         self.table.verticalHeader().setDefaultSectionSize(22)
         self.table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.Interactive)
         self.table.horizontalHeader().setStretchLastSection(True)
+        self.table.horizontalHeader().setResizeContentsPrecision(40)   # size columns from 40 rows
         lay = QVBoxLayout(self); lay.setContentsMargins(0, 0, 0, 0); lay.setSpacing(2)
         lay.addLayout(top); lay.addWidget(self.table, 1)
 

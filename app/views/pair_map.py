@@ -23,7 +23,10 @@ QUANTITIES = {"total": "Total", "nonbonded": "Nonbonded (Coulomb + LJ)", "coulom
               "lj": "Lennard-Jones", "bonded": "Bonded (all bonded terms)",
               **{t: t.replace("_", "-").capitalize() for t in TERMS[:6]}}
 CLIPS = (100.0, 99.9, 99.5, 99.0, 98.0, 95.0, 90.0)
-COLORMAP = "CET-D1A"   # blue - white - red, perceptually uniform
+# Diverging blue - white - red (the RdBu scheme of ColorBrewer, as in the exported figures):
+# attractive entries blue, repulsive red, zero exactly white.
+DIVERGING = ("#053061", "#2166ac", "#4393c3", "#92c5de", "#d1e5f0", "#ffffff",
+             "#fddbc7", "#f4a582", "#d6604d", "#b2182b", "#67001f")
 
 
 def clip_level(values: np.ndarray, percentile: float) -> float:
@@ -148,14 +151,20 @@ class PairMapView(QWidget):
         self.plot.hideButtons()
         self.image = pg.ImageItem(axisOrder="row-major")
         self.plot.addItem(self.image)
-        self.cmap = pg.colormap.get(COLORMAP)
+        self.cmap = pg.ColorMap(np.linspace(0.0, 1.0, len(DIVERGING)), [QColor(c) for c in DIVERGING])
         self.colorbar = pg.ColorBarItem(values=(-1, 1), colorMap=self.cmap, interactive=False, width=18)
         self.colorbar.setImageItem(self.image, insert_in=self.plot)
         self.colorbar.axis.setTextPen(pg.mkPen("#222"))
         self.marker = pg.ScatterPlotItem(pxMode=False, size=1.0, symbol="s", brush=None,
-                                         pen=pg.mkPen("#111", width=2.5))
+                                         pen=pg.mkPen("#00a000", width=3))
         self.marker.setZValue(10)
         self.plot.addItem(self.marker)
+        guide = pg.mkPen(QColor(0, 150, 0, 140), width=1)
+        self.guides = [pg.InfiniteLine(angle=90, pen=guide, movable=False),
+                       pg.InfiniteLine(angle=0, pen=guide, movable=False)]
+        for g in self.guides:
+            g.setZValue(9); g.setVisible(False)
+            self.plot.addItem(g)
 
         lay = QVBoxLayout(self)
         lay.setContentsMargins(0, 0, 0, 0)
@@ -352,9 +361,14 @@ class PairMapView(QWidget):
     def _draw_marker(self) -> None:
         if self._cursor is None:
             self.marker.setData([], [])
+            for g in self.guides:
+                g.setVisible(False)
             return
         r, c = self._cursor
         self.marker.setData([c, r], [r, c])
+        self.guides[0].setPos(c); self.guides[1].setPos(r)
+        for g in self.guides:
+            g.setVisible(True)
 
     def cursor(self):
         return self._cursor

@@ -29,6 +29,7 @@ class ResidueRosterView(QWidget):
         self.table.verticalHeader().setVisible(False)
         self.table.verticalHeader().setDefaultSectionSize(22)
         self.table.horizontalHeader().setStretchLastSection(True)
+        self.table.horizontalHeader().setResizeContentsPrecision(40)   # size columns from 40 rows
         self.find = QLineEdit(); self.find.setPlaceholderText("Filter residues")
         self.find.setClearButtonEnabled(True)
 
