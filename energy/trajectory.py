@@ -29,6 +29,7 @@ import time
 import warnings
 from dataclasses import dataclass, field
 
+import numba
 import numpy as np
 
 from .errors import EnergyError, InputMismatchError, StructureFileError
@@ -307,6 +308,22 @@ class FrameRecord:
     seconds: float = 0.0
 
 
+@numba.njit(cache=True)
+def _welford_update(mean, m2, pos, vals, n):
+    """One Welford step on every row: rows ``pos`` see ``vals``, all others see 0."""
+    K, C = mean.shape
+    row_of = np.full(K, -1, np.int64)
+    for r in range(len(pos)):
+        row_of[pos[r]] = r
+    for k in range(K):
+        r = row_of[k]
+        for c in range(C):
+            x = vals[r, c] if r >= 0 else 0.0
+            delta = x - mean[k, c]
+            mean[k, c] += delta / n
+            m2[k, c] += delta * (x - mean[k, c])
+
+
 class PairStatistics:
     """Running mean / M2 (Welford) of every residue-pair entry over frames, sparse.
 
@@ -341,10 +358,16 @@ class PairStatistics:
         return out
 
     def _grow(self, keys: np.ndarray) -> None:
-        """Make room for ``keys`` (sorted union); new entries start as 0 over the past frames."""
-        union = np.union1d(self.keys, keys)
-        if len(union) == len(self.keys):
+        """Make room for ``keys`` (sorted, unique); new entries start as 0 over the past frames."""
+        if len(self.keys):
+            at = np.minimum(np.searchsorted(self.keys, keys), len(self.keys) - 1)
+            new = keys[self.keys[at] != keys]
+        else:
+            new = keys
+        if not len(new):
             return
+        union = np.concatenate([self.keys, new])
+        union.sort(kind="stable")
         where = np.searchsorted(union, self.keys)
         K, C = len(union), len(COLUMNS)
         mean, m2 = np.zeros((K, C)), np.zeros((K, C))
@@ -364,12 +387,8 @@ class PairStatistics:
         for c, t in enumerate(TERMS):
             vals[:, c] = rp.values[t]
         vals[:, -1] = rp.total
-        x = np.zeros_like(self.mean)
-        x[pos] = vals
         self.frames.append(int(frame_index))
-        delta = x - self.mean
-        self.mean += delta / self.n
-        self.m2 += delta * (x - self.mean)
+        _welford_update(self.mean, self.m2, pos, vals, float(self.n))
         self.present[pos] += 1
         self.below[pos] += vals[:, -1] < self.threshold
         self.min_distance[pos] = np.minimum(self.min_distance[pos], rp.min_heavy_distance)
@@ -566,6 +585,7 @@ class TrajectoryScan:
         self.source = source or TrajectorySource(request)
         self.system = self.source.system
         self.n_frames_file = self.source.n_frames
+        self.frames_spec = frames
         self.frames = parse_frames(frames, self.n_frames_file)
         self.on_frame = on_frame
         self.state = TrajectoryState(request, self.system, self.frames)
@@ -603,9 +623,6 @@ class TrajectoryScan:
 
     def result(self) -> TrajectoryResult:
         return self.state.result()
-
-    def close(self) -> None:
-        pass
 
 
 def scan_trajectory(request: TrajectoryRequest, frames: str | None = None, progress=None):

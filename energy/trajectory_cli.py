@@ -333,7 +333,6 @@ def run(args, progress=None) -> int:
     request = request_from_args(args)
     scan, execution = make_scan(request, args.frames, getattr(args, "workers", 1),
                                 getattr(args, "scheduler", None))
-    scan.frames_spec = args.frames
     execution["chunk_frames"] = request.chunk_frames
     t_open = time.perf_counter()
     tables = FrameTables(args.csv_dir, request, scan.system) if args.csv_dir else None

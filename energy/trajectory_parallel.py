@@ -93,7 +93,11 @@ class _ProcessBackend:
 
     @staticmethod
     def result(future):
-        return future.result()
+        try:
+            return future.result()
+        except cf.process.BrokenProcessPool:
+            raise TrajectoryError("a worker process died (out of memory? killed?); the frames "
+                                  "merged so far are kept") from None
 
     def close(self, abort: bool):
         if abort:
