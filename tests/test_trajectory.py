@@ -149,13 +149,15 @@ class OpenMMInteraction:
 
 
 def test_per_frame_totals_agree_with_openmm_frame_by_frame(scan0, residues):
-    """Frames 0, 20 and 40 of relax.dcd: every term vs OpenMM; the clash pair, the salt bridge
+    """First, middle and last frames of relax.dcd: every term vs OpenMM; the clash pair, the salt bridge
     and chain A vs chain B vs OpenMM interaction energies; pair distances vs MDAnalysis."""
     clash, salt = residues["clash"], residues["salt_bridge"]
     request = TrajectoryRequest(SCENARIO_CLASH_PDB, DCD, pairs=(clash, salt),
                                 select_a="segid A", select_b="segid B")
-    result = TrajectoryScan(request, "0:41:20", source=None).run()
-    assert result.frames == [0, 20, 40] and result.complete
+    n = scan0.n_frames_file
+    middle = (n - 1) // 2
+    result = TrajectoryScan(request, f"0::{middle}", source=None).run()
+    assert result.frames == [0, middle, 2 * middle] and result.complete
     u, positions = _dcd_positions(result.frames)
     system = _openmm_system()
     resindex = scan0.system.resindex
@@ -242,7 +244,7 @@ def test_parse_frames_follows_python_slices():
 def _cli_args(tmp_path, name, residues, *extra):
     out = tmp_path / name
     pairs = [f"{i}-{j}" for i, j in residues.values()]
-    return out, ["scan", SCENARIO_CLASH_PDB, DCD, "--frames", "1:41:4", "--pairs", pairs[0],
+    return out, ["scan", SCENARIO_CLASH_PDB, DCD, "--frames", "1::4", "--pairs", pairs[0],
                  "--pairs", pairs[1], "--select-a", "segid A", "--select-b", "segid B",
                  "--json", str(out / "t.json"), "--csv-dir", str(out / "csv"), "--quiet", *extra]
 
@@ -282,7 +284,8 @@ def test_serial_workers_and_dask_cluster_give_identical_outputs(tmp_path, residu
         signal.alarm(0)
         signal.signal(signal.SIGALRM, previous)
     serial = _outputs(out_s)
-    assert serial[0]["frames"] == list(range(1, 41, 4)) and serial[0]["complete"]
+    assert serial[0]["frames"] == list(range(1, serial[0]["inputs"]["n_frames_in_file"], 4))
+    assert serial[0]["complete"]
     assert set(serial[1]) == {"frames.csv", "pair_frames.csv", "selection_frames.csv",
                               "residue_pairs_stats.csv"}
     for other in (out_w, out_d):
@@ -303,7 +306,7 @@ def test_interrupt_keeps_the_frames_done_complete_and_readable(tmp_path, scan0, 
     exactly those 5 frames, equal to a complete run of the same 5 frames."""
     folder = tmp_path / "cut"
     folder.mkdir()
-    argv = ["scan", SCENARIO_CLASH_PDB, DCD, "--frames", "0:40:3", "--pairs", "%d-%d" % residues["clash"],
+    argv = ["scan", SCENARIO_CLASH_PDB, DCD, "--frames", "::3", "--pairs", "%d-%d" % residues["clash"],
             "--json", str(folder / "t.json"), "--csv-dir", str(folder / "csv"), "--quiet"]
 
     def stop_after_five(done, total):
@@ -314,7 +317,7 @@ def test_interrupt_keeps_the_frames_done_complete_and_readable(tmp_path, scan0, 
     assert code == 130
     doc = json.loads((folder / "t.json").read_text())
     assert doc["frames"] == [0, 3, 6, 9, 12] and not doc["complete"] and doc["interrupted"]
-    assert doc["n_frames_requested"] == 14
+    assert doc["n_frames_requested"] == len(range(0, scan0.n_frames_file, 3))
     frames = _read_csv(folder / "csv" / "frames.csv")
     assert [int(r["frame"]) for r in frames] == doc["frames"]
     pairs = _read_csv(folder / "csv" / "pair_frames.csv")
@@ -344,7 +347,7 @@ def test_interrupt_keeps_the_frames_done_complete_and_readable(tmp_path, scan0, 
 def test_sigint_stops_a_parallel_run_cleanly(tmp_path, scan0):
     """SIGINT to a `tessera scan --workers 2` subprocess mid-run: exit 130, the tables and the
     JSON hold the same frames, whose totals equal single-frame evaluations of those frames."""
-    # An invented long trajectory: relax.dcd's frames cycled 15 times (615 frames).
+    # An invented long trajectory: relax.dcd's frames cycled 15 times.
     long_dcd = tmp_path / "long.dcd"
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
@@ -378,14 +381,15 @@ def test_sigint_stops_a_parallel_run_cleanly(tmp_path, scan0):
     assert proc.returncode == 130, err.decode()
     assert b"interrupted after" in err
     doc = json.loads((folder / "t.json").read_text())
-    assert doc["interrupted"] and not doc["complete"] and 8 <= len(doc["frames"]) < 615
+    n = scan0.n_frames_file
+    assert doc["interrupted"] and not doc["complete"] and 8 <= len(doc["frames"]) < 15 * n
     rows = _read_csv(table)
     assert [int(r["frame"]) for r in rows] == doc["frames"]
     assert len(_read_csv(folder / "csv" / "residue_pairs_stats.csv")) == len(doc["pairs"])
     source = scan0.source
     for k in (0, len(rows) - 1):
         f = doc["frames"][k]
-        frame = next(source.frames([f % 41]))
+        frame = next(source.frames([f % n]))
         ref = compute(source.system, frame, TrajectoryRequest(SCENARIO_CLASH_PDB).settings)
         for term in (*TERMS, "total"):
             assert float(rows[k][term]) == ref.totals[term]
@@ -399,3 +403,37 @@ def test_bad_requests_fail_with_one_line(tmp_path, capsys):
     assert main(["scan", SCENARIO_CLASH_PDB, DCD, "--frames", "0:5", "--workers", "2",
                  "--scheduler", "tcp://127.0.0.1:1", "--quiet"]) == 2
     assert "not both" in capsys.readouterr().err
+
+
+def test_psf_route_trajectory_agrees_with_openmm_charmm_reader(tmp_path):
+    """MDAnalysisTests' adk.psf + adk_dims.dcd (an open dataset) with invented parameters
+    (tests/charmm_cases.invent_parameters), 10 A cutoff and reaction field, the last frame (97;
+    frame 0 is in tests/test_charmm_vs_openmm.py): every term vs OpenMM's own CHARMM reader
+    (CharmmPsfFile + CharmmParameterSet) on that frame as MDAnalysis reads it."""
+    from MDAnalysisTests.datafiles import DCD as ADK_DCD, PSF as ADK_PSF
+
+    from charmm_cases import invent_parameters, openmm_energies
+    from energy.io.charmm_system import read_frame
+    from energy.io.charmm_write import write_parameters
+    from energy.io.psf import read_psf
+    from energy.settings import EnergySettings
+
+    psf = read_psf(ADK_PSF)
+    first = read_frame(ADK_DCD, psf.n_atoms, psf.names, frame=0)
+    names = {str(t): f"T{t}" for t in set(psf.types)}
+    prm = tmp_path / "adk_invented.prm"
+    write_parameters(prm, invent_parameters(psf, first.positions, seed=20261201, type_names=names))
+    settings = EnergySettings(cutoff_angstrom=10.0, electrostatics="reaction-field")
+    request = TrajectoryRequest(ADK_PSF, ADK_DCD, (str(prm),), settings=settings)
+    result = TrajectoryScan(request, "-1").run()
+    assert result.frames == [97]
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        u = mda.Universe(ADK_PSF, ADK_DCD)
+        positions = {k: u.trajectory[k].positions.astype(np.float64).copy() for k in (0, 97)}
+    assert not np.allclose(positions[0], positions[97], atol=1.0)  # not frame 0 again
+    for record in result.records:
+        ref = openmm_energies(ADK_PSF, [prm], positions[record.index], cutoff=10.0,
+                              rf_dielectric=settings.solvent_dielectric)
+        for term in (*TERMS, "total"):
+            assert_close(record.totals[term], ref[term], f"adk frame {record.index} {term}")
