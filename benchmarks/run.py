@@ -81,6 +81,30 @@ def run_child(argv, stdout_path=None, timeout=CHILD_TIMEOUT_S, env=None) -> dict
             "user_s": usage.ru_utime, "sys_s": usage.ru_stime, "stderr": stderr[-4000:]}
 
 
+def engine_fingerprint() -> dict:
+    """git HEAD plus a hash of every engine source file as it is on disk now (the tree is shared:
+    files may change while the benchmark runs)."""
+    import hashlib
+    h = hashlib.sha256()
+    for folder in ("energy",):
+        for dirpath, dirnames, filenames in sorted(os.walk(os.path.join(ROOT, folder))):
+            dirnames.sort()
+            for fn in sorted(filenames):
+                if fn.endswith(".py"):
+                    path = os.path.join(dirpath, fn)
+                    h.update(os.path.relpath(path, ROOT).encode())
+                    with open(path, "rb") as fh:
+                        h.update(fh.read())
+    try:
+        head = subprocess.run(["git", "rev-parse", "--short", "HEAD"], cwd=ROOT, capture_output=True,
+                              text=True, timeout=30).stdout.strip()
+        dirty = subprocess.run(["git", "status", "--porcelain", "--", "energy"], cwd=ROOT,
+                               capture_output=True, text=True, timeout=30).stdout.strip()
+    except (OSError, subprocess.SubprocessError):
+        head, dirty = "unknown", ""
+    return {"git_head": head, "engine_dirty": bool(dirty), "engine_sha256": h.hexdigest()[:16]}
+
+
 def tessera_command() -> list[str]:
     exe = os.path.join(os.path.dirname(sys.executable), "tessera")
     if os.path.exists(exe):
@@ -219,6 +243,8 @@ def summarise(name: str, info: dict, setting: str, tess_runs: list, omm: dict) -
         "total_rel_diff": rel_diff(tot_t, tot_o),
         "tessera_total_spread_over_runs": spread,
         "per_force": force_cmp, "tessera_totals": tess_runs[-1]["totals"],
+        "tessera_runs": [{k: r[k] for k in ("timings", "wall_s", "peak_rss_mib", "user_s", "sys_s")}
+                         for r in tess_runs],
     }
 
 
@@ -233,7 +259,13 @@ def markdown(report: dict) -> str:
            f"Python {report['machine']['python']}; OpenMM {report['machine']['openmm']} "
            f"(CPU platform, Threads={OPENMM_THREADS}); numba threads {report['machine']['numba_threads']}.",
            f"Command: `{report['command']}`.  Medians over N runs measured in this same run; "
-           "ratio = tessera compute median / OpenMM median.", "",
+           "ratio = tessera compute median / OpenMM median.",
+           f"Engine: git {report['engine_start']['git_head']}"
+           f"{' + uncommitted changes in energy/' if report['engine_start']['engine_dirty'] else ''}, "
+           f"sources sha256 {report['engine_start']['engine_sha256']}.", ""]
+    if report.get("engine_changed"):
+        out += [f"**Warning: {report['engine_changed']}.**", ""]
+    out += [
            "| system | atoms | setting | N | tessera compute median (s) | OpenMM median (s) | ratio "
            "| tessera peak RSS (MB) | tessera total (kcal/mol) | OpenMM total (kcal/mol) | rel. diff |",
            "|---|---:|---|---:|---:|---:|---:|---:|---:|---:|---:|"]
@@ -244,7 +276,10 @@ def markdown(report: dict) -> str:
                    f"| {r['tessera_total_kcal']:.4f} | {r['openmm_total_kcal']:.4f} "
                    f"| {r['total_rel_diff']:.1e} |")
     out += ["", "MB = MiB (2^20 bytes), the peak resident set of the `tessera scan` process "
-            "(largest over its N runs).", "",
+            "(largest over its N runs).  1-minute load average before/after each case: "
+            + ", ".join(f"{r['system']} {r['setting']} {r['loadavg_1min_before']:.1f}/"
+                        f"{r['loadavg_1min_after']:.1f}" for r in rows)
+            + f" ({report['machine']['cpus']} CPUs; above that, other work competed for the CPUs).", "",
             "## Tessera phases (medians, s) and whole-process figures", "",
             "| system | setting | read | parameterise | bonded | neighbour_search | nonbonded "
             "| aggregate | compute | write | process wall | JSON (MB) | pairs in JSON |",
@@ -365,6 +400,7 @@ def main(argv=None) -> int:
               "command": " ".join(["benchmarks/run.py", *argv]) or "benchmarks/run.py",
               "systems": {}, "rows": [], "energy_findings": [], "failures": []}
 
+    report["engine_start"] = engine_fingerprint()
     paths = {}
     for name in names:
         paths[name], report["systems"][name] = systems.ensure(name)
@@ -383,6 +419,8 @@ def main(argv=None) -> int:
             n = args.repeats or (QUICK_REPEATS if args.quick else REPEATS[name])
             tag = f"{name}-{setting}"
             print(f"{tag}: OpenMM reference ...", flush=True)
+            engine_before = engine_fingerprint()
+            load_before = os.getloadavg()[0]
             try:
                 omm = run_openmm(paths[name], setting, n,
                                  os.path.join(RESULTS, "scan", f"{tag}-openmm.json"))
@@ -400,6 +438,8 @@ def main(argv=None) -> int:
                 report["failures"].append({"system": name, "setting": setting, "error": str(exc)})
                 continue
             row = summarise(name, report["systems"][name], setting, runs, omm)
+            row["engine_before"], row["engine_after"] = engine_before, engine_fingerprint()
+            row["loadavg_1min_before"], row["loadavg_1min_after"] = load_before, os.getloadavg()[0]
             report["rows"].append(row)
             if row["total_rel_diff"] > ENERGY_RTOL:
                 report["energy_findings"].append(
@@ -409,6 +449,13 @@ def main(argv=None) -> int:
                   f"{row['openmm_total_kcal']:.4f} (rel {row['total_rel_diff']:.1e})", flush=True)
 
     report["target"] = target_verdict(report["rows"], report["failures"])
+    report["engine_end"] = engine_fingerprint()
+    if report["engine_end"] != report["engine_start"] or any(
+            r["engine_before"] != r["engine_after"] for r in report["rows"]):
+        report["engine_changed"] = ("the engine sources (energy/) changed while the benchmark ran "
+                                    f"({report['engine_start']['engine_sha256']} at the start, "
+                                    f"{report['engine_end']['engine_sha256']} at the end): rows may "
+                                    "mix engine versions; rerun for a consistent table")
     if not (args.quick or args.no_gui):
         report["gui_bench"] = run_gui_bench()
     report["finished"] = time.strftime("%Y-%m-%d %H:%M:%S")
@@ -421,6 +468,8 @@ def main(argv=None) -> int:
     print(text)
     for finding in report["energy_findings"]:
         print(f"WARNING: energy disagreement: {finding}", file=sys.stderr)
+    if report.get("engine_changed"):
+        print(f"WARNING: {report['engine_changed']}", file=sys.stderr)
     return 0
 
 
