@@ -127,6 +127,14 @@ def sorted_unique(keys: np.ndarray) -> np.ndarray:
     return keys[keep]
 
 
+def is_member(keys: np.ndarray, sorted_reference: np.ndarray) -> np.ndarray:
+    """(len(keys),) bool: which keys occur in the sorted array ``sorted_reference``."""
+    if len(sorted_reference) == 0:
+        return np.zeros(len(keys), bool)
+    pos = np.minimum(np.searchsorted(sorted_reference, keys), len(sorted_reference) - 1)
+    return sorted_reference[pos] == keys
+
+
 def assemble(n_residues: int, base_pairs: np.ndarray, base_values: dict, base_min_heavy: np.ndarray,
              base_keep: np.ndarray, contributions) -> ResiduePairEnergies:
     """Merge per-interaction contributions into the nonbonded residue-pair rows.

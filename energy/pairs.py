@@ -12,6 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.spatial import cKDTree
 
+from .decompose import is_member, sorted_unique
 from .geometry import minimum_image
 from .neighbors import check_periodic_box
 from .settings import EnergySettings
@@ -61,7 +62,7 @@ def _candidate_pairs(x, atoms_a, atoms_b, cutoff, box_lengths):
         ia, ib = atoms_a[coo["i"]], atoms_b[coo["j"]]
     lo, hi = np.minimum(ia, ib), np.maximum(ia, ib)
     keep = lo != hi
-    keys = np.unique(lo[keep].astype(np.int64) * (x.shape[0]) + hi[keep])
+    keys = sorted_unique(lo[keep].astype(np.int64) * (x.shape[0]) + hi[keep])
     n = x.shape[0]
     return np.stack([keys // n, keys % n], axis=1).astype(np.intp)
 
@@ -84,7 +85,7 @@ def atom_pair_energies(system: MolecularSystem, frame: Frame, settings: EnergySe
     ex = system.exception_pairs
     ex_keys = ex[:, 0].astype(np.int64) * n + ex[:, 1]
     keys = pairs[:, 0].astype(np.int64) * n + pairs[:, 1]
-    ordinary = pairs[~np.isin(keys, ex_keys)]
+    ordinary = pairs[~is_member(keys, np.sort(ex_keys))]
     in_a = np.zeros(n, bool); in_a[atoms_a] = True
     in_b = in_a if atoms_b is None else np.zeros(n, bool)
     if atoms_b is not None:

@@ -12,7 +12,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .cells import candidate_pairs_cells
-from .decompose import ResiduePairEnergies, assemble, sorted_unique, split_over_residue_pairs
+from .decompose import ResiduePairEnergies, assemble, is_member, sorted_unique, split_over_residue_pairs
 from .errors import InputMismatchError
 from .neighbors import ResidueAtoms, all_residue_pairs, check_periodic_box, residue_spheres
 from .settings import EnergySettings
@@ -73,8 +73,7 @@ def _exception_residue_flags(system, pairs_ij, n_res):
     ri, rj = system.resindex[ex[:, 0]], system.resindex[ex[:, 1]]
     ex_keys = sorted_unique(np.minimum(ri, rj).astype(np.int64) * n_res + np.maximum(ri, rj))
     keys = pairs_ij[:, 0].astype(np.int64) * n_res + pairs_ij[:, 1]
-    pos = np.minimum(np.searchsorted(ex_keys, keys), len(ex_keys) - 1)
-    return ex_keys[pos] == keys
+    return is_member(keys, ex_keys)
 
 
 def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySettings | None = None):
