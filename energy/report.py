@@ -63,27 +63,62 @@ def residue_records(system) -> list[dict]:
              "resname": str(r.resname[i])} for i in range(len(r))]
 
 
-def pair_rows(result, include_zero: bool = False):
-    """Residue-pair rows (dicts) with every term, total and minimum heavy-atom distance."""
+def pair_columns(result, include_zero: bool = False) -> dict:
+    """Residue-pair columns (numpy arrays) for the rows with a nonzero entry: ``i``, ``j``, every
+    term, ``total`` and ``min_heavy_distance`` (A; inf where no heavy-atom pair was examined)."""
     rp = result.residue_pairs
-    total = rp.total
     cols = {t: rp.values[t] for t in TERMS}
-    nonzero = np.ones(len(rp), bool) if include_zero else np.any(
-        np.stack([cols[t] != 0.0 for t in TERMS]), axis=0)
-    rows = []
-    for k in np.flatnonzero(nonzero):
-        row = {"i": int(rp.pair_i[k]), "j": int(rp.pair_j[k])}
+    if include_zero:
+        rows = slice(None)
+    else:
+        nonzero = np.zeros(len(rp), bool)
         for t in TERMS:
+            nonzero |= cols[t] != 0.0
+        rows = np.flatnonzero(nonzero)
+    out = {"i": rp.pair_i[rows], "j": rp.pair_j[rows]}
+    out.update({t: cols[t][rows] for t in TERMS})
+    out["total"] = rp.total[rows]
+    out["min_heavy_distance"] = rp.min_heavy_distance[rows]
+    return out
+
+
+def pair_rows(result, include_zero: bool = False):
+    """Residue-pair rows as dicts (convenient for small systems; the writers stream columns)."""
+    cols = pair_columns(result, include_zero)
+    rows = []
+    for k in range(len(cols["i"])):
+        row = {"i": int(cols["i"][k]), "j": int(cols["j"][k])}
+        for t in (*TERMS, "total"):
             row[t] = float(cols[t][k])
-        row["total"] = float(total[k])
-        d = float(rp.min_heavy_distance[k])
+        d = float(cols["min_heavy_distance"][k])
         row["min_heavy_distance"] = d if math.isfinite(d) else None
         rows.append(row)
     return rows
 
 
+_PAIR_KEYS = ("i", "j", *TERMS, "total", "min_heavy_distance")
+_PAIR_TEMPLATE = "{" + ", ".join(f'"{k}": %{"d" if k in ("i", "j") else ("s" if k == "min_heavy_distance" else "r")}'
+                                 for k in _PAIR_KEYS) + "}"
+_STREAM_ROWS = 20_000
+
+
+def _pair_json_chunks(cols):
+    n = len(cols["i"])
+    for start in range(0, n, _STREAM_ROWS):
+        sl = slice(start, start + _STREAM_ROWS)
+        d = cols["min_heavy_distance"][sl]
+        dist = np.where(np.isfinite(d), d, np.nan).tolist()
+        dist = ["null" if x != x else repr(x) for x in dist]
+        columns = [cols[k][sl].tolist() for k in _PAIR_KEYS[:-1]] + [dist]
+        yield ",\n  ".join(_PAIR_TEMPLATE % row for row in zip(*columns))
+
+
+_PAIRS_PLACEHOLDER = "@@tessera-pairs@@"
+
+
 def scan_document(loaded, result, selection=None, extra_timings=None) -> dict:
-    """The JSON document of ``tessera scan``."""
+    """The JSON document of ``tessera scan``; ``pairs`` is filled in by :func:`write_scan_json`
+    (streamed, so that millions of pairs never sit in memory as Python objects)."""
     system = loaded.system
     timings = {"read": loaded.timings.get("read", 0.0),
                "parameterise": loaded.timings.get("parameterise", 0.0),
@@ -102,7 +137,7 @@ def scan_document(loaded, result, selection=None, extra_timings=None) -> dict:
         "totals": {k: float(result.totals[k]) for k in (*TERMS, "total")},
         "n_atom_pairs_within_cutoff": result.n_atom_pairs,
         "residues": residue_records(system),
-        "pairs": pair_rows(result),
+        "pairs": _PAIRS_PLACEHOLDER,
         "timings": timings,
     }
     if selection is not None:
@@ -125,19 +160,45 @@ def residue_table_csv(system, result) -> str:
 
 
 def pair_table_csv(system, result) -> str:
+    cols = pair_columns(result)
     out = io.StringIO()
     w = csv.writer(out)
     w.writerow(["i", "j", "label_i", "label_j", *TERMS, "total", "min_heavy_distance"])
-    for row in pair_rows(result):
-        d = row["min_heavy_distance"]
-        w.writerow([row["i"], row["j"], system.residues.label(row["i"]), system.residues.label(row["j"]),
-                    *(f"{row[t]:.6f}" for t in TERMS), f"{row['total']:.6f}",
-                    "" if d is None else f"{d:.3f}"])
+    labels = [system.residues.label(i) for i in range(system.n_residues)]
+    numbers = [np.char.mod("%.6f", cols[t]) for t in (*TERMS, "total")]
+    d = cols["min_heavy_distance"]
+    dist = np.where(np.isfinite(d), np.char.mod("%.3f", np.where(np.isfinite(d), d, 0.0)), "")
+    for k, (i, j) in enumerate(zip(cols["i"].tolist(), cols["j"].tolist())):
+        w.writerow([i, j, labels[i], labels[j], *(col[k] for col in numbers), dist[k]])
     return out.getvalue()
 
 
 def write_json(path, doc: dict) -> None:
     atomic_write_text(path, json.dumps(doc, indent=1, allow_nan=False) + "\n")
+
+
+def write_scan_json(path, doc: dict, result) -> None:
+    """Write a :func:`scan_document` with its residue-pair rows streamed in, atomically."""
+    text = json.dumps(doc, indent=1, allow_nan=False)
+    head, tail = text.split(json.dumps(_PAIRS_PLACEHOLDER), 1)
+    path = os.fspath(path)
+    fd, tmp = tempfile.mkstemp(prefix=".tessera-", suffix=".tmp", dir=os.path.dirname(os.path.abspath(path)))
+    try:
+        with os.fdopen(fd, "w") as fh:
+            fh.write(head + "[\n  ")
+            first = True
+            for chunk in _pair_json_chunks(pair_columns(result)):
+                if not first:
+                    fh.write(",\n  ")
+                fh.write(chunk)
+                first = False
+            fh.write("\n ]" + tail + "\n")
+        _default_permissions(tmp)
+        os.replace(tmp, path)
+    except BaseException:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+        raise
 
 
 def write_csv_dir(folder, system, result) -> list[str]:
