@@ -31,6 +31,7 @@ from scipy.spatial import cKDTree
 from .errors import SettingsError
 from .geometry import minimum_image
 from .system import Frame, MolecularSystem
+from .settings import EXP6_ALPHA_MATCHING_LJ
 from .vdw_radii import BONDI_SOURCE, bondi_radius
 
 #: Default overlap threshold (A).  Common practice in structure validation: sphere overlaps of
@@ -61,6 +62,9 @@ class ClashOptions:
     periodic: minimum image in the frame's orthorhombic unit cell (default off).
     hbond: hydrogen-bonding pairs (donor-acceptor, polar H-acceptor) get the shorter H-bond
         contact distance (default on; see :func:`hbond_roles`).
+    exp6_alpha: steepness of the exp-6 form whose energy is reported beside the LJ energy of
+        every clash (default: the value matching the LJ curvature at the minimum).  Reported
+        only; the flagging criteria use the overlap and the LJ energy.
     """
 
     overlap: float | None = DEFAULT_OVERLAP
@@ -71,6 +75,7 @@ class ClashOptions:
     include_14: bool = False
     periodic: bool = False
     hbond: bool = True
+    exp6_alpha: float = EXP6_ALPHA_MATCHING_LJ
 
     def __post_init__(self):
         if self.radii not in RADII_SOURCES:
@@ -81,6 +86,9 @@ class ClashOptions:
             raise SettingsError("no clash criterion: give an overlap threshold or an LJ threshold")
         if self.overlap is not None and not np.isfinite(self.overlap):
             raise SettingsError(f"overlap threshold must be a finite number, got {self.overlap}")
+        if not (np.isfinite(self.exp6_alpha) and self.exp6_alpha > 7.0):
+            raise SettingsError(f"the exp-6 steepness must exceed 7 for the curve to have a minimum; "
+                                f"got {self.exp6_alpha}")
         if self.lj_above is not None and not (np.isfinite(self.lj_above) and self.lj_above >= 0):
             raise SettingsError(f"the LJ threshold must be >= 0 kcal/mol (a negative one would flag "
                                 f"every distant attractive pair), got {self.lj_above}")
@@ -92,7 +100,7 @@ class ClashOptions:
 @dataclass(frozen=True)
 class ResiduePairClashes:
     """Clashes of one residue pair (res_i <= res_j): count, worst overlap, summed LJ, worst clash
-    (row index into the ranked list)."""
+    (row index into the ranked list), summed exp-6 energy."""
 
     res_i: int
     res_j: int
@@ -100,6 +108,7 @@ class ResiduePairClashes:
     worst_overlap: float
     lj_sum: float
     worst: int
+    exp6_sum: float = 0.0
 
 
 @dataclass(frozen=True)
@@ -108,7 +117,9 @@ class ClashReport:
 
     ``pairs`` (n, 2) atom indices (i < j), ``distance`` r (A), ``contact`` the contact distance
     (A), ``overlap`` = contact - r (A), ``lj`` pair LJ energy (kcal/mol), ``is_14`` bool,
-    ``is_hbond`` bool (a hydrogen-bonding pair measured against the H-bond contact distance).
+    ``is_hbond`` bool (a hydrogen-bonding pair measured against the H-bond contact distance),
+    ``exp6`` the pair's exp-6 energy with the same Rmin and eps (kcal/mol, steepness
+    ``options.exp6_alpha``, held at its maximum inside the turnover; :func:`exp6_energy`).
     ``radii`` (n_atoms,) the per-atom radius used (A; 0 for atoms not searched), ``fallback``
     elements that had no Bondi radius (force-field radius used instead), ``n_candidates`` pairs
     examined within the search distance ``search_distance`` (A).
@@ -128,6 +139,7 @@ class ClashReport:
     search_distance: float
     fallback: tuple = ()
     notes: tuple = field(default=())
+    exp6: np.ndarray = field(default_factory=lambda: np.zeros(0))
 
     def __len__(self) -> int:
         return len(self.pairs)
@@ -140,13 +152,15 @@ class ClashReport:
         rj = system.resindex[self.pairs[:, 1]]
         lo, hi = np.minimum(ri, rj), np.maximum(ri, rj)
         out = {}
+        has6 = len(self.exp6) == len(self)
         for k in range(len(self)):  # rows are ranked, so the first row of a key is its worst
             key = (int(lo[k]), int(hi[k]))
             if key not in out:
-                out[key] = [0, float(self.overlap[k]), 0.0, k]
+                out[key] = [0, float(self.overlap[k]), 0.0, k, 0.0]
             out[key][0] += 1
             out[key][2] += float(self.lj[k])
-        rows = [ResiduePairClashes(a, b, c, w, s, k) for (a, b), (c, w, s, k) in out.items()]
+            out[key][4] += float(self.exp6[k]) if has6 else float("nan")
+        rows = [ResiduePairClashes(a, b, c, w, s, k, e6) for (a, b), (c, w, s, k, e6) in out.items()]
         return sorted(rows, key=lambda r: r.worst)
 
     def residue_counts(self, system: MolecularSystem) -> np.ndarray:
@@ -277,6 +291,22 @@ def lj_energy(r, rmin, eps) -> np.ndarray:
     return np.where(eps == 0.0, 0.0, e)
 
 
+def exp6_energy(r, rmin, eps, alpha: float = EXP6_ALPHA_MATCHING_LJ) -> np.ndarray:
+    """Exp-6 energy (kcal/mol) with the same minimum (Rmin, -eps) as the LJ pair, steepness
+    ``alpha``, held at its maximum inside the turnover point: the engine's own pair form
+    (:func:`energy.terms.nonbonded.pair_energies` with ``vdw="exp6"``, no cutoff, no switch)."""
+    from .settings import EnergySettings
+    from .terms.nonbonded import KernelConstants, pair_energies
+    r = np.ascontiguousarray(r, float)
+    n = len(r)
+    if not n:
+        return np.zeros(0)
+    kc = KernelConstants.from_settings(EnergySettings(vdw="exp6", exp6_alpha=float(alpha)))
+    _, e = pair_energies(r * r, np.zeros(n), np.ascontiguousarray(rmin, float),
+                         np.ascontiguousarray(eps, float), kc.values)
+    return e
+
+
 def _lj_reach(rmin, eps, threshold: float) -> float:
     """Largest distance at which LJ(rmin, eps) can exceed ``threshold`` >= 0 (A)."""
     ok = eps > 0
@@ -400,8 +430,10 @@ def find_clashes(system: MolecularSystem, frame: Frame, options: ClashOptions | 
         notes.append(f"no Bondi radius for element(s) {', '.join(fallback)}: force-field Rmin/2 used")
     if guessed:
         notes.append("the model has no hydrogens: every N/O pair is treated as possibly hydrogen-bonded")
+    exp6 = exp6_energy(r[idx], rmin[idx], eps[idx], opt.exp6_alpha)
     return ClashReport(opt, cand[idx], r[idx], contact[idx], overlap[idx], lj[idx], is14[idx],
-                       is_hb[idx], radii_out, int(len(atoms)), int(len(cand)), float(reach), fallback, tuple(notes))
+                       is_hb[idx], radii_out, int(len(atoms)), int(len(cand)), float(reach), fallback,
+                       tuple(notes), exp6)
 
 
 # ------------------------------------------------------------------------------------------------
@@ -428,6 +460,7 @@ def clash_rows(system: MolecularSystem, report: ClashReport) -> list[dict]:
                      "residue_i": int(system.resindex[i]), "residue_j": int(system.resindex[j]),
                      "distance": float(report.distance[k]), "contact": float(report.contact[k]),
                      "overlap": float(report.overlap[k]), "lj": float(report.lj[k]),
+                     "exp6": float(report.exp6[k]) if len(report.exp6) == len(report) else float("nan"),
                      "is_14": bool(report.is_14[k]), "is_hbond": bool(report.is_hbond[k])})
     return rows
 
@@ -455,12 +488,13 @@ def clash_document(system: MolecularSystem, report: ClashReport, source: dict | 
                            "label_j": system.residues.label(p.res_j),
                            "count": p.count, "worst_overlap": p.worst_overlap,
                            "lj_sum": p.lj_sum if np.isfinite(p.lj_sum) else None,
+                           "exp6_sum": p.exp6_sum if np.isfinite(p.exp6_sum) else None,
                            "worst_rank": p.worst + 1} for p in report.residue_pairs(system)],
     }
 
 
 CSV_FIELDS = ("rank", "label_i", "label_j", "atom_i", "atom_j", "residue_i", "residue_j",
-              "distance", "contact", "overlap", "lj", "is_14", "is_hbond")
+              "distance", "contact", "overlap", "lj", "exp6", "is_14", "is_hbond")
 
 
 def clash_csv(system: MolecularSystem, report: ClashReport) -> str:
@@ -489,7 +523,8 @@ def clash_table(system: MolecularSystem, report: ClashReport, top: int = 20) -> 
              f"{radii_description(o)}; {scope}; 1-2/1-3 excluded, 1-4 "
              f"{'included' if o.include_14 else 'excluded'}"
              f"{'; periodic' if o.periodic else ''}"
-             f"{'; H-bond pairs at H-bond contact' if o.hbond else '; no H-bond allowance'}"]
+             f"{'; H-bond pairs at H-bond contact' if o.hbond else '; no H-bond allowance'}"
+             f"; exp-6 column: alpha = {o.exp6_alpha:.3f}"]
     lines += [f"note: {n}" for n in report.notes]
     if not len(report):
         return "\n".join(lines)
@@ -499,10 +534,11 @@ def clash_table(system: MolecularSystem, report: ClashReport, top: int = 20) -> 
     wj = max(len("atom j"), *(len(r["label_j"]) for r in shown))
     lines.append("")
     lines.append(f"{'rank':>4}  {'atom i':<{wi}}  {'atom j':<{wj}}  {'r (A)':>6}  {'contact':>7}  "
-                 f"{'overlap':>7}  {'LJ (kcal/mol)':>13}")
+                 f"{'overlap':>7}  {'LJ (kcal/mol)':>13}  {'exp-6':>12}")
     for r in shown:
         lines.append(f"{r['rank']:>4}  {r['label_i']:<{wi}}  {r['label_j']:<{wj}}  {r['distance']:6.2f}  "
-                     f"{r['contact']:7.2f}  {r['overlap']:7.2f}  {_fmt_energy(r['lj']):>13}"
+                     f"{r['contact']:7.2f}  {r['overlap']:7.2f}  {_fmt_energy(r['lj']):>13}  "
+                     f"{_fmt_energy(r['exp6'])}"
                      f"{'  (1-4)' if r['is_14'] else ''}{'  (H-bond pair)' if r['is_hbond'] else ''}")
     if len(shown) < len(rows):
         lines.append(f"... {len(rows) - len(shown)} more (use --top 0 for all, or --json/--csv)")
@@ -510,8 +546,10 @@ def clash_table(system: MolecularSystem, report: ClashReport, top: int = 20) -> 
     lines.append("")
     lines.append(f"{len(pairs)} residue pair(s) with clashes:")
     wl = max(len(f"{system.residues.label(p.res_i)} - {system.residues.label(p.res_j)}") for p in pairs)
-    lines.append(f"  {'residue pair':<{wl}}  {'count':>5}  {'worst overlap':>13}  {'sum LJ':>12}")
+    lines.append(f"  {'residue pair':<{wl}}  {'count':>5}  {'worst overlap':>13}  {'sum LJ':>12}  "
+                 f"{'sum exp-6':>12}")
     for p in pairs[:top] if top and top > 0 else pairs:
         lab = f"{system.residues.label(p.res_i)} - {system.residues.label(p.res_j)}"
-        lines.append(f"  {lab:<{wl}}  {p.count:>5}  {p.worst_overlap:13.2f}  {_fmt_energy(p.lj_sum)}")
+        lines.append(f"  {lab:<{wl}}  {p.count:>5}  {p.worst_overlap:13.2f}  {_fmt_energy(p.lj_sum)}  "
+                     f"{_fmt_energy(p.exp6_sum)}")
     return "\n".join(lines)

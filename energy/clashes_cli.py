@@ -57,6 +57,9 @@ def configure_parser(p: argparse.ArgumentParser) -> None:
                    help="measure hydrogen-bonding pairs with the ordinary radii too")
     p.add_argument("--periodic", action="store_true",
                    help="minimum image in the frame's orthorhombic unit cell (default: none)")
+    p.add_argument("--exp6-alpha", type=float, default=None, metavar="A",
+                   help="steepness of the exp-6 energy reported beside the LJ energy of each clash "
+                        "(default 13.772, matching the LJ curvature at the minimum)")
     p.add_argument("--top", type=int, default=20, metavar="N",
                    help="rows shown on stdout (default 20; 0 for all)")
     p.add_argument("--json", metavar="OUT", help="write every clash and the summaries as JSON")
@@ -65,7 +68,9 @@ def configure_parser(p: argparse.ArgumentParser) -> None:
 
 
 def options_from_args(args) -> ClashOptions:
-    return ClashOptions(overlap=args.overlap, lj_above=args.lj_above,
+    from .settings import EXP6_ALPHA_MATCHING_LJ
+    alpha = EXP6_ALPHA_MATCHING_LJ if getattr(args, "exp6_alpha", None) is None else args.exp6_alpha
+    return ClashOptions(exp6_alpha=alpha, overlap=args.overlap, lj_above=args.lj_above,
                         combine="all" if args.require_all else "any", radii=args.radii,
                         include_hydrogens=args.include_hydrogens, include_14=args.include_14,
                         periodic=args.periodic, hbond=not args.no_hbond_contact)

@@ -411,11 +411,16 @@ def test_cli_clashes_writes_json_and_csv(tmp_path, capsys):
                "--csv", str(out_csv), "--top", "3"])
     assert rc == 0
     text = capsys.readouterr().out
-    assert "B:TRP33" in text and "A:GLU29" in text.split("\n")[3]
+    expected = set(openmm_clash_pair(str(SCENARIO / "complex_clash.pdb")))
+    first_row = text.split("\n")[3]
+    assert all(label in first_row for label in expected), first_row
+    assert "exp-6" in text.split("\n")[2]
     doc = json.loads(out_json.read_text())
     assert doc["kind"] == "tessera-clashes" and doc["n_clashes"] >= 1
     assert doc["residue_pairs"][0]["count"] >= 1
     assert out_csv.read_text().count("\n") == doc["n_clashes"] + 1
+    assert "exp6" in out_csv.read_text().splitlines()[0].split(",")
+    assert all(isinstance(c["exp6"], float) for c in doc["clashes"])
     assert not list(tmp_path.glob(".tessera-*"))  # no temporary files left behind
 
 
@@ -450,3 +455,64 @@ def test_scenario_pair_lj_agrees_with_the_engine_pair_curve(scenario_systems):
         a, b = (int(v) for v in rep.pairs[k])
         _, lj, _ = pair_curve(loaded.system, None, a, b, [rep.distance[k]])
         assert rep.lj[k] == pytest.approx(float(lj[0]), rel=1e-9, abs=1e-9)
+
+
+# ---------------------------------------------------------------------------------------------
+# the exp-6 column
+# ---------------------------------------------------------------------------------------------
+
+def test_exp6_column_by_hand_at_the_minimum_and_in_the_overlap():
+    """Exp-6 with the LJ minimum: E(Rmin) = eps/(a-6) (6 - a) = -eps (analytic, docs/physics.md).
+    Deep inside the wall exp-6 is far softer than LJ 12-6."""
+    from energy.clashes import exp6_energy
+    from energy.settings import EXP6_ALPHA_MATCHING_LJ as a
+    rmin, eps = 3.7, 0.15
+    assert exp6_energy([rmin], [rmin], [eps])[0] == pytest.approx(-eps, rel=1e-12)
+    r = 2.4
+    # by hand: eps/(a-6) [6 exp(a(1 - r/Rmin)) - a (Rmin/r)^6]
+    x = r / rmin
+    by_hand = eps / (a - 6) * (6 * math.exp(a * (1 - x)) - a / x ** 6)
+    assert exp6_energy([r], [rmin], [eps])[0] == pytest.approx(by_hand, rel=1e-12)
+    assert by_hand < float(lj_energy(r, rmin, eps))
+    system, frame = two_atoms(2.4)
+    rep = find_clashes(system, frame, ClashOptions(hbond=False))
+    # C/N pair: Rmin = 1.9 + 1.8 = 3.7 A, eps = sqrt(0.1 * 0.2) (Lorentz-Berthelot in tiny.py)
+    e_by_hand = math.sqrt(0.1 * 0.2) / (a - 6) * (6 * math.exp(a * (1 - x)) - a / x ** 6)
+    assert rep.exp6[0] == pytest.approx(e_by_hand, rel=1e-9)
+    assert rep.exp6[0] < rep.lj[0]
+    softer = find_clashes(system, frame, ClashOptions(hbond=False, exp6_alpha=10.0))
+    assert softer.exp6[0] < rep.exp6[0]      # smaller alpha: a softer wall
+    assert softer.lj[0] == rep.lj[0]          # the LJ column does not depend on alpha
+    with pytest.raises(SettingsError, match="exceed 7"):
+        ClashOptions(exp6_alpha=6.5)
+
+
+def test_scenario_exp6_column_agrees_with_the_engine_exp6_curve(scenario_systems):
+    """The exp-6 column is the engine's exp-6 pair form (pair_curve with vdw='exp6')."""
+    from energy.pairs import pair_curve
+    from energy.settings import EnergySettings
+    loaded = scenario_systems["clash"]
+    rep = find_clashes(loaded.system, loaded.frame, ClashOptions(include_hydrogens=True))
+    exp6 = EnergySettings(vdw="exp6")
+    for k in range(min(10, len(rep))):
+        a, b = (int(v) for v in rep.pairs[k])
+        _, e, _ = pair_curve(loaded.system, exp6, a, b, [rep.distance[k]])
+        assert rep.exp6[k] == pytest.approx(float(e[0]), rel=1e-9, abs=1e-9)
+    worst = rep.residue_pairs(loaded.system)[0]
+    rows = [k for k in range(len(rep))
+            if {int(loaded.system.resindex[x]) for x in rep.pairs[k]} == {worst.res_i, worst.res_j}]
+    assert worst.exp6_sum == pytest.approx(float(rep.exp6[rows].sum()))
+    assert worst.exp6_sum < worst.lj_sum
+
+
+def test_cli_exp6_alpha_option(tmp_path):
+    from energy.cli import main
+    out = {}
+    for alpha in ("13.772", "10"):
+        path = tmp_path / f"c{alpha}.json"
+        assert main(["clashes", str(SCENARIO / "complex_clash.pdb"), "--exp6-alpha", alpha,
+                     "--json", str(path), "--quiet"]) == 0
+        doc = json.loads(path.read_text())
+        assert doc["options"]["exp6_alpha"] == pytest.approx(float(alpha))
+        out[alpha] = doc["clashes"][0]["exp6"]
+    assert out["10"] < out["13.772"]
