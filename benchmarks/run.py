@@ -65,6 +65,7 @@ def run_child(argv, stdout_path=None, timeout=CHILD_TIMEOUT_S, env=None) -> dict
     """Run ``argv``; return exit code, wall seconds, peak RSS (MiB) of that child, stderr tail."""
     with tempfile.TemporaryFile("w+") as err, \
             open(stdout_path or os.devnull, "w") as out:
+        parent_rss = own_rss_mib()[1]
         t0 = time.perf_counter()
         proc = subprocess.Popen(argv, stdout=out, stderr=err, cwd=ROOT, env=env)
         timer = threading.Timer(timeout, proc.kill)
@@ -78,6 +79,7 @@ def run_child(argv, stdout_path=None, timeout=CHILD_TIMEOUT_S, env=None) -> dict
         err.seek(0)
         stderr = err.read()
     return {"returncode": proc.returncode, "wall_s": wall, "peak_rss_mib": usage.ru_maxrss / 1024.0,
+            "parent_rss_mib_at_spawn": parent_rss,
             "user_s": usage.ru_utime, "sys_s": usage.ru_stime, "stderr": stderr[-4000:]}
 
 
@@ -121,12 +123,42 @@ def run_tessera(pdb: str, setting: str, out_json: str) -> dict:
         raise RuntimeError(f"{' '.join(argv)} failed (exit {child['returncode']}, after "
                            f"{child['wall_s']:.1f} s, peak RSS {child['peak_rss_mib']:.0f} MiB):\n"
                            f"{child['stderr']}")
-    with open(out_json) as fh:
-        doc = json.load(fh)
-    return {**child, "timings": doc["timings"], "totals": doc["totals"], "n_atoms": doc["n_atoms"],
-            "n_residues": doc["n_residues"], "n_pairs_reported": len(doc.get("pairs", [])),
-            "n_atom_pairs_within_cutoff": doc.get("n_atom_pairs_within_cutoff"),
-            "json_bytes": os.path.getsize(out_json), "command": argv}
+    return {**child, **scan_summary(out_json), "json_bytes": os.path.getsize(out_json),
+            "command": argv}
+
+
+#: Run in a separate child: loading a 1 GB scan JSON would bloat this process, and a child
+#: spawned later inherits the parent's peak RSS as the floor of its own ru_maxrss (Linux counts
+#: the pre-exec address space), which would corrupt every later measurement.
+_SUMMARY_SCRIPT = """
+import json, sys
+doc = json.load(open(sys.argv[1]))
+print(json.dumps({"timings": doc["timings"], "totals": doc["totals"], "n_atoms": doc["n_atoms"],
+                  "n_residues": doc["n_residues"], "n_pairs_reported": len(doc.get("pairs", [])),
+                  "n_atom_pairs_within_cutoff": doc.get("n_atom_pairs_within_cutoff")}))
+"""
+
+
+def scan_summary(out_json: str) -> dict:
+    proc = subprocess.run([sys.executable, "-c", _SUMMARY_SCRIPT, out_json], capture_output=True,
+                          text=True, timeout=CHILD_TIMEOUT_S)
+    if proc.returncode != 0:
+        raise RuntimeError(f"could not read {out_json}: {proc.stderr[-2000:]}")
+    return json.loads(proc.stdout)
+
+
+def own_rss_mib() -> tuple[float, float]:
+    """(current, peak) resident set of this process, MiB."""
+    import resource
+    current = float("nan")
+    try:
+        with open("/proc/self/status") as fh:
+            for line in fh:
+                if line.startswith("VmRSS:"):
+                    current = int(line.split()[1]) / 1024.0
+    except OSError:
+        pass
+    return current, resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
 
 
 def openmm_worker(pdb: str, setting: str, repeats: int, out_json: str) -> int:
@@ -232,6 +264,7 @@ def summarise(name: str, info: dict, setting: str, tess_runs: list, omm: dict) -
         "tessera_wall_median_s": median([r["wall_s"] for r in tess_runs]),
         "tessera_peak_rss_mib": max(r["peak_rss_mib"] for r in tess_runs),
         "tessera_peak_rss_mib_runs": [r["peak_rss_mib"] for r in tess_runs],
+        "benchmark_process_peak_rss_mib": max(r["parent_rss_mib_at_spawn"] for r in tess_runs),
         "tessera_json_mib": tess_runs[-1]["json_bytes"] / 2 ** 20,
         "tessera_n_pairs_reported": tess_runs[-1]["n_pairs_reported"],
         "tessera_n_atom_pairs_within_cutoff": tess_runs[-1]["n_atom_pairs_within_cutoff"],
@@ -275,19 +308,21 @@ def markdown(report: dict) -> str:
                    f"| {r['ratio']:.1f} | {r['tessera_peak_rss_mib']:.0f} "
                    f"| {r['tessera_total_kcal']:.4f} | {r['openmm_total_kcal']:.4f} "
                    f"| {r['total_rel_diff']:.1e} |")
+    floor = max((r["benchmark_process_peak_rss_mib"] for r in rows), default=0.0)
     out += ["", "MB = MiB (2^20 bytes), the peak resident set of the `tessera scan` process "
-            "(largest over its N runs).  1-minute load average before/after each case: "
+            f"(largest over its N runs; the benchmark process itself peaked at {floor:.0f} MiB, "
+            "a floor below which a child's figure cannot be read).  1-minute load average before/after each case: "
             + ", ".join(f"{r['system']} {r['setting']} {r['loadavg_1min_before']:.1f}/"
                         f"{r['loadavg_1min_after']:.1f}" for r in rows)
             + f" ({report['machine']['cpus']} CPUs; above that, other work competed for the CPUs).", "",
             "## Tessera phases (medians, s) and whole-process figures", "",
-            "| system | setting | read | parameterise | bonded | neighbour_search | nonbonded "
+            "| system | setting | read | parameterise | prepare | bonded | neighbour_search | nonbonded "
             "| aggregate | compute | write | process wall | JSON (MB) | pairs in JSON |",
-            "|---|---|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|"]
+            "|---|---|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|"]
     for r in rows:
         p = r["tessera_phase_medians_s"]
         g = lambda k: fmt(p.get(k), ".3f")  # noqa: E731
-        out.append(f"| {r['system']} | {r['setting']} | {g('read')} | {g('parameterise')} "
+        out.append(f"| {r['system']} | {r['setting']} | {g('read')} | {g('parameterise')} | {g('prepare')} "
                    f"| {g('compute_bonded')} | {g('compute_neighbour_search')} "
                    f"| {g('compute_nonbonded')} | {g('compute_aggregate')} | {g('compute')} "
                    f"| {g('write')} | {r['tessera_wall_median_s']:.2f} | {r['tessera_json_mib']:.1f} "
