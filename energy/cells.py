@@ -64,22 +64,26 @@ def _close(i, j, centers, radii, cutoff, periodic, box):
 
 
 @numba.njit(cache=True, inline="always")
-def _cells_along(center_cell, shells, n_cells, periodic, out):
-    """Cell indices to visit along one axis; returns how many were written to ``out``."""
+def _axis_visits(center_cell, shells, n_cells, periodic):
+    """How many cells to visit along one axis, and whether the whole (periodic) axis is covered."""
     if periodic and 2 * shells + 1 >= n_cells:
-        for c in range(n_cells):
-            out[c] = c
-        return n_cells
-    m = 0
-    for off in range(-shells, shells + 1):
-        c = center_cell + off
-        if periodic:
-            c %= n_cells
-        elif c < 0 or c >= n_cells:
-            continue
-        out[m] = c
-        m += 1
-    return m
+        return n_cells, True
+    return 2 * shells + 1, False
+
+
+@numba.njit(cache=True, inline="always")
+def _axis_cell(k, center_cell, shells, n_cells, periodic, covered, length):
+    """k-th visited cell along an axis: (cell index or -1, image shift in A, cell offset)."""
+    if covered:
+        return k, 0.0, 0
+    off = k - shells
+    c = center_cell + off
+    if periodic:
+        wraps = (c - (c % n_cells)) // n_cells
+        return c % n_cells, wraps * length, off
+    if c < 0 or c >= n_cells:
+        return -1, 0.0, off
+    return c, 0.0, off
 
 
 @numba.njit(parallel=True, cache=True)
@@ -88,24 +92,49 @@ def _search(centers, radii, cutoff, periodic, box, cell, dims, idx, order, start
     n = centers.shape[0]
     for i in numba.prange(n):
         k = 0
-        max_shell = 0
-        for d in range(3):
-            max_shell = max(max_shell, int(np.ceil((cutoff + 2.0 * radii[i]) / cell[d])))
-        xs = np.empty(2 * max_shell + 1 + dims[0], np.int64)
-        ys = np.empty(2 * max_shell + 1 + dims[1], np.int64)
-        zs = np.empty(2 * max_shell + 1 + dims[2], np.int64)
-        nx = _cells_along(idx[i, 0], int(np.ceil((cutoff + 2.0 * radii[i]) / cell[0])), dims[0], periodic, xs)
-        ny = _cells_along(idx[i, 1], int(np.ceil((cutoff + 2.0 * radii[i]) / cell[1])), dims[1], periodic, ys)
-        nz = _cells_along(idx[i, 2], int(np.ceil((cutoff + 2.0 * radii[i]) / cell[2])), dims[2], periodic, zs)
+        reach = cutoff + 2.0 * radii[i]
+        sx_ = int(np.ceil(reach / cell[0]))
+        sy_ = int(np.ceil(reach / cell[1]))
+        sz_ = int(np.ceil(reach / cell[2]))
+        nx, cov_x = _axis_visits(idx[i, 0], sx_, dims[0], periodic)
+        ny, cov_y = _axis_visits(idx[i, 1], sy_, dims[1], periodic)
+        nz, cov_z = _axis_visits(idx[i, 2], sz_, dims[2], periodic)
+        ci0, ci1, ci2 = centers[i, 0], centers[i, 1], centers[i, 2]
         for a in range(nx):
+            cx, shx, ox = _axis_cell(a, idx[i, 0], sx_, dims[0], periodic, cov_x, box[0])
+            if cx < 0:
+                continue
+            gx = max(0, abs(ox) - 1) * cell[0]
             for b in range(ny):
+                cy, shy, oy = _axis_cell(b, idx[i, 1], sy_, dims[1], periodic, cov_y, box[1])
+                if cy < 0:
+                    continue
+                gy = max(0, abs(oy) - 1) * cell[1]
+                if gx * gx + gy * gy > reach * reach:
+                    continue
                 for e in range(nz):
-                    c = (xs[a] * dims[1] + ys[b]) * dims[2] + zs[e]
+                    cz, shz, oz = _axis_cell(e, idx[i, 2], sz_, dims[2], periodic, cov_z, box[2])
+                    if cz < 0:
+                        continue
+                    gz = max(0, abs(oz) - 1) * cell[2]
+                    if gx * gx + gy * gy + gz * gz > reach * reach:
+                        continue  # this cell lies wholly beyond the search sphere
+                    c = (cx * dims[1] + cy) * dims[2] + cz
+                    exact_shift = not (cov_x or cov_y or cov_z)
                     for s in range(start[c], start[c + 1]):
                         j = order[s]
                         if j == i or not _owns(i, j, radii):
                             continue
-                        if _close(i, j, centers, radii, cutoff, periodic, box):
+                        if exact_shift:
+                            # centres are wrapped into the cell; the visited cell's image shift is known
+                            dx = centers[j, 0] + shx - ci0
+                            dy = centers[j, 1] + shy - ci1
+                            dz = centers[j, 2] + shz - ci2
+                            lim = cutoff + radii[i] + radii[j]
+                            close = dx * dx + dy * dy + dz * dz < lim * lim
+                        else:
+                            close = _close(i, j, centers, radii, cutoff, periodic, box)
+                        if close:
                             if fill:
                                 out_i[offsets[i] + k] = min(i, j)
                                 out_j[offsets[i] + k] = max(i, j)
@@ -133,8 +162,14 @@ def _sorted_with_diagonal(out_i, out_j, n):
         pairs[cursor[r], 1] = out_j[k]
         cursor[r] += 1
     for r in numba.prange(n):
-        seg = np.sort(pairs[row_start[r] + 1:row_start[r + 1], 1])
-        pairs[row_start[r] + 1:row_start[r + 1], 1] = seg
+        lo, hi = row_start[r] + 1, row_start[r + 1]
+        for a in range(lo + 1, hi):  # insertion sort: rows are short
+            v = pairs[a, 1]
+            b = a - 1
+            while b >= lo and pairs[b, 1] > v:
+                pairs[b + 1, 1] = pairs[b, 1]
+                b -= 1
+            pairs[b + 1, 1] = v
     return pairs
 
 
@@ -162,6 +197,8 @@ def candidate_pairs_cells(centers, radii, cutoff: float, box_lengths=None) -> np
         dims = np.maximum(np.floor(span / target), 1).astype(np.int64)
         dims = np.minimum(dims, 512)
         cell = np.maximum(span / dims, target)
+    if periodic:
+        centers = centers - box * np.floor(centers / box)
     idx, order, start = _grid(centers, lo, cell, dims, periodic, box)
     counts = np.zeros(n, np.int64)
     dummy = np.zeros(1, np.intp)

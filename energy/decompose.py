@@ -177,7 +177,7 @@ def assemble(n_residues: int, base_pairs: np.ndarray, base_values: dict, base_mi
     # Rows with no contribution are dropped, unless they are few (then copying costs more than
     # keeping them; they hold zeros and never reach the reports, which list nonzero entries).
     n_touched = int(np.count_nonzero(touched))
-    everything = n_touched >= 0.9 * m
+    everything = n_touched >= 0.5 * m
     keep = slice(None) if everything else np.flatnonzero(touched)
     pair_i = (base_keys[keep] // n).astype(np.intp)
     pair_j = (base_keys[keep] % n).astype(np.intp)

@@ -32,7 +32,7 @@ BONDED_TABLES = {
 }
 
 #: Residue-pair rows evaluated per kernel call (a progress step).
-KERNEL_BLOCK = 200_000
+KERNEL_BLOCK = 500_000
 
 
 @dataclass(frozen=True)
@@ -116,6 +116,7 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
     res_atoms = ResidueAtoms.from_resindex(system.resindex, n_res)
     if settings.cutoff_angstrom is None:
         candidates = all_residue_pairs(n_res)
+        centers, radii = np.zeros((n_res, 3)), np.zeros(n_res)
     else:
         centers, radii = residue_spheres(x, res_atoms, system.resindex, box if periodic else None)
         candidates = candidate_pairs_cells(centers, radii, settings.cutoff_angstrom,
@@ -123,20 +124,24 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
     has_excl = _exception_residue_flags(system, candidates, n_res)
     excl_ptr, excl_idx = exclusion_csr(system.exception_pairs, system.n_atoms)
     kc = KernelConstants.from_settings(settings)
-    heavy = system.is_heavy
+    order = res_atoms.atoms
+    identity = bool(np.array_equal(order, np.arange(system.n_atoms)))
+    gather = (lambda a: a) if identity else (lambda a: np.ascontiguousarray(a[order]))  # noqa: E731
+    pos_r, q_r = gather(x), gather(system.charges)
+    t_r, heavy_r = gather(system.lj_type), gather(system.is_heavy)
     n_cand = len(candidates)
     coul = np.zeros(n_cand); lj = np.zeros(n_cand)
     count = np.zeros(n_cand, np.int64); min_h2 = np.zeros(n_cand)
+    pair_i = np.ascontiguousarray(candidates[:, 0])
+    pair_j = np.ascontiguousarray(candidates[:, 1])
     t_search = time.perf_counter()
     yield 0, n_cand
     for start in range(0, n_cand, KERNEL_BLOCK):
         stop = min(start + KERNEL_BLOCK, n_cand)
-        residue_pair_kernel(x, system.charges, system.lj_type, system.lj_rmin, system.lj_eps, heavy,
-                            res_atoms.ptr, res_atoms.atoms,
-                            np.ascontiguousarray(candidates[start:stop, 0]),
-                            np.ascontiguousarray(candidates[start:stop, 1]),
-                            has_excl[start:stop], excl_ptr, excl_idx, box_lengths, periodic,
-                            kc.values, kc.cutoff2,
+        residue_pair_kernel(pos_r, q_r, t_r, system.lj_rmin, system.lj_eps, heavy_r, order,
+                            res_atoms.ptr, pair_i[start:stop], pair_j[start:stop],
+                            has_excl[start:stop], excl_ptr, excl_idx, centers, radii,
+                            box_lengths, periodic, kc.values, kc.cutoff2,
                             coul[start:stop], lj[start:stop], count[start:stop], min_h2[start:stop])
         yield stop, n_cand
     totals["coulomb"] += float(coul.sum())

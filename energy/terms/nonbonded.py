@@ -134,40 +134,67 @@ def _is_excluded(a, b, excl_ptr, excl_idx):
 
 
 @numba.njit(parallel=True, cache=True)
-def residue_pair_kernel(pos, charges, lj_type, rmin_tab, eps_tab, is_heavy,
-                        res_ptr, res_atoms, pair_i, pair_j, pair_has_excl,
-                        excl_ptr, excl_idx, box_lengths, periodic, consts, cutoff2,
+def residue_pair_kernel(pos, charges, lj_type, rmin_tab, eps_tab, is_heavy, atom_of,
+                        res_ptr, pair_i, pair_j, pair_has_excl, excl_ptr, excl_idx,
+                        centers, radii, box_lengths, periodic, consts, cutoff2,
                         out_coul, out_lj, out_count, out_min_heavy2):
-    """Sum Coulomb and LJ over every atom pair of each candidate residue pair (kcal/mol)."""
+    """Sum Coulomb and LJ over every atom pair of each candidate residue pair (kcal/mol).
+
+    Per-atom inputs (``pos``, ``charges``, ``lj_type``, ``is_heavy``) are in residue order:
+    the atoms of residue r are rows ``res_ptr[r]:res_ptr[r+1]``; ``atom_of`` maps a row back to
+    the system's atom index (for the exclusion lists).  In a periodic cell the image of residue J
+    is chosen once from the residue centres when that is exact (the cell is wider than twice
+    cutoff + r_I + r_J, so only one image can hold atoms in range); otherwise each atom pair
+    takes its own minimum image.
+    """
+    lmin = min(box_lengths[0], min(box_lengths[1], box_lengths[2]))
     for p in numba.prange(len(pair_i)):
         ri, rj = pair_i[p], pair_j[p]
         check = pair_has_excl[p]
+        sx = sy = sz = 0.0
+        per_atom_image = False
+        if periodic:
+            if 2.0 * (np.sqrt(cutoff2) + radii[ri] + radii[rj]) < lmin:
+                for d in range(3):
+                    x = centers[rj, d] - centers[ri, d]
+                    shift = box_lengths[d] * np.rint(x / box_lengths[d])
+                    if d == 0:
+                        sx = shift
+                    elif d == 1:
+                        sy = shift
+                    else:
+                        sz = shift
+            else:
+                per_atom_image = True
         coul_sum = 0.0
         lj_sum = 0.0
         count = 0
         min_h = np.inf
         for ka in range(res_ptr[ri], res_ptr[ri + 1]):
-            a = res_atoms[ka]
+            xa = pos[ka, 0] + sx
+            ya = pos[ka, 1] + sy
+            za = pos[ka, 2] + sz
+            qa = charges[ka]
+            ta = lj_type[ka]
+            ha = is_heavy[ka]
             start_b = ka + 1 if ri == rj else res_ptr[rj]
             for kb in range(start_b, res_ptr[rj + 1]):
-                b = res_atoms[kb]
-                dx = pos[b, 0] - pos[a, 0]
-                dy = pos[b, 1] - pos[a, 1]
-                dz = pos[b, 2] - pos[a, 2]
-                if periodic:
+                dx = pos[kb, 0] - xa
+                dy = pos[kb, 1] - ya
+                dz = pos[kb, 2] - za
+                if per_atom_image:
                     dx -= box_lengths[0] * np.rint(dx / box_lengths[0])
                     dy -= box_lengths[1] * np.rint(dy / box_lengths[1])
                     dz -= box_lengths[2] * np.rint(dz / box_lengths[2])
                 r2 = dx * dx + dy * dy + dz * dz
-                if is_heavy[a] and is_heavy[b] and r2 < min_h:
+                if ha and is_heavy[kb] and r2 < min_h:
                     min_h = r2
                 if r2 >= cutoff2:
                     continue
-                if check and _is_excluded(a, b, excl_ptr, excl_idx):
+                if check and _is_excluded(atom_of[ka], atom_of[kb], excl_ptr, excl_idx):
                     continue
-                ta, tb = lj_type[a], lj_type[b]
-                c, l = _pair_energy(r2, charges[a] * charges[b], rmin_tab[ta, tb], eps_tab[ta, tb],
-                                    consts)
+                tb = lj_type[kb]
+                c, l = _pair_energy(r2, qa * charges[kb], rmin_tab[ta, tb], eps_tab[ta, tb], consts)
                 coul_sum += c
                 lj_sum += l
                 count += 1
