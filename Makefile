@@ -15,7 +15,7 @@ $(STAMP): pyproject.toml | $(PY)
 	touch $(STAMP)
 
 run: $(STAMP)
-	$(VENV)/bin/tessera
+	@$(VENV)/bin/tessera; status=$$?; [ $$status -eq 3 ] || exit $$status
 
 test: $(STAMP)
 	QT_QPA_PLATFORM=offscreen $(PY) -m pytest -q

@@ -14,6 +14,8 @@ import time
 from .errors import EnergyError
 
 SUBCOMMANDS = ("scan", "view", "compare", "clashes")
+#: Exit status when the window cannot open for want of a display (``make run`` accepts it).
+EXIT_NO_DISPLAY = 3
 
 
 def add_input_arguments(p: argparse.ArgumentParser) -> None:
@@ -152,7 +154,21 @@ def run_scan(args) -> int:
     return 0
 
 
+def _has_display() -> bool:
+    """A Qt window can open: a platform is forced, or an X11/Wayland display is there (or not Linux)."""
+    if os.environ.get("QT_QPA_PLATFORM"):
+        return True
+    if not sys.platform.startswith("linux"):
+        return True
+    return bool(os.environ.get("DISPLAY") or os.environ.get("WAYLAND_DISPLAY"))
+
+
 def run_view(files) -> int:
+    if not _has_display():
+        print("tessera: no display to open the window on (DISPLAY is not set); for results without "
+              "a window run: tessera scan samples/scenario/complex_clash.pdb (README: 'Headless "
+              "commands')", file=sys.stderr)
+        return EXIT_NO_DISPLAY
     try:
         from app.main import run_app
     except ImportError as exc:

@@ -147,3 +147,11 @@ def test_summary_on_stdout():
     code, out, err = _run_cli("scan", PSF, PDB, "--params", PRM)
     assert code == 0, err
     assert "per-term totals" in out and "cmap" in out
+
+
+def test_window_without_a_display_says_so_in_one_line():
+    env = {k: v for k, v in os.environ.items() if k not in ("DISPLAY", "WAYLAND_DISPLAY", "QT_QPA_PLATFORM")}
+    proc = subprocess.run([sys.executable, "-m", "energy.cli"], capture_output=True, text=True, env=env)
+    assert proc.returncode == 3
+    lines = proc.stderr.strip().splitlines()
+    assert len(lines) == 1 and "no display" in lines[0] and "tessera scan" in lines[0]
