@@ -5,31 +5,20 @@ where ``r_small`` is a typical (90th percentile) residue radius.  Each pair (I, 
 from the residue with the larger radius (ties: the lower index), over as many cell shells as
 that radius needs, so water-water pairs look at 27 cells only and large residues still see every
 partner.  The test is exact on the spheres: |c_I - c_J| < cutoff + r_I + r_J (minimum image in
-orthorhombic cells).  Output rows are sorted by (I, J), I <= J, and include every (I, I).
+any periodic cell, orthorhombic or triclinic).  Output rows are sorted by (I, J), I <= J, and include every (I, I).
 """
 from __future__ import annotations
 
 import numba
 import numpy as np
 
+from .pbc import is_orthorhombic, minimum_image, perpendicular_widths
+
 
 @numba.njit(cache=True)
-def _grid(centers, lo, cell, dims, periodic, box):
-    n = centers.shape[0]
-    idx = np.empty((n, 3), np.int64)
-    for i in range(n):
-        for d in range(3):
-            x = centers[i, d]
-            if periodic:
-                x = x - box[d] * np.floor(x / box[d])
-                k = int(x / cell[d])
-            else:
-                k = int((x - lo[d]) / cell[d])
-            if k >= dims[d]:
-                k = dims[d] - 1
-            if k < 0:
-                k = 0
-            idx[i, d] = k
+def _bin(idx, dims):
+    """Order residues by cell; ``start[c]:start[c+1]`` indexes ``order`` for cell c."""
+    n = idx.shape[0]
     flat = (idx[:, 0] * dims[1] + idx[:, 1]) * dims[2] + idx[:, 2]
     order = np.argsort(flat, kind="mergesort")
     n_cells = dims[0] * dims[1] * dims[2]
@@ -38,7 +27,7 @@ def _grid(centers, lo, cell, dims, periodic, box):
         start[flat[i] + 1] += 1
     for c in range(n_cells):
         start[c + 1] += start[c]
-    return idx, order, start
+    return order, start
 
 
 @numba.njit(cache=True, inline="always")
@@ -52,15 +41,14 @@ def _owns(i, j, radii):
 
 
 @numba.njit(cache=True, inline="always")
-def _close(i, j, centers, radii, cutoff, periodic, box):
-    d2 = 0.0
-    for d in range(3):
-        x = centers[j, d] - centers[i, d]
-        if periodic:
-            x -= box[d] * np.rint(x / box[d])
-        d2 += x * x
+def _close(i, j, centers, radii, cutoff, periodic, h, orthorhombic):
+    dx = centers[j, 0] - centers[i, 0]
+    dy = centers[j, 1] - centers[i, 1]
+    dz = centers[j, 2] - centers[i, 2]
+    if periodic:
+        dx, dy, dz = minimum_image(dx, dy, dz, h, orthorhombic)
     lim = cutoff + radii[i] + radii[j]
-    return d2 < lim * lim
+    return dx * dx + dy * dy + dz * dz < lim * lim
 
 
 @numba.njit(cache=True, inline="always")
@@ -72,23 +60,23 @@ def _axis_visits(center_cell, shells, n_cells, periodic):
 
 
 @numba.njit(cache=True, inline="always")
-def _axis_cell(k, center_cell, shells, n_cells, periodic, covered, length):
-    """k-th visited cell along an axis: (cell index or -1, image shift in A, cell offset)."""
+def _axis_cell(k, center_cell, shells, n_cells, periodic, covered):
+    """k-th visited cell along an axis: (cell index or -1, lattice wraps, cell offset)."""
     if covered:
-        return k, 0.0, 0
+        return k, 0, 0
     off = k - shells
     c = center_cell + off
     if periodic:
         wraps = (c - (c % n_cells)) // n_cells
-        return c % n_cells, wraps * length, off
+        return c % n_cells, wraps, off
     if c < 0 or c >= n_cells:
-        return -1, 0.0, off
-    return c, 0.0, off
+        return -1, 0, off
+    return c, 0, off
 
 
 @numba.njit(parallel=True, cache=True)
-def _search(centers, radii, cutoff, periodic, box, cell, dims, idx, order, start, counts, out_i,
-            out_j, offsets, fill):
+def _search(centers, radii, cutoff, periodic, h, orthorhombic, cell, dims, idx, order, start,
+            counts, out_i, out_j, offsets, fill):
     n = centers.shape[0]
     for i in numba.prange(n):
         k = 0
@@ -101,26 +89,32 @@ def _search(centers, radii, cutoff, periodic, box, cell, dims, idx, order, start
         nz, cov_z = _axis_visits(idx[i, 2], sz_, dims[2], periodic)
         ci0, ci1, ci2 = centers[i, 0], centers[i, 1], centers[i, 2]
         for a in range(nx):
-            cx, shx, ox = _axis_cell(a, idx[i, 0], sx_, dims[0], periodic, cov_x, box[0])
+            cx, wx, ox = _axis_cell(a, idx[i, 0], sx_, dims[0], periodic, cov_x)
             if cx < 0:
                 continue
             gx = max(0, abs(ox) - 1) * cell[0]
             for b in range(ny):
-                cy, shy, oy = _axis_cell(b, idx[i, 1], sy_, dims[1], periodic, cov_y, box[1])
+                cy, wy, oy = _axis_cell(b, idx[i, 1], sy_, dims[1], periodic, cov_y)
                 if cy < 0:
                     continue
                 gy = max(0, abs(oy) - 1) * cell[1]
-                if gx * gx + gy * gy > reach * reach:
+                if (gx * gx + gy * gy if orthorhombic else max(gx * gx, gy * gy)) > reach * reach:
                     continue
                 for e in range(nz):
-                    cz, shz, oz = _axis_cell(e, idx[i, 2], sz_, dims[2], periodic, cov_z, box[2])
+                    cz, wz, oz = _axis_cell(e, idx[i, 2], sz_, dims[2], periodic, cov_z)
                     if cz < 0:
                         continue
                     gz = max(0, abs(oz) - 1) * cell[2]
-                    if gx * gx + gy * gy + gz * gz > reach * reach:
-                        continue  # this cell lies wholly beyond the search sphere
+                    # Lower bound of the distance to any point of this cell (per-axis gaps are
+                    # perpendicular distances; they add in quadrature only in orthorhombic cells).
+                    gap2 = gx * gx + gy * gy + gz * gz if orthorhombic else max(gx * gx, max(gy * gy, gz * gz))
+                    if gap2 > reach * reach:
+                        continue
                     c = (cx * dims[1] + cy) * dims[2] + cz
                     exact_shift = not (cov_x or cov_y or cov_z)
+                    shx = wx * h[0, 0] + wy * h[1, 0] + wz * h[2, 0]
+                    shy = wy * h[1, 1] + wz * h[2, 1]
+                    shz = wz * h[2, 2]
                     for s in range(start[c], start[c + 1]):
                         j = order[s]
                         if j == i or not _owns(i, j, radii):
@@ -133,7 +127,7 @@ def _search(centers, radii, cutoff, periodic, box, cell, dims, idx, order, start
                             lim = cutoff + radii[i] + radii[j]
                             close = dx * dx + dy * dy + dz * dz < lim * lim
                         else:
-                            close = _close(i, j, centers, radii, cutoff, periodic, box)
+                            close = _close(i, j, centers, radii, cutoff, periodic, h, orthorhombic)
                         if close:
                             if fill:
                                 out_i[offsets[i] + k] = min(i, j)
@@ -173,42 +167,52 @@ def _sorted_with_diagonal(out_i, out_j, n):
     return pairs
 
 
-def candidate_pairs_cells(centers, radii, cutoff: float, box_lengths=None) -> np.ndarray:
-    """Residue pairs (I <= J, sorted, diagonal included) with |c_I - c_J| < cutoff + r_I + r_J."""
+def candidate_pairs_cells(centers, radii, cutoff: float, cell_matrix=None) -> np.ndarray:
+    """Residue pairs (I <= J, sorted, diagonal included) with |c_I - c_J| < cutoff + r_I + r_J.
+
+    ``cell_matrix`` is the (3, 3) lower-triangular box matrix (rows = cell vectors) for the
+    minimum-image convention, or None.  Periodic cells are gridded in fractional coordinates, so
+    triclinic cells work the same way as orthorhombic ones.
+    """
     n = len(centers)
     if n == 0:
         return np.zeros((0, 2), np.intp)
     centers = np.ascontiguousarray(centers, np.float64)
     radii = np.ascontiguousarray(radii, np.float64)
-    periodic = box_lengths is not None
+    periodic = cell_matrix is not None
     r_small = float(np.quantile(radii, 0.9))
     # Cells of half the typical search radius: 125 half-size cells hold ~16 full-cell volumes,
     # against 27 for full-size cells.
     target = 0.5 * (cutoff + 2.0 * r_small)
     if periodic:
-        box = np.asarray(box_lengths, np.float64)
-        dims = np.maximum(np.floor(box / target), 1).astype(np.int64)
-        cell = box / dims
-        lo = np.zeros(3)
+        h = np.ascontiguousarray(cell_matrix, np.float64)
+        orthorhombic = is_orthorhombic(h)
+        widths = perpendicular_widths(h)
+        dims = np.maximum(np.floor(widths / target), 1).astype(np.int64)
+        frac = centers @ np.linalg.inv(h)
+        frac -= np.floor(frac)
+        centers = np.ascontiguousarray(frac @ h)  # wrapped into the cell
+        idx = np.minimum((frac * dims).astype(np.int64), dims - 1)
+        cell = widths / dims                      # perpendicular width of one grid cell
     else:
-        box = np.ones(3)
+        h = np.eye(3)
+        orthorhombic = True
         lo = centers.min(axis=0)
         span = centers.max(axis=0) - lo + 1e-9
-        dims = np.maximum(np.floor(span / target), 1).astype(np.int64)
-        dims = np.minimum(dims, 512)
+        dims = np.minimum(np.maximum(np.floor(span / target), 1), 512).astype(np.int64)
         cell = np.maximum(span / dims, target)
-    if periodic:
-        centers = centers - box * np.floor(centers / box)
-    idx, order, start = _grid(centers, lo, cell, dims, periodic, box)
+        idx = np.minimum(((centers - lo) / cell).astype(np.int64), dims - 1)
+    idx = np.ascontiguousarray(idx)
+    order, start = _bin(idx, dims)
     counts = np.zeros(n, np.int64)
     dummy = np.zeros(1, np.intp)
-    _search(centers, radii, cutoff, periodic, box, cell, dims, idx, order, start, counts, dummy,
-            dummy, counts, False)
+    _search(centers, radii, cutoff, periodic, h, orthorhombic, cell, dims, idx, order, start,
+            counts, dummy, dummy, counts, False)
     offsets = np.zeros(n, np.int64)
     np.cumsum(counts[:-1], out=offsets[1:])
     total = int(counts.sum())
     out_i = np.empty(total, np.intp)
     out_j = np.empty(total, np.intp)
-    _search(centers, radii, cutoff, periodic, box, cell, dims, idx, order, start, counts, out_i,
-            out_j, offsets, True)
+    _search(centers, radii, cutoff, periodic, h, orthorhombic, cell, dims, idx, order, start,
+            counts, out_i, out_j, offsets, True)
     return _sorted_with_diagonal(out_i, out_j, n)

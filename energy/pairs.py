@@ -13,8 +13,7 @@ import numpy as np
 from scipy.spatial import cKDTree
 
 from .decompose import is_member, sorted_unique
-from .geometry import minimum_image
-from .neighbors import check_periodic_box
+from .pbc import is_orthorhombic, minimum_image_vectors, periodic_cell
 from .settings import EnergySettings
 from .system import Frame, MolecularSystem
 from .terms.nonbonded import KernelConstants, exception_energies, pair_energies
@@ -45,25 +44,42 @@ class AtomPairEnergies:
         return len(self.pairs)
 
 
-def _candidate_pairs(x, atoms_a, atoms_b, cutoff, box_lengths):
-    """Unordered atom pairs (i, j), i != j, i in A and j in B, within ``cutoff`` (or all)."""
+def _candidate_pairs(x, atoms_a, atoms_b, cutoff, box, h):
+    """Unordered atom pairs (i, j), i != j, i in A and j in B, within ``cutoff`` (or all).
+
+    ``box`` and its matrix ``h`` are given when the minimum image applies (then ``cutoff`` is
+    set), else None.
+    """
     same = atoms_b is None
     atoms_b = atoms_a if same else atoms_b
-    if cutoff is None:
-        ia, ib = np.repeat(atoms_a, len(atoms_b)), np.tile(atoms_b, len(atoms_a))
+    n = x.shape[0]
+    if cutoff is None or (h is not None and not is_orthorhombic(h)):
+        # All pairs (no cutoff), or a triclinic cell: test every pair with the exact minimum image.
+        chunks = []
+        rows = max(1, PAIR_BLOCK // max(len(atoms_b), 1))
+        for start in range(0, len(atoms_a), rows):
+            block = atoms_a[start:start + rows]
+            ia, ib = np.repeat(block, len(atoms_b)), np.tile(atoms_b, len(block))
+            if cutoff is not None:
+                d = minimum_image_vectors(x[ib] - x[ia], box)
+                near = np.einsum("ij,ij->i", d, d) < cutoff * cutoff
+                ia, ib = ia[near], ib[near]
+            chunks.append((ia, ib))
+        ia = np.concatenate([c[0] for c in chunks]) if chunks else np.zeros(0, np.intp)
+        ib = np.concatenate([c[1] for c in chunks]) if chunks else np.zeros(0, np.intp)
     else:
-        if box_lengths is not None:
-            wrap = lambda p: np.minimum(p - box_lengths * np.floor(p / box_lengths),  # noqa: E731
-                                        np.nextafter(box_lengths, 0))
-            ta, tb = cKDTree(wrap(x[atoms_a]), boxsize=box_lengths), cKDTree(wrap(x[atoms_b]), boxsize=box_lengths)
+        if h is not None:
+            lengths = np.diag(h)
+            wrap = lambda p: np.minimum(p - lengths * np.floor(p / lengths),  # noqa: E731
+                                        np.nextafter(lengths, 0))
+            ta, tb = cKDTree(wrap(x[atoms_a]), boxsize=lengths), cKDTree(wrap(x[atoms_b]), boxsize=lengths)
         else:
             ta, tb = cKDTree(x[atoms_a]), cKDTree(x[atoms_b])
         coo = ta.sparse_distance_matrix(tb, cutoff, output_type="ndarray")
         ia, ib = atoms_a[coo["i"]], atoms_b[coo["j"]]
     lo, hi = np.minimum(ia, ib), np.maximum(ia, ib)
     keep = lo != hi
-    keys = sorted_unique(lo[keep].astype(np.int64) * (x.shape[0]) + hi[keep])
-    n = x.shape[0]
+    keys = sorted_unique(lo[keep].astype(np.int64) * n + hi[keep])
     return np.stack([keys // n, keys % n], axis=1).astype(np.intp)
 
 
@@ -79,8 +95,9 @@ def atom_pair_energies(system: MolecularSystem, frame: Frame, settings: EnergySe
     atoms_b = None if atoms_b is None else np.unique(np.asarray(atoms_b, np.intp))
     box = frame.box if settings.use_periodic else None
     periodic = box is not None and settings.cutoff_angstrom is not None
-    box_lengths = check_periodic_box(box, settings.cutoff_angstrom) if periodic else None
-    pairs = _candidate_pairs(x, atoms_a, atoms_b, settings.cutoff_angstrom, box_lengths)
+    h = periodic_cell(box, settings.cutoff_angstrom) if periodic else None
+    pairs = _candidate_pairs(x, atoms_a, atoms_b, settings.cutoff_angstrom,
+                             box if periodic else None, h)
     n = system.n_atoms
     ex = system.exception_pairs
     ex_keys = ex[:, 0].astype(np.int64) * n + ex[:, 1]
@@ -96,7 +113,7 @@ def atom_pair_energies(system: MolecularSystem, frame: Frame, settings: EnergySe
     coul_parts, lj_parts, d_parts = [], [], []
     for start in range(0, len(ordinary), PAIR_BLOCK):
         p = ordinary[start:start + PAIR_BLOCK]
-        d = minimum_image(x[p[:, 1]] - x[p[:, 0]], box if periodic else None)
+        d = minimum_image_vectors(x[p[:, 1]] - x[p[:, 0]], box if periodic else None)
         r2 = np.einsum("ij,ij->i", d, d)
         ti, tj = system.lj_type[p[:, 0]], system.lj_type[p[:, 1]]
         c, l = pair_energies(r2, system.charges[p[:, 0]] * system.charges[p[:, 1]],

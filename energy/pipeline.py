@@ -14,7 +14,8 @@ import numpy as np
 from .cells import candidate_pairs_cells
 from .decompose import ResiduePairEnergies, assemble, is_member, sorted_unique, split_over_residue_pairs
 from .errors import InputMismatchError
-from .neighbors import ResidueAtoms, all_residue_pairs, check_periodic_box, residue_spheres
+from .neighbors import ResidueAtoms, all_residue_pairs, residue_spheres
+from .pbc import is_orthorhombic, perpendicular_widths, periodic_cell
 from .settings import EnergySettings
 from .system import BONDED_TERMS, TERMS, Frame, MolecularSystem
 from .terms import bonded, cmap
@@ -85,7 +86,9 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
     n_res = system.n_residues
     box = frame.box if settings.use_periodic else None
     periodic = box is not None and settings.cutoff_angstrom is not None
-    box_lengths = check_periodic_box(box, settings.cutoff_angstrom) if periodic else np.ones(3)
+    h = periodic_cell(box, settings.cutoff_angstrom) if periodic else np.eye(3)
+    orthorhombic = is_orthorhombic(h)
+    min_width = float(perpendicular_widths(h).min())
 
     # Bonded terms (minimum image on bond vectors whenever a cell is known: molecules may be split).
     contributions, interactions, totals = [], {}, dict.fromkeys(TERMS, 0.0)
@@ -120,7 +123,7 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
     else:
         centers, radii = residue_spheres(x, res_atoms, system.resindex, box if periodic else None)
         candidates = candidate_pairs_cells(centers, radii, settings.cutoff_angstrom,
-                                           box_lengths if periodic else None)
+                                           h if periodic else None)
     has_excl = _exception_residue_flags(system, candidates, n_res)
     excl_ptr, excl_idx = exclusion_csr(system.exception_pairs, system.n_atoms)
     kc = KernelConstants.from_settings(settings)
@@ -141,7 +144,7 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
         residue_pair_kernel(pos_r, q_r, t_r, system.lj_rmin, system.lj_eps, heavy_r, order,
                             res_atoms.ptr, pair_i[start:stop], pair_j[start:stop],
                             has_excl[start:stop], excl_ptr, excl_idx, centers, radii,
-                            box_lengths, periodic, kc.values, kc.cutoff2,
+                            h, orthorhombic, min_width, periodic, kc.values, kc.cutoff2,
                             coul[start:stop], lj[start:stop], count[start:stop], min_h2[start:stop])
         yield stop, n_cand
     totals["coulomb"] += float(coul.sum())

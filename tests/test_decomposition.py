@@ -119,6 +119,7 @@ def adk_result():
     from data import ADK_OPEN_PDB
     from energy.io.builtin import load_builtin
     system, frame, _, _ = load_builtin(ADK_OPEN_PDB)
-    # adk_open.pdb carries a triclinic (dodecahedral) cell; minimum image in such cells is not
-    # supported with a cutoff yet, so the cell is ignored here.
-    return compute(system, frame, EnergySettings(cutoff_angstrom=10.0, use_periodic=False))
+    # adk_open.pdb carries a triclinic (rhombic dodecahedral) cell: minimum image in it.
+    result = compute(system, frame, EnergySettings(cutoff_angstrom=10.0))
+    assert result.periodic
+    return result

@@ -23,6 +23,7 @@ from dataclasses import dataclass
 import numba
 import numpy as np
 
+from ..pbc import minimum_image
 from ..settings import EnergySettings
 from ..units import COULOMB_CONSTANT
 
@@ -136,34 +137,29 @@ def _is_excluded(a, b, excl_ptr, excl_idx):
 @numba.njit(parallel=True, cache=True)
 def residue_pair_kernel(pos, charges, lj_type, rmin_tab, eps_tab, is_heavy, atom_of,
                         res_ptr, pair_i, pair_j, pair_has_excl, excl_ptr, excl_idx,
-                        centers, radii, box_lengths, periodic, consts, cutoff2,
+                        centers, radii, h, orthorhombic, min_width, periodic, consts, cutoff2,
                         out_coul, out_lj, out_count, out_min_heavy2):
     """Sum Coulomb and LJ over every atom pair of each candidate residue pair (kcal/mol).
 
     Per-atom inputs (``pos``, ``charges``, ``lj_type``, ``is_heavy``) are in residue order:
     the atoms of residue r are rows ``res_ptr[r]:res_ptr[r+1]``; ``atom_of`` maps a row back to
-    the system's atom index (for the exclusion lists).  In a periodic cell the image of residue J
-    is chosen once from the residue centres when that is exact (the cell is wider than twice
-    cutoff + r_I + r_J, so only one image can hold atoms in range); otherwise each atom pair
-    takes its own minimum image.
+    the system's atom index (for the exclusion lists).  In a periodic cell (box matrix ``h``,
+    smallest perpendicular width ``min_width``) the image of residue J is chosen once from the
+    residue centres when that is exact (the cell is wider than twice cutoff + r_I + r_J, so only
+    one image can hold atoms in range); otherwise each atom pair takes its own minimum image.
     """
-    lmin = min(box_lengths[0], min(box_lengths[1], box_lengths[2]))
     for p in numba.prange(len(pair_i)):
         ri, rj = pair_i[p], pair_j[p]
         check = pair_has_excl[p]
         sx = sy = sz = 0.0
         per_atom_image = False
         if periodic:
-            if 2.0 * (np.sqrt(cutoff2) + radii[ri] + radii[rj]) < lmin:
-                for d in range(3):
-                    x = centers[rj, d] - centers[ri, d]
-                    shift = box_lengths[d] * np.rint(x / box_lengths[d])
-                    if d == 0:
-                        sx = shift
-                    elif d == 1:
-                        sy = shift
-                    else:
-                        sz = shift
+            if 2.0 * (np.sqrt(cutoff2) + radii[ri] + radii[rj]) < min_width:
+                ex = centers[rj, 0] - centers[ri, 0]
+                ey = centers[rj, 1] - centers[ri, 1]
+                ez = centers[rj, 2] - centers[ri, 2]
+                mx, my, mz = minimum_image(ex, ey, ez, h, orthorhombic)
+                sx, sy, sz = ex - mx, ey - my, ez - mz  # added to residue I's atoms
             else:
                 per_atom_image = True
         coul_sum = 0.0
@@ -183,9 +179,7 @@ def residue_pair_kernel(pos, charges, lj_type, rmin_tab, eps_tab, is_heavy, atom
                 dy = pos[kb, 1] - ya
                 dz = pos[kb, 2] - za
                 if per_atom_image:
-                    dx -= box_lengths[0] * np.rint(dx / box_lengths[0])
-                    dy -= box_lengths[1] * np.rint(dy / box_lengths[1])
-                    dz -= box_lengths[2] * np.rint(dz / box_lengths[2])
+                    dx, dy, dz = minimum_image(dx, dy, dz, h, orthorhombic)
                 r2 = dx * dx + dy * dy + dz * dz
                 if ha and is_heavy[kb] and r2 < min_h:
                     min_h = r2
@@ -221,12 +215,12 @@ def exception_energies(system, positions, settings: EnergySettings, box=None):
 
     Exception pairs use plain (or distance-dependent) Coulomb and the chosen vdW form with their
     own parameters, with no cutoff and no switching (docs/physics.md)."""
-    from ..geometry import minimum_image
+    from ..pbc import minimum_image_vectors
     pairs = system.exception_pairs
     if len(pairs) == 0:
         z = np.zeros(0)
         return z, z, z
-    d = minimum_image(positions[pairs[:, 1]] - positions[pairs[:, 0]], box)
+    d = minimum_image_vectors(positions[pairs[:, 1]] - positions[pairs[:, 0]], box)
     r2 = np.einsum("ij,ij->i", d, d)
     kc = KernelConstants.from_settings(settings, for_exceptions=True)
     coul, vdw = pair_energies(r2, system.exception_qq, system.exception_rmin, system.exception_eps,
