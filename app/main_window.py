@@ -7,7 +7,7 @@ from pathlib import Path
 from PySide6.QtCore import QByteArray, Qt, QTimer, Signal
 from PySide6.QtGui import QAction, QKeySequence
 from PySide6.QtWidgets import (QApplication, QDockWidget, QFileDialog, QLabel, QMainWindow,
-                               QProgressBar, QPushButton)
+                               QProgressBar, QPushButton, QToolBar)
 
 from energy.compare import compare_results
 from energy.units import ENERGY_UNITS
@@ -18,7 +18,13 @@ from .document import Dataset, LoadSpec
 from .models.atom_table import pair_contributions
 from .selection import SelectionModel
 from .settings import AppSettings
+from .checks_controller import ChecksController
+from .trajectory_controller import TrajectoryController
 from .views.atom_panel import AtomContributionsView
+from .views.clash_panel import ClashCheckView
+from .views.frame_bar import FrameBar
+from .views.model_panel import ModelComparisonView
+from .views.time_series import TimeSeriesView
 from .views.pair_ledger import PairLedgerView
 from .views.pair_map import PairMapView, QUANTITIES
 from .views.profile_plot import DistanceProfileView
@@ -75,6 +81,10 @@ class MainWindow(QMainWindow):
         self.bars = TermBarsView()
         self.roster = ResidueRosterView(self.selection)
         self.settings_panel = ComputeSettingsPanel(self.energy_settings, self.unit)
+        self.clash_panel = ClashCheckView(self.selection)
+        self.model_panel = ModelComparisonView(self.selection)
+        self.time_series = TimeSeriesView()
+        self.frame_bar = FrameBar()
         self.docks = {}
         for key, title, widget, area in (
                 ("roster", "Residue roster", self.roster, Qt.DockWidgetArea.LeftDockWidgetArea),
@@ -82,15 +92,24 @@ class MainWindow(QMainWindow):
                 ("atoms", "Atom contributions", self.atoms, Qt.DockWidgetArea.RightDockWidgetArea),
                 ("profile", "Distance profile", self.profile, Qt.DockWidgetArea.RightDockWidgetArea),
                 ("ledger", "Pair ledger", self.ledger, Qt.DockWidgetArea.BottomDockWidgetArea),
-                ("bars", "Term bars", self.bars, Qt.DockWidgetArea.BottomDockWidgetArea)):
+                ("bars", "Term bars", self.bars, Qt.DockWidgetArea.BottomDockWidgetArea),
+                ("clashes", "Clash check", self.clash_panel, Qt.DockWidgetArea.LeftDockWidgetArea),
+                ("models", "Model comparison", self.model_panel, Qt.DockWidgetArea.BottomDockWidgetArea),
+                ("series", "Pair over time", self.time_series, Qt.DockWidgetArea.BottomDockWidgetArea)):
             dock = QDockWidget(title, self)
             dock.setObjectName(f"dock_{key}")
             dock.setWidget(widget)
             self.addDockWidget(area, dock)
             self.docks[key] = dock
         self.tabifyDockWidget(self.docks["roster"], self.docks["settings"])
+        self.tabifyDockWidget(self.docks["roster"], self.docks["clashes"])
         self.docks["roster"].raise_()
         self.splitDockWidget(self.docks["ledger"], self.docks["bars"], Qt.Orientation.Horizontal)
+        self.tabifyDockWidget(self.docks["ledger"], self.docks["models"])
+        self.tabifyDockWidget(self.docks["bars"], self.docks["series"])
+        self.docks["ledger"].raise_(); self.docks["bars"].raise_()
+        self.trajectory = TrajectoryController(self, self.frame_bar, self.time_series)
+        self.checks = ChecksController(self, self.clash_panel, self.model_panel)
         self.resizeDocks([self.docks["roster"], self.docks["atoms"]], [300, 460], Qt.Orientation.Horizontal)
         self.resizeDocks([self.docks["ledger"]], [250], Qt.Orientation.Vertical)
         self.resizeDocks([self.docks["ledger"], self.docks["bars"]], [700, 560], Qt.Orientation.Horizontal)
@@ -98,6 +117,12 @@ class MainWindow(QMainWindow):
 
         self._build_status()
         self._build_menus()
+        self.frame_toolbar = QToolBar("Frames"); self.frame_toolbar.setObjectName("toolbar_frames")
+        self.frame_toolbar.setMovable(False)
+        self.frame_toolbar.addWidget(self.frame_bar)
+        self.addToolBarBreak()
+        self.addToolBar(self.frame_toolbar)
+        self.frame_toolbar.setVisible(False)
         self.selection.pairChanged.connect(self._on_pair)
         self.roster.groupsRequested.connect(self.compute_groups)
         self.settings_panel.settingsChanged.connect(self.set_energy_settings)
@@ -201,6 +226,8 @@ class MainWindow(QMainWindow):
     def closeEvent(self, ev) -> None:
         self.app_settings.store.setValue("window/geometry", self.saveGeometry())
         self.app_settings.store.setValue("window/state", self.saveState())
+        self._closing = True
+        self.frame_bar.stop()
         for handle in [self._job, *self._side_jobs]:
             if handle is not None:
                 handle.wait(5000)
@@ -305,13 +332,25 @@ class MainWindow(QMainWindow):
             self.app_settings.add_recent(snaps[0].spec.as_dict())
             self._fill_recent()
             self.selection.set_pair(None)
+            self.trajectory.open(snaps[0])
+            self.frame_toolbar.setVisible(self.trajectory.active)
+            if self.trajectory.active:
+                self.docks["series"].raise_()
+                self.resizeDocks([self.docks["ledger"]], [330], Qt.Orientation.Vertical)
         elif kind == "compare":
             self.second = snaps[0]
         else:  # recompute
             self.snapshot = snaps[0]
             self.second = snaps[1] if len(snaps) > 1 else None
         self._show()
+        if kind == "recompute":
+            self.trajectory.settings_changed()
         self.computeFinished.emit()
+
+    def show_frame_snapshot(self, snap) -> None:
+        """Put another frame of the open trajectory on screen (zoom, sort and selection kept)."""
+        self.snapshot = snap
+        self._show(keep_view=True)
 
     def _on_failed(self, msg, details) -> None:
         kind = self._job_kind
@@ -340,23 +379,25 @@ class MainWindow(QMainWindow):
         self.unit = unit
         self.app_settings.unit = unit
         factor = ENERGY_UNITS[unit]
-        for view in (self.map, self.profile, self.bars, self.ledger.model, self.atoms.model, self.roster.model):
+        for view in (self.map, self.profile, self.bars, self.ledger.model, self.atoms.model, self.roster.model,
+                     self.clash_panel, self.model_panel, self.time_series):
             view.set_unit(factor, unit)
         self._update_groups_label()
 
     # -- showing ----------------------------------------------------------------------------
-    def _show(self) -> None:
+    def _show(self, keep_view: bool = False) -> None:
         snap = self.snapshot
         if self.second is not None:
             comparison = compare_results(snap.system, snap.result, self.second.system, self.second.result)
             ds = Dataset.from_comparison(comparison, snap, self.second)
         else:
-            ds = Dataset.from_snapshot(snap)
+            ds = self.trajectory.mean_dataset(snap) or Dataset.from_snapshot(snap)
         keep = self.selection.pair
+        keep_atoms = self.selection.atom_pair
         self.selection.set_pair(None)
         self.dataset = ds
-        self.map.set_dataset(ds)
-        self.ledger.set_dataset(ds)
+        self.map.set_dataset(ds, keep_view=keep_view)
+        self.ledger.set_dataset(ds, keep_sort=keep_view)
         self.roster.set_dataset(ds)
         self.bars.set_values("system", ds.totals, "change, second minus first" if ds.is_difference else "")
         self.bars.set_values("groups", None)
@@ -378,6 +419,10 @@ class MainWindow(QMainWindow):
             self.roster.set_groups_text(f"segid {chains[0]}", f"segid {chains[1]}")
         if keep is not None and max(keep) < ds.n:
             self.selection.set_pair(keep)
+            if keep_atoms is not None and keep_view:
+                self.selection.set_atom_pair(keep_atoms)
+        self.map.set_clashes([])
+        self.checks.run_clash_check()
         self._group_results = None
         self.roster.show_group_result("—")
         if all(self.selection.groups):
@@ -419,6 +464,8 @@ class MainWindow(QMainWindow):
         contrib = pair_contributions(snap, i, j)
         lab = snap.system.residues.label
         where = " (second structure)" if ds.is_difference else ""
+        if self.trajectory.mode == "mean" and not ds.is_difference:
+            where = f" (atoms of frame {snap.frame.index}; map and bars: mean over frames)"
         caption = (f"<b>{lab(i)} – {lab(j)}</b>{where}: {contrib.n_nonbonded} atom pairs, "
                    f"{len(contrib.bonded)} bonded terms" if i != j else
                    f"<b>Within {lab(i)}</b>{where}: {contrib.n_nonbonded} atom pairs, {len(contrib.bonded)} bonded terms")
@@ -448,6 +495,20 @@ class MainWindow(QMainWindow):
 
     def _on_groups_failed(self, msg, _details) -> None:
         self.roster.show_group_result(f"<span style='color:#b2182b'>{msg}</span>")
+
+    def start_side(self, worker, on_done=None) -> WorkerHandle:
+        """Run a side worker (clash check, frame, scan, ...) in its own thread; ``on_done`` after
+        its thread has stopped.  The window waits for every side job when it closes, and starts
+        none after that (returns None)."""
+        if getattr(self, "_closing", False):
+            return None
+        handle = WorkerHandle(worker, self)
+        if on_done is not None:
+            handle.done.connect(on_done)
+        handle.done.connect(self._on_side_done)
+        self._side_jobs.append(handle)
+        handle.start()
+        return handle
 
     def _on_side_done(self) -> None:
         self._side_jobs = [h for h in self._side_jobs if h.thread.isRunning()]

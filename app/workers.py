@@ -97,7 +97,7 @@ class WorkerHandle(QObject):
         self.thread = QThread()
         worker.moveToThread(self.thread)
         self.thread.started.connect(worker.run)
-        for name in ("finished", "failed", "cancelled"):
+        for name in ("finished", "failed", "cancelled", "stopped"):
             if hasattr(worker, name):
                 getattr(worker, name).connect(self.thread.quit)
         self.thread.finished.connect(self.done)
@@ -131,6 +131,54 @@ class CallWorker(QObject):
     def run(self) -> None:
         try:
             self.finished.emit(self._func(*self._args))
+        except EnergyError as exc:
+            self.failed.emit(str(exc), "")
+        except OSError as exc:
+            name = getattr(exc, "filename", None)
+            self.failed.emit(f"{name + ': ' if name else ''}{exc.strerror or exc}", "")
+        except Exception as exc:
+            self.failed.emit(f"unexpected error: {exc}", traceback.format_exc())
+
+
+class TrajectoryWorker(QObject):
+    """Drive a trajectory scan (:func:`app.trajectory_state.scan_steps`) with progress and
+    cancel.  ``finished`` carries the :class:`energy.trajectory.TrajectoryResult` (complete);
+    ``stopped`` the result of the frames done when cancelled (``complete`` False)."""
+
+    progress = Signal(int, int)
+    phase = Signal(str)
+    finished = Signal(object)
+    stopped = Signal(object)
+    failed = Signal(str, str)
+
+    def __init__(self, loaded, request, store=None, frames=None, label="frames"):
+        super().__init__()
+        self._loaded, self._request, self._store, self._frames = loaded, request, store, frames
+        self._label = label
+        self._cancel = threading.Event()
+        self.elapsed = 0.0
+
+    def cancel(self) -> None:
+        self._cancel.set()
+
+    def run(self) -> None:
+        from .trajectory_state import scan_steps
+        t0 = time.perf_counter()
+        try:
+            self.phase.emit(f"Scanning {self._label}")
+            scan, steps = scan_steps(self._loaded, self._request, self._store, self._frames)
+            while True:
+                if self._cancel.is_set():
+                    self.elapsed = time.perf_counter() - t0
+                    self.stopped.emit(scan.result())
+                    return
+                try:
+                    done, total = next(steps)
+                except StopIteration as stop:
+                    self.elapsed = time.perf_counter() - t0
+                    self.finished.emit(stop.value)
+                    return
+                self.progress.emit(int(done), int(total))
         except EnergyError as exc:
             self.failed.emit(str(exc), "")
         except OSError as exc:

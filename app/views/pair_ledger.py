@@ -56,7 +56,10 @@ class PairLedgerView(QWidget):
         self.table.selectionModel().currentRowChanged.connect(self._on_row)
         selection.pairChanged.connect(self._on_selection)
 
-    def set_dataset(self, ds) -> None:
+    def set_dataset(self, ds, keep_sort: bool = False) -> None:
+        header = self.table.horizontalHeader()
+        sort = (header.sortIndicatorSection(), header.sortIndicatorOrder())
+        chosen = [box.currentData() for box in (self.chain, self.chain_a, self.chain_b)]
         self.model.set_dataset(ds)
         chains = [] if ds is None else sorted(set(ds.chains))
         for box, first in ((self.chain, "any"), (self.chain_a, None), (self.chain_b, None)):
@@ -69,10 +72,17 @@ class PairLedgerView(QWidget):
             box.blockSignals(False)
         if len(chains) > 1:
             self.chain_b.setCurrentIndex(1)
+        if keep_sort:     # the same system again (another frame): keep the filters as they were
+            for box, value in zip((self.chain, self.chain_a, self.chain_b), chosen):
+                k = box.findData(value)
+                if k >= 0:
+                    box.blockSignals(True); box.setCurrentIndex(k); box.blockSignals(False)
         enabled = len(chains) > 1
         for w in (self.between, self.chain_a, self.chain_b):
             w.setEnabled(enabled)
-        if ds is not None and ds.is_difference:
+        if keep_sort and 0 <= sort[0] < self.model.columnCount():
+            self.model.sort(*sort)
+        elif ds is not None and ds.is_difference:
             self.model.sort(5, Qt.SortOrder.DescendingOrder)  # by the size of the change
             self.table.horizontalHeader().setSortIndicator(5, Qt.SortOrder.DescendingOrder)
         else:

@@ -159,6 +159,13 @@ class PairMapView(QWidget):
                                          pen=pg.mkPen("#00a000", width=3))
         self.marker.setZValue(10)
         self.plot.addItem(self.marker)
+        # clash overlay: a ring on every residue pair with a steric clash (both triangles)
+        self.clash_marks = pg.ScatterPlotItem(pxMode=False, size=0.9, symbol="o", brush=None,
+                                              pen=pg.mkPen("#111111", width=2))
+        self.clash_marks.setZValue(8)
+        self.plot.addItem(self.clash_marks)
+        self.clashes = {}                          # (i, j) residue pair -> (count, worst overlap A)
+        self.show_clashes = True
         guide = pg.mkPen(QColor(0, 150, 0, 140), width=1)
         self.guides = [pg.InfiniteLine(angle=90, pen=guide, movable=False),
                        pg.InfiniteLine(angle=0, pen=guide, movable=False)]
@@ -185,13 +192,43 @@ class PairMapView(QWidget):
         selection.pairChanged.connect(self._on_selection)
 
     # -- inputs ---------------------------------------------------------------------------
-    def set_dataset(self, ds) -> None:
+    def set_dataset(self, ds, keep_view: bool = False) -> None:
+        """Show ``ds``; ``keep_view`` keeps zoom and pan (stepping through frames of one system)."""
+        same_size = self.dataset is not None and ds is not None and ds.n == self.dataset.n
         self.dataset = ds
         self._dense_cache = {}
         self._cursor = None
         if ds is not None and ds.is_difference:
             self.colorbar.axis.setLabel(f"change, {self.unit}")
-        self._reorder(reset_view=True)
+        self._reorder(reset_view=not (keep_view and same_size))
+
+    def set_clashes(self, residue_pairs) -> None:
+        """Mark residue pairs with clashes: items with ``res_i``, ``res_j``, ``count`` and
+        ``worst_overlap`` (:class:`energy.clashes.ResiduePairClashes`); empty to clear."""
+        self.clashes = {(int(p.res_i), int(p.res_j)): (int(p.count), float(p.worst_overlap))
+                        for p in residue_pairs}
+        self._draw_clashes()
+
+    def set_show_clashes(self, on: bool) -> None:
+        self.show_clashes = bool(on)
+        self._draw_clashes()
+
+    def clash_mark_positions(self) -> list[tuple[int, int]]:
+        """(row, col) display cells currently ringed."""
+        xs, ys = self.clash_marks.getData()
+        return sorted((int(round(y)), int(round(x))) for x, y in zip(xs, ys))
+
+    def _draw_clashes(self) -> None:
+        n = len(self.order)
+        if not self.show_clashes or not self.clashes or not n:
+            self.clash_marks.setData([], [])
+            return
+        xs, ys = [], []
+        for i, j in self.clashes:
+            if i < n and j < n:
+                pi, pj = int(self.position[i]), int(self.position[j])
+                xs += [pj, pi]; ys += [pi, pj]
+        self.clash_marks.setData(xs, ys)
 
     def set_quantity(self, q: str) -> None:
         if q == self.quantity:
@@ -242,6 +279,7 @@ class PairMapView(QWidget):
         self.bottom_axis.set_labels(labels)
         self._draw_boundaries()
         self._redraw()
+        self._draw_clashes()
         n = len(self.order)
         if reset_view and n:
             self.plot.setRange(xRange=(-0.5, n - 0.5), yRange=(-0.5, n - 0.5), padding=0)
@@ -309,6 +347,9 @@ class PairMapView(QWidget):
             d = float(ds.pairs.min_heavy_distance[k])
             if math.isfinite(d):
                 text += f"   closest heavy atoms {d:.2f} Å"
+        clash = self.clashes.get((min(i, j), max(i, j)))
+        if clash is not None:
+            text += f"   {clash[0]} clash(es), worst overlap {clash[1]:.2f} Å"
         return text
 
     def _on_hover(self, args) -> None:

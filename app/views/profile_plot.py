@@ -11,7 +11,7 @@ import math
 import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import Qt
-from PySide6.QtWidgets import QComboBox, QHBoxLayout, QLabel, QVBoxLayout, QWidget
+from PySide6.QtWidgets import QCheckBox, QComboBox, QHBoxLayout, QLabel, QVBoxLayout, QWidget
 
 from energy.pairs import pair_curve
 
@@ -22,6 +22,7 @@ CLIP_LIMITS = (2.0, 5.0, 20.0, 100.0)
 COULOMB_COLOR = "#1f77b4"
 LJ_COLOR = "#e6550d"
 TOTAL_COLOR = "#333333"
+EXP6_COLOR = "#756bb1"
 
 
 def symlog(y):
@@ -82,10 +83,11 @@ class DistanceProfileView(QWidget):
         self.info = QLabel(" "); self.info.setObjectName("profileInfo"); self.info.setWordWrap(True)
         bar = QHBoxLayout(); bar.setContentsMargins(4, 2, 4, 2)
         bar.addWidget(QLabel("Energy axis")); bar.addWidget(self.scale_box); bar.addStretch(1)
-        key = QLabel(f"<span style='color:{COULOMB_COLOR}'>● Coulomb</span> &nbsp; "
-                     f"<span style='color:{LJ_COLOR}'>▲ LJ</span> &nbsp; curves in the same colours, "
-                     "dashed: their sum &nbsp; ◆ LJ minimum")
-        bar.addWidget(key)
+        self.key = QLabel(""); self.key.setObjectName("profileKey"); self.key.setWordWrap(True)
+        self.show_both = QCheckBox("LJ and exp-6 curves"); self.show_both.setObjectName("profileBoth")
+        self.show_both.setChecked(True)
+        self.show_both.setToolTip("Overlay the curve of the other repulsion model for the selected atom pair")
+        bar.addWidget(self.show_both)
 
         self.axis = EnergyAxis("left")
         self.plot = pg.PlotWidget(axisItems={"left": self.axis}, background="w")
@@ -103,6 +105,9 @@ class DistanceProfileView(QWidget):
             item.sigClicked.connect(self._on_point_clicked)
         self.coul_curve = self.plot.plot([], [], pen=pg.mkPen(COULOMB_COLOR, width=2), name="Coulomb curve")
         self.lj_curve = self.plot.plot([], [], pen=pg.mkPen(LJ_COLOR, width=2), name="LJ curve")
+        # the other repulsion model's curve (exp-6 when the engine uses LJ, and vice versa)
+        self.alt_curve = self.plot.plot([], [], pen=pg.mkPen(EXP6_COLOR, width=2, style=Qt.PenStyle.DotLine),
+                                        name="other vdW model")
         self.total_curve = self.plot.plot([], [], pen=pg.mkPen(TOTAL_COLOR, width=1.5, style=Qt.PenStyle.DashLine),
                                           name="sum")
         self.now_line = pg.InfiniteLine(angle=90, pen=pg.mkPen("#2ca02c", width=2))
@@ -117,8 +122,9 @@ class DistanceProfileView(QWidget):
         self.plot.addItem(self.selected)
 
         lay = QVBoxLayout(self); lay.setContentsMargins(0, 0, 0, 0); lay.setSpacing(2)
-        lay.addLayout(bar); lay.addWidget(self.plot, 1); lay.addWidget(self.info)
+        lay.addLayout(bar); lay.addWidget(self.key); lay.addWidget(self.plot, 1); lay.addWidget(self.info)
         self.scale_box.currentIndexChanged.connect(self._on_scale)
+        self.show_both.toggled.connect(self._redraw)
         selection.atomPairChanged.connect(self._on_atom_pair)
         self._redraw()
 
@@ -161,10 +167,36 @@ class DistanceProfileView(QWidget):
                 r = np.linspace(0.6, max(10.0, d * 1.3), 600)
                 coul, lj, params = pair_curve(self.system, self.settings, pair[0], pair[1], r)
                 self.curve_data = (r, coul, lj, params, d, int(hit[0]))
+                _, self.alt_lj, _ = pair_curve(self.system, self.alt_settings(), pair[0], pair[1], r)
+                _, alt_d, _ = pair_curve(self.system, self.alt_settings(), pair[0], pair[1], [d])
+                self.alt_at_distance = float(alt_d[0])
         self._redraw()
+
+    @property
+    def vdw_model(self) -> str:
+        return "lj" if self.settings is None else self.settings.vdw
+
+    def alt_settings(self):
+        """The current settings with the other repulsion model (same exp-6 steepness)."""
+        from dataclasses import replace
+
+        from energy.settings import EnergySettings
+        s = self.settings or EnergySettings()
+        return replace(s, vdw="exp6" if s.vdw == "lj" else "lj")
+
+    def _update_key(self) -> None:
+        lj_name = "LJ 12-6" if self.vdw_model == "lj" else "exp-6"
+        alt = "exp-6" if self.vdw_model == "lj" else "LJ 12-6"
+        text = (f"<span style='color:{COULOMB_COLOR}'>● Coulomb</span> &nbsp; "
+                f"<span style='color:{LJ_COLOR}'>▲ {lj_name} (computed)</span> &nbsp; curves in the "
+                "same colours, dashed: their sum &nbsp; ◆ vdW minimum")
+        if self.show_both.isChecked():
+            text += f" &nbsp; <span style='color:{EXP6_COLOR}'>┈ {alt} curve, same Rmin and well depth</span>"
+        self.key.setText(text)
 
     # -- drawing ----------------------------------------------------------------------------
     def _redraw(self) -> None:
+        self._update_key()
         self.axis.symlog = self.mode == "symlog"
         self.axis.picture = None
         label = "energy" + (" (symmetric log)" if self.mode == "symlog" else
@@ -174,7 +206,7 @@ class DistanceProfileView(QWidget):
         if c is None or c.n_nonbonded == 0:
             for item in (self.coul_points, self.lj_points, self.selected, self.well):
                 item.setData([], [])
-            for curve in (self.coul_curve, self.lj_curve, self.total_curve):
+            for curve in (self.coul_curve, self.lj_curve, self.total_curve, self.alt_curve):
                 curve.setData([], [])
             self.now_line.setVisible(False)
             self.note.setText("")
@@ -191,7 +223,7 @@ class DistanceProfileView(QWidget):
                           f"exceptions; largest |pair energy| {format_energy(big)} {self.unit}. "
                           "Click a point for its curves.")
         if self.curve_data is None:
-            for curve in (self.coul_curve, self.lj_curve, self.total_curve):
+            for curve in (self.coul_curve, self.lj_curve, self.total_curve, self.alt_curve):
                 curve.setData([], [])
             self.selected.setData([], [])
             self.well.setData([], [])
@@ -204,6 +236,10 @@ class DistanceProfileView(QWidget):
         self.coul_curve.setData(r, self._y(coul))
         self.lj_curve.setData(r, self._y(lj))
         self.total_curve.setData(r, self._y(coul + lj))
+        if self.show_both.isChecked():
+            self.alt_curve.setData(r, self._y(self.alt_lj))
+        else:
+            self.alt_curve.setData([], [])
         self.now_line.setPos(d)
         self.now_line.setVisible(True)
         self.selected.setData([d, d], [float(self._y(e.coulomb[k])), float(self._y(e.lj[k]))])
@@ -225,7 +261,9 @@ class DistanceProfileView(QWidget):
         self.note.setVisible(bool(self.note.textItem.toPlainText()))
         self.info.setText(
             f"<b>{name(a)} – {name(b)}</b>{kind}: r = {d:.2f} Å (green line), "
-            f"Coulomb {format_energy(e.coulomb[k] * f)}, LJ {format_energy(e.lj[k] * f)} {self.unit}; "
+            f"Coulomb {format_energy(e.coulomb[k] * f)}, {'LJ' if self.vdw_model == 'lj' else 'exp-6'} "
+            f"{format_energy(e.lj[k] * f)} {self.unit} "
+            f"({'exp-6' if self.vdw_model == 'lj' else 'LJ'} would give {format_energy(self.alt_at_distance * f)}); "
             f"Rmin {rmin:.2f} Å, well depth {-eps * f:.3f} {self.unit} (diamond), qq {params['qq']:+.3f} e²")
         ys = np.concatenate([self._y(e.coulomb), self._y(e.lj), self._y(coul + lj)[r >= 0.8 * min(d, rmin or d)]])
         self._fit(np.concatenate([e.distance, [r[0], r[-1]]]), ys)

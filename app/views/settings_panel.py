@@ -1,4 +1,4 @@
-"""Compute settings: cutoff, switching, electrostatics, dielectric, and display units.
+"""Compute settings: cutoff, switching, electrostatics, dielectric, vdW model, and display units.
 
 Changing a computation setting asks the window to recompute in the background (after a short
 pause so that typing a number does not start one computation per key); the unit only rescales.
@@ -6,16 +6,18 @@ pause so that typing a number does not start one computation per key); the unit 
 from __future__ import annotations
 
 from PySide6.QtCore import QTimer, Signal
-from PySide6.QtWidgets import (QCheckBox, QComboBox, QDoubleSpinBox, QFormLayout, QLabel,
-                               QPushButton, QVBoxLayout, QWidget)
+from PySide6.QtWidgets import (QCheckBox, QComboBox, QDoubleSpinBox, QFormLayout, QHBoxLayout,
+                               QLabel, QPushButton, QVBoxLayout, QWidget)
 
 from energy.errors import SettingsError
-from energy.settings import EnergySettings
+from energy.settings import EXP6_ALPHA_MATCHING_LJ, EnergySettings
 
 from ..settings import UNITS
 
 ELECTROSTATICS = {"plain": "Plain Coulomb, ε constant", "reaction-field": "Reaction field (needs cutoff)",
-                  "distance-dependent": "Distance-dependent, ε = D·r"}
+                  "distance-dependent": "Distance-dependent, ε = D·r",
+                  "shifted": "Shifted force, zero at the cutoff (needs cutoff)"}
+VDW_MODELS = {"lj": "Lennard-Jones 12-6 (force field)", "exp6": "Exp-6, same minimum per pair"}
 
 
 class ComputeSettingsPanel(QWidget):
@@ -39,6 +41,15 @@ class ComputeSettingsPanel(QWidget):
         self.dielectric.setRange(0.1, 200.0); self.dielectric.setSingleStep(0.5); self.dielectric.setDecimals(2)
         self.solvent = QDoubleSpinBox(); self.solvent.setRange(1.0, 200.0); self.solvent.setDecimals(1)
         self.periodic = QCheckBox("Minimum image when a cell is known")
+        self.vdw = QComboBox(); self.vdw.setObjectName("vdwModel")
+        for key, text in VDW_MODELS.items():
+            self.vdw.addItem(text, key)
+        self.alpha = QDoubleSpinBox(); self.alpha.setObjectName("exp6Alpha")
+        self.alpha.setRange(7.5, 40.0); self.alpha.setDecimals(3); self.alpha.setSingleStep(0.5)
+        self.alpha.setToolTip(f"Exp-6 steepness; {EXP6_ALPHA_MATCHING_LJ:.3f} matches the LJ curvature "
+                              "at the minimum (docs/physics.md)")
+        self.alpha_default = QPushButton("LJ-matched"); self.alpha_default.setObjectName("exp6AlphaDefault")
+        self.alpha_default.clicked.connect(lambda: self.alpha.setValue(EXP6_ALPHA_MATCHING_LJ))
         self.unit = QComboBox(); self.unit.setObjectName("unit")
         for u in UNITS:
             self.unit.addItem(u, u)
@@ -51,6 +62,9 @@ class ComputeSettingsPanel(QWidget):
         form.addRow("Electrostatics", self.electrostatics)
         form.addRow("Dielectric ε or D", self.dielectric)
         form.addRow("Solvent ε (reaction field)", self.solvent)
+        form.addRow("Repulsion model", self.vdw)
+        arow = QHBoxLayout(); arow.addWidget(self.alpha, 1); arow.addWidget(self.alpha_default)
+        form.addRow("Exp-6 steepness α", arow)
         form.addRow(self.periodic)
         form.addRow("Energy unit", self.unit)
         lay = QVBoxLayout(self)
@@ -61,15 +75,16 @@ class ComputeSettingsPanel(QWidget):
         self.unit.setCurrentIndex(max(0, k))
         for w in (self.use_cutoff, self.use_switch, self.periodic):
             w.toggled.connect(self._changed)
-        for w in (self.cutoff, self.switch, self.dielectric, self.solvent):
+        for w in (self.cutoff, self.switch, self.dielectric, self.solvent, self.alpha):
             w.valueChanged.connect(self._changed)
         self.electrostatics.currentIndexChanged.connect(self._changed)
+        self.vdw.currentIndexChanged.connect(self._changed)
         self.unit.currentIndexChanged.connect(lambda: self.unitChanged.emit(self.unit.currentData()))
         self.recompute.clicked.connect(self._emit)
 
     def set_settings(self, s: EnergySettings) -> None:
         widgets = (self.use_cutoff, self.cutoff, self.use_switch, self.switch, self.electrostatics,
-                   self.dielectric, self.solvent, self.periodic)
+                   self.dielectric, self.solvent, self.periodic, self.vdw, self.alpha)
         for w in widgets:
             w.blockSignals(True)
         self.use_cutoff.setChecked(s.cutoff_angstrom is not None)
@@ -80,6 +95,8 @@ class ComputeSettingsPanel(QWidget):
         self.dielectric.setValue(s.dielectric)
         self.solvent.setValue(s.solvent_dielectric)
         self.periodic.setChecked(s.use_periodic)
+        self.vdw.setCurrentIndex(self.vdw.findData(s.vdw))
+        self.alpha.setValue(s.exp6_alpha)
         for w in widgets:
             w.blockSignals(False)
         self._enable()
@@ -89,6 +106,8 @@ class ComputeSettingsPanel(QWidget):
         self.cutoff.setEnabled(on); self.use_switch.setEnabled(on)
         self.switch.setEnabled(on and self.use_switch.isChecked())
         self.solvent.setEnabled(self.electrostatics.currentData() == "reaction-field")
+        exp6 = self.vdw.currentData() == "exp6"
+        self.alpha.setEnabled(exp6); self.alpha_default.setEnabled(exp6)
 
     def current(self) -> EnergySettings:
         """Raises SettingsError for an invalid combination."""
@@ -98,7 +117,13 @@ class ComputeSettingsPanel(QWidget):
                               electrostatics=self.electrostatics.currentData(),
                               dielectric=self.dielectric.value(),
                               solvent_dielectric=self.solvent.value(),
-                              use_periodic=self.periodic.isChecked())
+                              use_periodic=self.periodic.isChecked(),
+                              vdw=self.vdw.currentData(), exp6_alpha=self._alpha())
+
+    def _alpha(self) -> float:
+        """The spin box shows 3 decimals; the LJ-matched value is kept exact."""
+        a = self.alpha.value()
+        return EXP6_ALPHA_MATCHING_LJ if abs(a - EXP6_ALPHA_MATCHING_LJ) < 5e-4 else a
 
     def _changed(self) -> None:
         self._enable()
