@@ -135,59 +135,67 @@ def is_member(keys: np.ndarray, sorted_reference: np.ndarray) -> np.ndarray:
     return sorted_reference[pos] == keys
 
 
-def assemble(n_residues: int, base_pairs: np.ndarray, base_values: dict, base_min_heavy: np.ndarray,
-             base_keep: np.ndarray, contributions) -> ResiduePairEnergies:
+def assemble(n_residues: int, base_i: np.ndarray, base_j: np.ndarray, row_start: np.ndarray,
+             base_values: dict, base_min_heavy: np.ndarray, base_keep: np.ndarray,
+             contributions) -> ResiduePairEnergies:
     """Merge per-interaction contributions into the nonbonded residue-pair rows.
 
-    ``base_pairs`` (m, 2) are the examined residue pairs, sorted by (i, j) and unique, with their
-    nonbonded sums ``base_values[term]``, minimum heavy-atom distance and ``base_keep`` (True where
-    at least one ordinary atom pair was within range).  ``contributions`` is a list of
-    ``(term, pair_i, pair_j, values)``; a contribution on a pair absent from the base adds a row.
-    Rows that end with no contribution at all are dropped.
+    ``base_i``, ``base_j`` (m,) are the examined residue pairs, sorted by (i, j) and unique, with CSR
+    ``row_start``; their nonbonded sums ``base_values[term]`` (consumed: added to in place),
+    minimum heavy-atom distance and ``base_keep`` (True where at least one ordinary atom pair was
+    within range).  ``contributions`` is a list of ``(term, pair_i, pair_j, values)``; a
+    contribution on a pair absent from the base adds a row.  Rows that end with no contribution
+    are dropped, unless they are few (copying then costs more than keeping them; they hold zeros
+    and never reach the reports, which list nonzero entries).
     """
-    n = np.int64(n_residues)
-    base_keys = base_pairs[:, 0].astype(np.int64) * n + base_pairs[:, 1]
-    contrib_keys = [np.asarray(pi, np.int64) * n + np.asarray(pj, np.int64) for _, pi, pj, _ in contributions]
-    all_contrib = np.concatenate(contrib_keys) if contrib_keys else np.zeros(0, np.int64)
-    pos = np.searchsorted(base_keys, all_contrib)
-    found = (pos < len(base_keys)) & (base_keys[np.minimum(pos, len(base_keys) - 1)] == all_contrib) \
-        if len(base_keys) else np.zeros(len(all_contrib), bool)
-    if not found.all():
-        extra = sorted_unique(all_contrib[~found])
-        merged = np.concatenate([base_keys, extra])
-        order = np.argsort(merged, kind="stable")
-        base_keys = merged[order]
-        grow = lambda a, fill: np.concatenate([a, np.full(len(extra), fill, a.dtype)])[order]  # noqa: E731
-        base_values = {t: grow(v, 0.0) for t, v in base_values.items()}
-        base_min_heavy = grow(base_min_heavy, np.inf)
-        base_keep = grow(base_keep, False)
-        pos = np.searchsorted(base_keys, all_contrib)
-    m = len(base_keys)
-    values = {t: base_values.get(t) for t in TERMS}  # base columns are consumed (added to in place)
+    from .cells import accumulate, locate_pairs
+    located = [locate_pairs(row_start, base_j, np.ascontiguousarray(pi, np.intp),
+                            np.ascontiguousarray(pj, np.intp)) for _, pi, pj, _ in contributions]
+    if any((loc < 0).any() for loc in located):
+        return _assemble_with_new_rows(n_residues, base_i, base_j, base_values, base_min_heavy,
+                                       base_keep, contributions)
+    m = len(base_i)
+    values = {t: base_values.get(t) for t in TERMS}
     touched = base_keep.copy()
-    offset = 0
-    for (term, _, _, v), keys in zip(contributions, contrib_keys):
-        idx = pos[offset:offset + len(keys)]
-        offset += len(keys)
+    for (term, _, _, v), idx in zip(contributions, located):
         if len(idx):
             if values[term] is None:
                 values[term] = np.zeros(m)
-            np.add.at(values[term], idx, v)
+            accumulate(values[term], idx, np.ascontiguousarray(v, np.float64))
             touched[idx] = True
-    # Rows with no contribution are dropped, unless they are few (then copying costs more than
-    # keeping them; they hold zeros and never reach the reports, which list nonzero entries).
     n_touched = int(np.count_nonzero(touched))
-    everything = n_touched >= 0.5 * m
-    keep = slice(None) if everything else np.flatnonzero(touched)
-    pair_i = (base_keys[keep] // n).astype(np.intp)
-    pair_j = (base_keys[keep] % n).astype(np.intp)
-    n_rows = m if everything else n_touched
-    values = {t: (np.zeros(n_rows) if v is None else (v if everything else v[keep]))
-              for t, v in values.items()}
+    if n_touched >= 0.5 * m:
+        pair_i, pair_j, min_heavy = base_i, base_j, base_min_heavy
+        values = {t: (np.zeros(m) if v is None else v) for t, v in values.items()}
+    else:
+        pair_i, pair_j = base_i[touched], base_j[touched]
+        min_heavy = base_min_heavy[touched]
+        values = {t: (np.zeros(n_touched) if v is None else v[touched]) for t, v in values.items()}
     for v in values.values():
         v.flags.writeable = False
-    base_min_heavy = base_min_heavy if everything else base_min_heavy[keep]
-    return ResiduePairEnergies(n_residues, pair_i, pair_j, values, base_min_heavy)
+    return ResiduePairEnergies(n_residues, pair_i, pair_j, values, min_heavy)
+
+
+def _assemble_with_new_rows(n_residues, base_i, base_j, base_values, base_min_heavy, base_keep,
+                            contributions) -> ResiduePairEnergies:
+    """Slow path: some contributions fall on residue pairs that were not examined (e.g. a bonded
+    term spanning residues farther apart than the cutoff); add their rows, then merge."""
+    n = np.int64(n_residues)
+    keys = base_i.astype(np.int64) * n + base_j
+    extra = [np.asarray(pi, np.int64) * n + np.asarray(pj, np.int64) for _, pi, pj, _ in contributions]
+    new = sorted_unique(np.concatenate(extra)) if extra else np.zeros(0, np.int64)
+    new = new[~is_member(new, keys)]
+    merged = np.concatenate([keys, new])
+    order = np.argsort(merged, kind="stable")
+    merged = merged[order]
+    grow = lambda a, fill: np.concatenate([a, np.full(len(new), fill, a.dtype)])[order]  # noqa: E731
+    new_i, new_j = (merged // n).astype(np.intp), (merged % n).astype(np.intp)
+    counts = np.bincount(new_i, minlength=n_residues)
+    row_start = np.zeros(n_residues + 1, np.int64)
+    np.cumsum(counts, out=row_start[1:])
+    values = {t: grow(v, 0.0) for t, v in base_values.items()}
+    return assemble(n_residues, new_i, new_j, row_start, values, grow(base_min_heavy, np.inf),
+                    grow(base_keep, False), contributions)
 
 
 def bonded_terms_for_pair(system, result, res_i: int, res_j: int) -> list[dict]:

@@ -45,9 +45,3 @@ def residue_spheres(positions, residue_atoms: ResidueAtoms, resindex, box=None):
     radii = np.zeros(n_res)
     np.maximum.at(radii, resindex, dist)
     return centers, radii
-
-
-def all_residue_pairs(n_residues: int) -> np.ndarray:
-    """Every pair i <= j, as an (n*(n+1)/2, 2) intp array."""
-    i, j = np.triu_indices(n_residues)
-    return np.stack([i, j], axis=1).astype(np.intp)

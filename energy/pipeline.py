@@ -11,10 +11,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .cells import candidate_pairs_cells
-from .decompose import ResiduePairEnergies, assemble, is_member, sorted_unique, split_over_residue_pairs
+from .cells import all_pairs_rows, candidate_pairs_cells, locate_pairs
+from .decompose import ResiduePairEnergies, assemble, sorted_unique, split_over_residue_pairs
 from .errors import InputMismatchError
-from .neighbors import ResidueAtoms, all_residue_pairs, residue_spheres
+from .neighbors import ResidueAtoms, residue_spheres
 from .pbc import is_orthorhombic, perpendicular_widths, periodic_cell
 from .settings import EnergySettings
 from .system import BONDED_TERMS, TERMS, Frame, MolecularSystem
@@ -66,15 +66,18 @@ def _validate_frame(system: MolecularSystem, frame: Frame):
                                  f"{i + 1} {system.names[i]} of {system.residues.label(system.resindex[i])}")
 
 
-def _exception_residue_flags(system, pairs_ij, n_res):
+def _exception_residue_flags(system, pair_j, row_start, n_res):
     """(n_pairs,) bool: residue pair holds at least one exception pair."""
+    flags = np.zeros(len(pair_j), dtype=np.bool_)
     ex = system.exception_pairs
     if len(ex) == 0:
-        return np.zeros(len(pairs_ij), dtype=np.bool_)
+        return flags
     ri, rj = system.resindex[ex[:, 0]], system.resindex[ex[:, 1]]
-    ex_keys = sorted_unique(np.minimum(ri, rj).astype(np.int64) * n_res + np.maximum(ri, rj))
-    keys = pairs_ij[:, 0].astype(np.int64) * n_res + pairs_ij[:, 1]
-    return is_member(keys, ex_keys)
+    keys = sorted_unique(np.minimum(ri, rj).astype(np.int64) * n_res + np.maximum(ri, rj))
+    rows = locate_pairs(row_start, pair_j,
+                        (keys // n_res).astype(np.intp), (keys % n_res).astype(np.intp))
+    flags[rows[rows >= 0]] = True  # exception pairs always lie within the examined rows
+    return flags
 
 
 def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySettings | None = None):
@@ -118,13 +121,13 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
     # Ordinary nonbonded pairs, residue pair by residue pair.
     res_atoms = ResidueAtoms.from_resindex(system.resindex, n_res)
     if settings.cutoff_angstrom is None:
-        candidates = all_residue_pairs(n_res)
+        pair_i, pair_j, row_start = all_pairs_rows(n_res)
         centers, radii = np.zeros((n_res, 3)), np.zeros(n_res)
     else:
         centers, radii = residue_spheres(x, res_atoms, system.resindex, box if periodic else None)
-        candidates = candidate_pairs_cells(centers, radii, settings.cutoff_angstrom,
-                                           h if periodic else None)
-    has_excl = _exception_residue_flags(system, candidates, n_res)
+        pair_i, pair_j, row_start = candidate_pairs_cells(centers, radii, settings.cutoff_angstrom,
+                                                          h if periodic else None)
+    has_excl = _exception_residue_flags(system, pair_j, row_start, n_res)
     excl_ptr, excl_idx = exclusion_csr(system.exception_pairs, system.n_atoms)
     kc = KernelConstants.from_settings(settings)
     order = res_atoms.atoms
@@ -132,11 +135,9 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
     gather = (lambda a: a) if identity else (lambda a: np.ascontiguousarray(a[order]))  # noqa: E731
     pos_r, q_r = gather(x), gather(system.charges)
     t_r, heavy_r = gather(system.lj_type), gather(system.is_heavy)
-    n_cand = len(candidates)
+    n_cand = len(pair_i)
     coul = np.zeros(n_cand); lj = np.zeros(n_cand)
     count = np.zeros(n_cand, np.int64); min_h2 = np.zeros(n_cand)
-    pair_i = np.ascontiguousarray(candidates[:, 0])
-    pair_j = np.ascontiguousarray(candidates[:, 1])
     t_search = time.perf_counter()
     yield 0, n_cand
     for start in range(0, n_cand, KERNEL_BLOCK):
@@ -151,8 +152,8 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
     totals["lj"] += float(lj.sum())
     t_kernel = time.perf_counter()
 
-    residue_pairs = assemble(n_res, candidates, {"coulomb": coul, "lj": lj}, np.sqrt(min_h2),
-                             count > 0, contributions)
+    residue_pairs = assemble(n_res, pair_i, pair_j, row_start, {"coulomb": coul, "lj": lj},
+                             np.sqrt(min_h2), count > 0, contributions)
     totals["total"] = float(sum(totals[t] for t in TERMS))
     t_end = time.perf_counter()
     timings = {"bonded": t_bonded - t0, "neighbour_search": t_search - t_bonded,

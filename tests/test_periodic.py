@@ -43,7 +43,10 @@ def test_residue_pair_search_finds_every_pair_brute_force(name):
     centers = rng.uniform(-10, 40, (n, 3))
     radii = rng.uniform(0.5, 5.0, n)
     cutoff = 9.0
-    found = {tuple(p) for p in candidate_pairs_cells(centers, radii, cutoff, h)}
+    pair_i, pair_j, row_start = candidate_pairs_cells(centers, radii, cutoff, h)
+    found = set(zip(pair_i.tolist(), pair_j.tolist()))
+    assert np.all(np.diff(pair_i.astype(np.int64) * n + pair_j) > 0)  # sorted, unique
+    assert np.array_equal(row_start, np.searchsorted(pair_i, np.arange(n + 1)))
     images = _images(h)
     expected = {(i, i) for i in range(n)}
     for i, j in itertools.combinations(range(n), 2):
