@@ -22,6 +22,7 @@ test: $(STAMP)
 
 bench: $(STAMP)
 	QT_QPA_PLATFORM=offscreen $(PY) benchmarks/run.py
+	QT_QPA_PLATFORM=offscreen $(PY) benchmarks/trajectory_bench.py
 
 clean:
 	rm -rf $(VENV) .pytest_cache
