@@ -167,7 +167,11 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
 def compute(system: MolecularSystem, frame: Frame, settings: EnergySettings | None = None,
             progress=None) -> EnergyResult:
     """Run :func:`compute_steps` to the end; ``progress(done, total)`` is called at each step."""
-    steps = compute_steps(system, frame, settings)
+    return run_to_end(compute_steps(system, frame, settings), progress)
+
+
+def run_to_end(steps, progress=None):
+    """Drive a progress generator (yields ``(done, total)``, returns its result) to the end."""
     while True:
         try:
             done, total = next(steps)
@@ -177,4 +181,4 @@ def compute(system: MolecularSystem, frame: Frame, settings: EnergySettings | No
             progress(done, total)
 
 
-__all__ = ["EnergyResult", "compute", "compute_steps", "BONDED_TERMS"]
+__all__ = ["EnergyResult", "compute", "compute_steps", "run_to_end", "BONDED_TERMS"]

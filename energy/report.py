@@ -11,6 +11,7 @@ import json
 import math
 import os
 import tempfile
+from contextlib import contextmanager
 
 import numpy as np
 
@@ -26,35 +27,33 @@ def _default_permissions(path) -> None:
     os.chmod(path, 0o666 & ~umask)
 
 
-def atomic_write_text(path, text: str) -> None:
-    """Write ``text`` to ``path`` via a temporary file and an atomic rename."""
+@contextmanager
+def atomic_open(path, mode: str = "w"):
+    """Open a temporary file beside ``path`` for writing; on success it replaces ``path``
+    atomically (with ordinary file permissions), on any failure it is removed."""
     path = os.fspath(path)
-    folder = os.path.dirname(os.path.abspath(path))
-    fd, tmp = tempfile.mkstemp(prefix=".tessera-", suffix=".tmp", dir=folder)
+    fd, tmp = tempfile.mkstemp(prefix=".tessera-", suffix=".tmp",
+                               dir=os.path.dirname(os.path.abspath(path)))
     try:
-        with os.fdopen(fd, "w", newline="") as fh:
-            fh.write(text)
+        with os.fdopen(fd, mode, **({"newline": ""} if "b" not in mode else {})) as fh:
+            yield fh
         _default_permissions(tmp)
         os.replace(tmp, path)
     except BaseException:
         if os.path.exists(tmp):
             os.unlink(tmp)
         raise
+
+
+def atomic_write_text(path, text: str) -> None:
+    """Write ``text`` to ``path`` via a temporary file and an atomic rename."""
+    with atomic_open(path, "w") as fh:
+        fh.write(text)
 
 
 def atomic_write_bytes(path, data: bytes) -> None:
-    path = os.fspath(path)
-    folder = os.path.dirname(os.path.abspath(path))
-    fd, tmp = tempfile.mkstemp(prefix=".tessera-", suffix=".tmp", dir=folder)
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-        _default_permissions(tmp)
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
+    with atomic_open(path, "wb") as fh:
+        fh.write(data)
 
 
 def residue_records(system) -> list[dict]:
@@ -181,24 +180,15 @@ def write_scan_json(path, doc: dict, result) -> None:
     """Write a :func:`scan_document` with its residue-pair rows streamed in, atomically."""
     text = json.dumps(doc, indent=1, allow_nan=False)
     head, tail = text.split(json.dumps(_PAIRS_PLACEHOLDER), 1)
-    path = os.fspath(path)
-    fd, tmp = tempfile.mkstemp(prefix=".tessera-", suffix=".tmp", dir=os.path.dirname(os.path.abspath(path)))
-    try:
-        with os.fdopen(fd, "w") as fh:
-            fh.write(head + "[\n  ")
-            first = True
-            for chunk in _pair_json_chunks(pair_columns(result)):
-                if not first:
-                    fh.write(",\n  ")
-                fh.write(chunk)
-                first = False
-            fh.write("\n ]" + tail + "\n")
-        _default_permissions(tmp)
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
+    with atomic_open(path, "w") as fh:
+        fh.write(head + "[\n  ")
+        first = True
+        for chunk in _pair_json_chunks(pair_columns(result)):
+            if not first:
+                fh.write(",\n  ")
+            fh.write(chunk)
+            first = False
+        fh.write("\n ]" + tail + "\n")
 
 
 def write_csv_dir(folder, system, result) -> list[str]:

@@ -141,37 +141,9 @@ def parse_frames(text: str | None, n_frames: int) -> list[int]:
 # ------------------------------------------------------------------------------------------
 
 def _open_universe(path: str, n_atoms: int, names):
-    """An MDAnalysis Universe over the coordinate file, checked against the topology (same
-    rules as :func:`energy.io.charmm_system.read_frame`)."""
-    import MDAnalysis as mda
-
-    from .io.charmm_system import _TRAJECTORY_SUFFIXES
-
-    suffix = path.rsplit(".", 1)[-1].lower() if "." in os.path.basename(path) else ""
-    try:
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
-            if suffix in _TRAJECTORY_SUFFIXES:
-                universe = mda.Universe.empty(n_atoms, trajectory=False)
-                universe.load_new(path)
-                file_names = None
-            else:
-                universe = mda.Universe(path)
-                file_names = [str(x) for x in universe.atoms.names]
-    except Exception as exc:  # MDAnalysis raises many kinds; all mean "cannot read"
-        raise StructureFileError(path, f"cannot read the trajectory: {exc}") from None
-    if len(universe.atoms) != n_atoms:
-        raise InputMismatchError(f"{path} has {len(universe.atoms)} atoms but the topology has "
-                                 f"{n_atoms}")
-    if file_names is not None:
-        bad = [i for i, (a, b) in enumerate(zip(names, file_names))
-               if str(a).strip().upper() != b.strip().upper()]
-        if bad:
-            i = bad[0]
-            raise InputMismatchError(f"atom names differ between the topology and {path} "
-                                     f"({len(bad)} atoms), e.g. atom {i + 1}: {names[i]!r} vs "
-                                     f"{file_names[i]!r}")
-    return universe
+    """An MDAnalysis Universe over the trajectory, checked against the topology."""
+    from .io.coordinates import open_coordinates
+    return open_coordinates(path, n_atoms, names, "topology", "the trajectory")
 
 
 class TrajectorySource:
@@ -612,14 +584,8 @@ class TrajectoryScan:
 
     def run(self, progress=None) -> TrajectoryResult:
         """Run to the end; ``progress(done, total)`` after each frame."""
-        steps = self.steps()
-        while True:
-            try:
-                done, total = next(steps)
-            except StopIteration as stop:
-                return stop.value
-            if progress is not None:
-                progress(done, total)
+        from .pipeline import run_to_end
+        return run_to_end(self.steps(), progress)
 
     def result(self) -> TrajectoryResult:
         return self.state.result()

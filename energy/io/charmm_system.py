@@ -15,6 +15,7 @@ import numpy as np
 
 from ..errors import MissingParametersError, StructureFileError
 from ..system import MolecularSystem, ResidueTable, TermTable
+from .coordinates import read_frame  # noqa: F401  (re-exported: the PSF route reads frames here)
 from .charmm_params import (CharmmParameters, canonical_angle, canonical_cmap, canonical_pair,
                             canonical_quad)
 
@@ -266,80 +267,6 @@ def build_charmm_system(psf, params: CharmmParameters, force_field: str = "",
         force_field=force_field,
         source_files=tuple(source_files) or (psf.path,) + tuple(params.source_files),
         segids=psf.segids)
-
-
-#: Coordinate formats without atom names: read positions only (the PSF gives the topology).
-_TRAJECTORY_SUFFIXES = {"dcd", "xtc", "trr", "nc", "ncdf", "netcdf", "trj", "mdcrd", "crdbox",
-                        "xyz", "lammpsdump", "h5md"}
-
-
-def read_frame(coords_path, n_atoms: int, names, frame: int = 0):
-    """Read one frame of coordinates with MDAnalysis and check it against the topology.
-
-    Parameters
-    ----------
-    coords_path : str or os.PathLike
-        Any coordinate file MDAnalysis reads (PDB, CRD, DCD, ...).
-    n_atoms : int
-        Atom count of the topology.
-    names : sequence of str
-        Atom names of the topology, compared with the file's names where it has them.
-    frame : int
-        Frame number (0-based).
-
-    Returns
-    -------
-    energy.system.Frame
-
-    Raises
-    ------
-    StructureFileError
-        Unreadable file, missing frame, or non-finite coordinates.
-    InputMismatchError
-        Atom count or atom names differ between topology and coordinates.
-    """
-    import warnings
-
-    import MDAnalysis as mda
-
-    from ..errors import InputMismatchError
-    from ..system import Frame
-
-    path = str(coords_path)
-    suffix = path.rsplit(".", 1)[-1].lower() if "." in path else ""
-    try:
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
-            if suffix in _TRAJECTORY_SUFFIXES:
-                universe = mda.Universe.empty(n_atoms, trajectory=False)
-                universe.load_new(path)
-                file_names = None
-            else:
-                universe = mda.Universe(path)
-                file_names = [str(x) for x in universe.atoms.names]
-    except Exception as exc:  # MDAnalysis raises many kinds; all mean "cannot read"
-        raise StructureFileError(path, f"cannot read coordinates: {exc}") from None
-    if len(universe.atoms) != n_atoms:
-        raise InputMismatchError(f"{path} has {len(universe.atoms)} atoms but the PSF has "
-                                 f"{n_atoms}")
-    if file_names is not None:
-        bad = [(i, a, b) for i, (a, b) in enumerate(zip(names, file_names))
-               if str(a).strip().upper() != b.strip().upper()]
-        if bad:
-            shown = ", ".join(f"atom {i + 1}: PSF {a!r} vs coordinates {b!r}"
-                              for i, a, b in bad[:5])
-            raise InputMismatchError(f"atom names differ between the PSF and {path} "
-                                     f"({len(bad)} atoms), e.g. {shown}")
-    n_frames = len(universe.trajectory)
-    if not 0 <= frame < n_frames:
-        raise StructureFileError(path, f"frame {frame} requested but the file has {n_frames} "
-                                       f"frame(s) (0..{n_frames - 1})")
-    ts = universe.trajectory[frame]
-    positions = np.array(ts.positions, dtype=np.float64)
-    if not np.all(np.isfinite(positions)):
-        raise StructureFileError(path, f"frame {frame} holds non-finite (NaN/inf) coordinates")
-    box = None if ts.dimensions is None else np.array(ts.dimensions, dtype=np.float64)
-    return Frame(positions=positions, box=box, index=frame, source=path)
 
 
 def load_psf_system(psf_path, param_paths, coords_path, frame: int = 0):
