@@ -3,11 +3,14 @@
 
 States: the clash scenario on open; the clash pair selected with an atom pair's curves; the
 ledger filtered to chain A - chain B and sorted by total; the map ordered by clustered
-interaction profiles; compare mode (fixed minus clash).  Run offscreen:
+interaction profiles; compare mode (fixed minus clash); the clash check panel with its map rings;
+the model comparison (LJ vs exp-6 severity, electrostatics models); the trajectory with the clash
+pair's time series; the mean over frames.  Run offscreen:
     QT_QPA_PLATFORM=offscreen .venv/bin/python scripts/screenshots.py [OUT_DIR]
 """
 from __future__ import annotations
 
+import json
 import os
 import sys
 import tempfile
@@ -88,6 +91,48 @@ def main(out_dir: str) -> int:
     wait_for(w.computeFinished)
     w.ledger.table.selectRow(0)
     shot("05_compare_fixed_minus_clash")
+    w.leave_compare()
+    w.ledger.set_between("A", "B", False)
+    w.ledger.hide_self.setChecked(False)
+    if w.checks.check is None or w.checks.check.report.options.overlap != 0.4:
+        wait_for(w.checks.clashesChecked, 20000)
+    w.docks["clashes"].raise_()
+    w.resizeDocks([w.docks["clashes"], w.docks["atoms"]], [560, 400], Qt.Orientation.Horizontal)
+    w.clash_panel.table.selectRow(0)
+    i, j = w.selection.pair
+    pi, pj = int(w.map.position[i]), int(w.map.position[j])
+    w.map.plot.setRange(xRange=(pj - 18, pj + 18), yRange=(pi - 18, pi + 18), padding=0)
+    shot("06_clash_check_panel")
+    w.resizeDocks([w.docks["clashes"], w.docks["atoms"]], [300, 460], Qt.Orientation.Horizontal)
+    w.fit_map()
+    w.docks["models"].raise_()
+    w.docks["bars"].hide(); w.docks["series"].hide()     # give the comparison the whole width
+    w.resizeDocks([w.docks["models"]], [330], Qt.Orientation.Vertical)
+    w.model_panel.compare_button.click()
+    wait_for(w.checks.electrostaticsCompared, 30000)
+    w.model_panel.severity.selectRow(0)
+    shot("07_model_comparison")
+    w.docks["bars"].show(); w.docks["series"].show()
+    w.docks["roster"].raise_()
+    w.docks["ledger"].raise_()
+    w.resizeDocks([w.docks["ledger"], w.docks["bars"]], [700, 900], Qt.Orientation.Horizontal)
+    w.resizeDocks([w.docks["ledger"]], [250], Qt.Orientation.Vertical)
+    w.open_spec(LoadSpec(str(SCENARIO / "complex_clash.pdb"), str(SCENARIO / "relax.dcd")))
+    wait_for(w.computeFinished)
+    if w.trajectory.state.result is None:
+        wait_for(w.trajectory.scanFinished, 120000)
+    meta = json.loads((SCENARIO / "scenario.json").read_text())
+    labels = [w.snapshot.system.residues.label(k) for k in range(w.snapshot.system.n_residues)]
+    w.selection.set_pair(tuple(sorted(labels.index(x) for x in meta["clash"])))
+    w.frame_bar.set_frame(6)
+    wait_for(w.trajectory.frameShown, 30000)
+    w.atoms.table.selectRow(0)
+    shot("08_trajectory_time_series")
+    w.frame_bar.mean.setChecked(True)
+    w.ledger.set_between("A", "B", True)
+    w.ledger.table.sortByColumn(w.ledger.model.columnCount() - 1, Qt.SortOrder.AscendingOrder)
+    w.ledger.table.scrollToTop()
+    shot("09_trajectory_mean_over_frames")
     w.close()
     return 0
 

@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 from PySide6.QtCore import Qt, Signal
-from PySide6.QtWidgets import (QAbstractItemView, QHBoxLayout, QLabel, QPushButton, QTableView,
-                               QVBoxLayout, QWidget)
+from PySide6.QtWidgets import (QAbstractItemView, QHBoxLayout, QLabel, QPushButton, QSplitter,
+                               QTableView, QVBoxLayout, QWidget)
 
 from energy.clashes import atom_label
 
@@ -54,10 +54,16 @@ class ModelComparisonView(QWidget):
 
         row = QHBoxLayout(); row.setContentsMargins(0, 0, 0, 0)
         row.addWidget(QLabel("<b>Electrostatics models</b>")); row.addStretch(1); row.addWidget(self.compare_button)
-        left = QVBoxLayout(); left.addWidget(self.severity_caption); left.addWidget(self.severity, 1)
-        right = QVBoxLayout(); right.addLayout(row); right.addWidget(self.elec_caption); right.addWidget(self.elec, 1)
+        left_w, right_w = QWidget(), QWidget()
+        left = QVBoxLayout(left_w); left.setContentsMargins(0, 0, 2, 0)
+        left.addWidget(self.severity_caption); left.addWidget(self.severity, 1)
+        right = QVBoxLayout(right_w); right.setContentsMargins(2, 0, 0, 0)
+        right.addLayout(row); right.addWidget(self.elec_caption); right.addWidget(self.elec, 1)
+        self.splitter = QSplitter(Qt.Orientation.Horizontal)
+        self.splitter.addWidget(left_w); self.splitter.addWidget(right_w)
+        self.splitter.setStretchFactor(0, 4); self.splitter.setStretchFactor(1, 7)
         lay = QHBoxLayout(self); lay.setContentsMargins(2, 2, 2, 2)
-        lay.addLayout(left, 5); lay.addLayout(right, 6)
+        lay.addWidget(self.splitter)
 
         self.compare_button.clicked.connect(self.compareRequested)
         self.severity.selectionModel().currentRowChanged.connect(self._on_severity_row)
@@ -85,12 +91,11 @@ class ModelComparisonView(QWidget):
         pair_text = np.array([f"{atom_label(system, int(a))} – {atom_label(system, int(b))}"
                               for a, b in atoms], dtype=object)
         self.severity_model.set_columns([
-            Column("#", np.arange(1, n + 1), "number"),
             Column("Atom pair", pair_text),
             Column("Overlap", rep.overlap[:n], "distance"),
             Column("LJ 12-6", lj, "energy", "force field Lennard-Jones"),
             Column("Exp-6", e6, "energy", f"exp-6, same Rmin and well depth, α = {rep.options.exp6_alpha:.3f}"),
-            Column("LJ ÷ exp-6", ratio, "number", "how many times harsher the 1/r¹² wall is")], n)
+            Column("LJ/exp-6", ratio, "number", "how many times harsher the 1/r¹² wall is")], n)
         self.severity_caption.setText(
             f"<b>Clash severity, LJ 12-6 vs exp-6</b>: top {n} of {len(rep)} clash(es), frame "
             f"{check.frame_index}; exp-6 α = {rep.options.exp6_alpha:.3f}. Sum LJ "

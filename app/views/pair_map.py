@@ -160,9 +160,10 @@ class PairMapView(QWidget):
         self.marker.setZValue(10)
         self.plot.addItem(self.marker)
         # clash overlay: a ring on every residue pair with a steric clash (both triangles)
-        self.clash_marks = pg.ScatterPlotItem(pxMode=False, size=0.9, symbol="o", brush=None,
+        # (larger than a cell, so that it still shows around the green selection square)
+        self.clash_marks = pg.ScatterPlotItem(pxMode=False, size=1.5, symbol="o", brush=None,
                                               pen=pg.mkPen("#111111", width=2))
-        self.clash_marks.setZValue(8)
+        self.clash_marks.setZValue(11)
         self.plot.addItem(self.clash_marks)
         self.clashes = {}                          # (i, j) residue pair -> (count, worst overlap A)
         self.show_clashes = True
