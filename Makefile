@@ -12,6 +12,8 @@ $(PY):
 $(STAMP): pyproject.toml | $(PY)
 	$(PY) -m pip install --quiet --upgrade pip
 	$(PY) -m pip install --quiet -e ".[test]"
+	@echo "compiling the energy kernels (once; cached by numba)..."
+	$(PY) -c "from energy.warmup import prepare_kernels; prepare_kernels()"
 	touch $(STAMP)
 
 run: $(STAMP)

@@ -59,7 +59,9 @@ def settings_from_args(args):
                           use_periodic=not args.no_periodic, vdw=args.vdw, exp6_alpha=alpha)
 
 
-def build_parser() -> argparse.ArgumentParser:
+def build_parser(command: str | None = None) -> argparse.ArgumentParser:
+    """The argument parser; with ``command`` given, only that subcommand's options are set up
+    (the other subcommands' modules are not imported, which keeps start-up short)."""
     parser = argparse.ArgumentParser(prog="tessera", description=(
         "Where is the energy? Per-term, per-residue-pair force-field energies of a protein model."))
     sub = parser.add_subparsers(dest="command")
@@ -85,18 +87,12 @@ def build_parser() -> argparse.ArgumentParser:
                       help="a residue pair 'persists' in frames where its total is below E kcal/mol "
                            "(default -1.0)")
     compare = sub.add_parser("compare", help="difference map of two structures of the same system")
-    try:
+    if command in (None, "compare"):
         from . import compare_cli
-    except ImportError:
-        compare_cli = None
-    if compare_cli is not None:
         compare_cli.configure_parser(compare)
     clashes = sub.add_parser("clashes", help="rank overlapping atom pairs (steric clashes)")
-    try:
+    if command in (None, "clashes"):
         from . import clashes_cli
-    except ImportError:
-        clashes_cli = None
-    if clashes_cli is not None:
         clashes_cli.configure_parser(clashes)
     view = sub.add_parser("view", help="open the desktop window")
     view.add_argument("files", nargs="*")
@@ -122,7 +118,7 @@ def run_scan(args) -> int:
             raise EnergyError(f"{out}: the output folder does not exist")
     from .warmup import prepare_kernels
     t0 = time.perf_counter()
-    prepare_kernels()
+    prepare_kernels(settings)
     prepare_seconds = time.perf_counter() - t0
     loaded = load_system(args.structure, args.coords, args.params, frame=args.frame,
                          add_hydrogens=args.add_hydrogens)
@@ -180,7 +176,7 @@ def main(argv=None) -> int:
     argv = list(sys.argv[1:] if argv is None else argv)
     if not argv or (argv[0] not in SUBCOMMANDS and not argv[0].startswith("-")):
         argv = ["view", *argv]
-    parser = build_parser()
+    parser = build_parser(argv[0] if argv[0] in SUBCOMMANDS else None)
     args = parser.parse_args(argv)
     try:
         if args.command == "scan":

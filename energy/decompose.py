@@ -14,7 +14,6 @@ from dataclasses import dataclass
 from itertools import combinations
 
 import numpy as np
-import scipy.sparse as sp
 
 from .system import TERMS
 
@@ -86,8 +85,10 @@ class ResiduePairEnergies:
             return self.values["coulomb"] + self.values["lj"]
         return self.values[quantity]
 
-    def matrix(self, quantity: str = "total") -> sp.csr_matrix:
-        """Symmetric sparse (n_residues, n_residues) matrix; the upper triangle sums to the total."""
+    def matrix(self, quantity: str = "total"):
+        """Symmetric sparse (n_residues, n_residues) scipy CSR matrix; the upper triangle sums to
+        the total."""
+        import scipy.sparse as sp
         v = self.column(quantity)
         n = self.n_residues
         off = self.pair_i != self.pair_j

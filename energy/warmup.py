@@ -12,7 +12,7 @@ import numpy as np
 from .settings import EnergySettings
 from .system import Frame, MolecularSystem, ResidueTable, TermTable
 
-_prepared = False
+_prepared: set = set()
 
 
 def _toy_system() -> tuple[MolecularSystem, Frame]:
@@ -35,15 +35,21 @@ def _toy_system() -> tuple[MolecularSystem, Frame]:
     return system, frame
 
 
-def prepare_kernels() -> None:
-    """Run every compiled kernel once (no cutoff; periodic cutoff), loading cached machine code."""
+def prepare_kernels(settings: EnergySettings | None = None) -> None:
+    """Run the compiled kernels once on a toy system, loading (or compiling) their machine code.
+
+    With ``settings``, only the kernels those settings use (with or without a cutoff); without,
+    all of them (used once after installation to fill the cache).
+    """
     global _prepared
-    if _prepared:
-        return
     from .pipeline import compute
     system, frame = _toy_system()
-    compute(system, frame, EnergySettings())
-    compute(system, frame, EnergySettings(cutoff_angstrom=10.0, electrostatics="reaction-field",
-                                          switch_angstrom=8.0))
-    compute(system, Frame(frame.positions), EnergySettings(cutoff_angstrom=10.0))
-    _prepared = True
+    wanted = {"all"} if settings is None else {"cutoff" if settings.cutoff_angstrom else "none"}
+    todo = ({"none", "cutoff"} if "all" in wanted else wanted) - _prepared
+    if "none" in todo:
+        compute(system, frame, EnergySettings())
+    if "cutoff" in todo:
+        compute(system, frame, EnergySettings(cutoff_angstrom=10.0, electrostatics="reaction-field",
+                                              switch_angstrom=8.0))
+        compute(system, Frame(frame.positions), EnergySettings(cutoff_angstrom=10.0))
+    _prepared |= todo

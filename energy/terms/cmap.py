@@ -11,13 +11,12 @@ from __future__ import annotations
 from functools import lru_cache
 
 import numpy as np
-from scipy.interpolate import CubicSpline
-
 from ..geometry import dihedral_angles
 from ..system import TermTable
 
 
 def _periodic_derivative(grid: np.ndarray, axis: int, step: float) -> np.ndarray:
+    from scipy.interpolate import CubicSpline  # imported here: only systems with CMAP need it
     n = grid.shape[axis]
     knots = np.arange(n + 1) * step
     closed = np.concatenate([grid, np.take(grid, [0], axis=axis)], axis=axis)
