@@ -97,7 +97,12 @@ class ResiduePairEnergies:
         return sp.csr_matrix((np.concatenate([v, v[off]]), (rows, cols)), shape=(n, n))
 
     def dense(self, quantity: str = "total") -> np.ndarray:
-        return self.matrix(quantity).toarray()
+        """Symmetric dense (n_residues, n_residues) array (for maps; n^2 memory)."""
+        v = self.column(quantity)
+        out = np.zeros((self.n_residues, self.n_residues))
+        out[self.pair_i, self.pair_j] = v
+        out[self.pair_j, self.pair_i] = v
+        return out
 
     def per_residue(self, quantity: str = "total") -> np.ndarray:
         """(n_residues,) per-residue totals: half of each off-diagonal entry, all of the diagonal."""

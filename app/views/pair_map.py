@@ -61,7 +61,10 @@ class ResidueAxis(pg.AxisItem):
     def set_labels(self, labels) -> None:
         self.labels = list(labels)
         fm = QFontMetrics(self.font() if hasattr(self, "font") else QFont())
-        self._text_w = max((fm.horizontalAdvance(s) for s in self.labels), default=30)
+        # Measure only the longest labels (by characters): thousands of font-metric calls per
+        # redraw cost tens of milliseconds, and the widest label is among the longest.
+        longest = sorted(self.labels, key=len, reverse=True)[:32]
+        self._text_w = max((fm.horizontalAdvance(s) for s in longest), default=30)
         self._text_h = fm.height()
         if self.orientation == "left":
             self.setWidth(self._text_w + 12)
