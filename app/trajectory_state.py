@@ -36,12 +36,12 @@ class ViewerTrajectorySource(TrajectorySource):
     parameterisation) that hands every frame's residue-pair table to ``sink(frame_index, rp)``."""
 
     def __init__(self, request: TrajectoryRequest, loaded, sink=None):
-        from energy.trajectory import _open_universe
+        from energy.trajectory import open_trajectory
         self.request = request
         self.loaded = loaded
         self.system = loaded.system
         self.path = request.trajectory_path
-        self.universe = _open_universe(self.path, self.system.n_atoms, self.system.names)
+        self.universe = open_trajectory(self.path, self.system.n_atoms, self.system.names)
         self.n_frames = len(self.universe.trajectory)
         heavy = self.system.is_heavy
         self._heavy_of = {r: np.flatnonzero((self.system.resindex == r) & heavy)

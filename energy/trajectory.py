@@ -140,7 +140,7 @@ def parse_frames(text: str | None, n_frames: int) -> list[int]:
 # reading frames
 # ------------------------------------------------------------------------------------------
 
-def _open_universe(path: str, n_atoms: int, names):
+def open_trajectory(path: str, n_atoms: int, names):
     """An MDAnalysis Universe over the trajectory, checked against the topology."""
     from .io.coordinates import open_coordinates
     return open_coordinates(path, n_atoms, names, "topology", "the trajectory")
@@ -158,7 +158,7 @@ class TrajectorySource:
         self.loaded = loaded
         self.system = loaded.system
         self.path = request.trajectory_path
-        self.universe = _open_universe(self.path, self.system.n_atoms, self.system.names)
+        self.universe = open_trajectory(self.path, self.system.n_atoms, self.system.names)
         self.n_frames = len(self.universe.trajectory)
         n_res = self.system.n_residues
         for i, j in request.pairs:
