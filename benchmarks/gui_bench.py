@@ -64,7 +64,7 @@ def wait(signal, timeout_ms=60000):
     loop.exec()
 
 
-def bench_map(repeats=5, clicks=40):
+def bench_map(repeats=7, clicks=40):
     sel = SelectionModel()
     split = QSplitter(Qt.Orientation.Vertical)
     view, ledger = PairMapView(sel), PairLedgerView(sel)
@@ -74,7 +74,9 @@ def bench_map(repeats=5, clicks=40):
     QApplication.processEvents()
     ds = synthetic_dataset()
     render = []
-    for _ in range(repeats):
+    # The first render in a process pays one-time costs (colour lookup tables, font caches,
+    # first-touch memory); it is reported apart as render_2000_first_ms, not in the median.
+    for _ in range(repeats + 1):
         t0 = time.perf_counter()
         view.set_dataset(ds)
         ledger.set_dataset(ds)
@@ -124,14 +126,16 @@ def main(argv=None) -> int:
     QSettings.setDefaultFormat(QSettings.Format.IniFormat)
     QSettings.setPath(QSettings.Format.IniFormat, QSettings.Scope.UserScope, tempfile.mkdtemp())
     qapp.setOrganizationName("TesseraBench"); qapp.setApplicationName("TesseraBench")
-    render, click, n_pairs = bench_map()
+    render_all, click, n_pairs = bench_map()
+    first, render = render_all[0], render_all[1:]
     scenario = bench_scenario()
     res = {"render_2000_ms_median": statistics.median(render), "render_2000_ms_all": render,
+           "render_2000_first_ms": first,
            "click_2000_ms_median": statistics.median(click), "click_2000_ms_max": max(click),
            "n_pairs_2000": n_pairs,
            "scenario_first_map_s_median": statistics.median(scenario), "scenario_first_map_s_all": scenario}
     print(f"2,000-residue map ({n_pairs:,} pairs): render median {res['render_2000_ms_median']:.1f} ms "
-          f"(target < 100), click median {res['click_2000_ms_median']:.1f} ms, max {res['click_2000_ms_max']:.1f} ms "
+          f"(target < 100; first render in the process {first:.0f} ms, not counted), click median {res['click_2000_ms_median']:.1f} ms, max {res['click_2000_ms_max']:.1f} ms "
           f"(target < 100)")
     print(f"scenario to first map: median {res['scenario_first_map_s_median']:.2f} s "
           f"(runs: {', '.join(f'{s:.2f}' for s in scenario)}; target < 3 s)")
