@@ -49,8 +49,12 @@ class EnergyAxis(pg.AxisItem):
         decades = [0.0] + [s * 10.0 ** k for k in range(-1, 9) for s in (1, -1)]
         vals = sorted(float(symlog(v)) for v in decades)
         vals = [v for v in vals if minVal <= v <= maxVal]
-        if len(vals) > max(2, int(size / 18)):
-            vals = [v for v in vals if abs(round(float(symlog_inverse(v)), 6)) in (0.0, 0.1, 1.0, 100.0, 1e4, 1e6, 1e8)]
+        room = max(2, int(size / 18))
+        for keep in ((0.0, 0.1, 1.0, 100.0, 1e4, 1e6, 1e8), (0.0, 1.0, 100.0, 1e4, 1e6, 1e8),
+                     (0.0, 100.0, 1e4, 1e8)):
+            if len(vals) <= room:
+                break
+            vals = [v for v in vals if abs(round(float(symlog_inverse(v)), 6)) in keep]
         return [(1.0, vals)]
 
     def tickStrings(self, values, scale, spacing):

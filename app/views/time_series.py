@@ -5,11 +5,12 @@ from __future__ import annotations
 import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import Qt, Signal
-from PySide6.QtWidgets import QLabel, QVBoxLayout, QWidget
+from PySide6.QtWidgets import QCheckBox, QHBoxLayout, QLabel, QVBoxLayout, QWidget
 
 from energy.system import BONDED_TERMS
 
 from ..models.array_table import format_energy
+from .profile_plot import EnergyAxis, symlog
 
 #: Curves drawn: key, legend name, colour.  ``bonded`` is the sum of the bonded terms.
 CURVES = (("coulomb", "Coulomb", "#1f77b4"), ("lj", "van der Waals", "#e6550d"),
@@ -30,7 +31,9 @@ class TimeSeriesView(QWidget):
         self.caption.setObjectName("seriesCaption"); self.caption.setWordWrap(True)
         self.graphics = pg.GraphicsLayoutWidget()
         self.graphics.setBackground("w")
-        self.energy = self.graphics.addPlot(row=0, col=0)
+        self.energy_axis = EnergyAxis("left")
+        self.energy = self.graphics.addPlot(row=0, col=0, axisItems={"left": self.energy_axis})
+        self._raw = {}
         self.distance = self.graphics.addPlot(row=1, col=0)
         self.graphics.ci.layout.setRowStretchFactor(0, 3)
         self.graphics.ci.layout.setRowStretchFactor(1, 2)
@@ -60,7 +63,14 @@ class TimeSeriesView(QWidget):
                           + " &nbsp; <span style='color:#6a51a3'>━ closest heavy atoms</span>"
                           + " &nbsp; <span style='color:#2ca02c'>┃ frame on screen</span>")
         self.key.setObjectName("seriesKey")
-        lay.addWidget(self.caption); lay.addWidget(self.key); lay.addWidget(self.graphics, 1)
+        # A clash at the first frame (hundreds of kcal/mol) would flatten every later frame on a
+        # linear axis; the symmetric-log axis keeps both readable (the same scale as the profile).
+        self.symlog_box = QCheckBox("Symmetric log energy axis")
+        self.symlog_box.setChecked(True)
+        self.symlog_box.toggled.connect(lambda _on: self._redraw())
+        row = QHBoxLayout(); row.setContentsMargins(0, 0, 0, 0)
+        row.addWidget(self.key, 1); row.addWidget(self.symlog_box)
+        lay.addWidget(self.caption); lay.addLayout(row); lay.addWidget(self.graphics, 1)
         self.graphics.scene().sigMouseClicked.connect(self._on_click)
         self._redraw()
 
@@ -84,13 +94,17 @@ class TimeSeriesView(QWidget):
                 line.setPos(frame)
 
     def curve_values(self, key: str) -> np.ndarray:
-        return self.curves[key].getData()[1]
+        """The energies drawn for ``key`` (display units; before any axis transform)."""
+        return self._raw.get(key, np.zeros(0))
 
     # -- drawing ------------------------------------------------------------------------------
     def _redraw(self) -> None:
+        log = self.symlog_box.isChecked() if hasattr(self, "symlog_box") else True
+        self.energy_axis.symlog = log
         self.energy.setLabel("left", f"E ({self.unit})")
         s = self.series
         if s is None:
+            self._raw = {}
             for c in (*self.curves.values(), self.dist_curve):
                 c.setData([], [])
             self.caption.setText(getattr(self, "_message", "") or self.caption.text())
@@ -102,7 +116,9 @@ class TimeSeriesView(QWidget):
         for key, name, _color in CURVES:
             y = np.asarray(values[key], float) * self.factor
             show = bool(key != "bonded" or np.any(y != 0))
-            self.curves[key].setData(x if show else [], y if show else [])
+            self._raw[key] = y if show else np.zeros(0)
+            shown = symlog(y) if log else y
+            self.curves[key].setData(x if show else [], shown if show else [])
             self.curves[key].setVisible(show)
         d = np.asarray(s["min_heavy_distance"], float)
         ok = np.isfinite(d)

@@ -78,6 +78,13 @@ def test_trajectory_scan_frames_mean_and_time_series(qtbot, window):
     assert series["lj"][0] > 10 * max(series["lj"][-1], 1.0)
     assert series["min_heavy_distance"][-1] > series["min_heavy_distance"][0]
     np.testing.assert_allclose(w.time_series.curve_values("total"), series["total"])
+    # symmetric-log axis (default) draws sign(E) log10(1 + |E|/0.1); unticked, the energies
+    drawn = lambda: w.time_series.curves["total"].getData()[1]  # noqa: E731
+    e = np.asarray(series["total"], float)
+    np.testing.assert_allclose(drawn(), np.sign(e) * np.log10(1 + np.abs(e) / 0.1))
+    w.time_series.symlog_box.setChecked(False)
+    np.testing.assert_allclose(drawn(), e)
+    w.time_series.symlog_box.setChecked(True)
 
     # moving the slider computes that frame in the worker and every view follows it
     with qtbot.waitSignal(w.trajectory.frameShown, timeout=30000):
