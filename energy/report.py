@@ -217,7 +217,7 @@ def summary_text(loaded, result, top: int = 8, selection=None) -> str:
     if len(idx):
         order = idx[np.argsort(total[idx])]
         label = system.residues.label
-        lines += ["", f"most repulsive residue pairs (kcal/mol; bonded neighbours included):"]
+        lines += ["", "most repulsive residue pairs (kcal/mol; bonded neighbours included):"]
         for k in order[::-1][:top]:
             if total[k] <= 0:
                 break

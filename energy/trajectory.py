@@ -32,7 +32,7 @@ from dataclasses import dataclass, field
 import numba
 import numpy as np
 
-from .errors import EnergyError, InputMismatchError, StructureFileError
+from .errors import EnergyError, StructureFileError
 from .settings import EnergySettings
 from .system import TERMS, Frame
 

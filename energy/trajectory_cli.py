@@ -18,7 +18,6 @@ from __future__ import annotations
 import contextlib
 import csv
 import io
-import json
 import math
 import os
 import signal
@@ -29,7 +28,6 @@ import time
 import numpy as np
 
 from .errors import EnergyError
-from .system import TERMS
 from .trajectory import (COLUMNS, SELECTION_COLUMNS, TrajectoryError, TrajectoryRequest,
                          TrajectoryScan, parse_pair)
 

@@ -1,9 +1,9 @@
 """Atom contributions: every atom pair and bonded term behind the selected residue pair."""
 from __future__ import annotations
 
-from PySide6.QtCore import Qt, QItemSelectionModel
-from PySide6.QtWidgets import (QAbstractItemView, QLabel, QTableView, QVBoxLayout, QWidget)
+from PySide6.QtWidgets import QLabel, QVBoxLayout, QWidget
 
+from .tables import record_table, show_row
 from ..models.atom_table import AtomTableModel
 
 
@@ -16,17 +16,7 @@ class AtomContributionsView(QWidget):
         self.caption = QLabel("Select a residue pair in the map or the ledger.")
         self.caption.setObjectName("atomCaption")
         self.caption.setWordWrap(True)
-        self.table = QTableView(); self.table.setObjectName("atomTable")
-        self.table.setModel(self.model)
-        self.table.setSortingEnabled(True)
-        self.table.horizontalHeader().setSortIndicator(-1, Qt.SortOrder.AscendingOrder)
-        self.table.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
-        self.table.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
-        self.table.setAlternatingRowColors(True)
-        self.table.verticalHeader().setVisible(False)
-        self.table.verticalHeader().setDefaultSectionSize(22)
-        self.table.horizontalHeader().setStretchLastSection(True)
-        self.table.horizontalHeader().setResizeContentsPrecision(40)   # size columns from 40 rows
+        self.table = record_table("atomTable", self.model, size_from_rows=40)
         lay = QVBoxLayout(self); lay.setContentsMargins(2, 2, 2, 2)
         lay.addWidget(self.caption); lay.addWidget(self.table, 1)
         self.table.selectionModel().currentRowChanged.connect(self._on_row)
@@ -48,13 +38,6 @@ class AtomContributionsView(QWidget):
         row = self.model.row_of_atom_pair(pair)
         self._syncing = True
         try:
-            sm = self.table.selectionModel()
-            if row < 0:
-                sm.clearSelection()
-            else:
-                idx = self.model.index(row, 0)
-                sm.setCurrentIndex(idx, QItemSelectionModel.SelectionFlag.ClearAndSelect
-                                   | QItemSelectionModel.SelectionFlag.Rows)
-                self.table.scrollTo(idx)
+            show_row(self.table, row)
         finally:
             self._syncing = False

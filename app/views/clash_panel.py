@@ -7,28 +7,20 @@ selection, so the map, the ledger, the atom table and the distance profile all g
 from __future__ import annotations
 
 import numpy as np
-from PySide6.QtCore import QItemSelectionModel, Qt, QTimer, Signal
-from PySide6.QtWidgets import (QAbstractItemView, QCheckBox, QComboBox, QDoubleSpinBox, QHBoxLayout,
-                               QLabel, QSplitter, QTableView, QVBoxLayout, QWidget)
+from PySide6.QtCore import Qt, QTimer, Signal
+from PySide6.QtWidgets import (QCheckBox, QComboBox, QDoubleSpinBox, QHBoxLayout, QLabel,
+                               QSplitter, QTableView, QVBoxLayout, QWidget)
 
 from energy.clashes import DEFAULT_OVERLAP, ClashOptions, atom_label
 
+from .tables import record_table, show_row
 from ..models.array_table import ArrayTableModel, Column
 
 RADII = {"bondi": "Bondi (1964) by element", "forcefield": "Force field (pair Rmin)"}
 
 
 def _table(name: str) -> QTableView:
-    t = QTableView(); t.setObjectName(name)
-    t.setSortingEnabled(True)
-    t.horizontalHeader().setSortIndicator(-1, Qt.SortOrder.AscendingOrder)
-    t.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
-    t.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
-    t.setAlternatingRowColors(True)
-    t.verticalHeader().setVisible(False)
-    t.verticalHeader().setDefaultSectionSize(22)
-    t.horizontalHeader().setStretchLastSection(True)
-    return t
+    return record_table(name)
 
 
 class ClashCheckView(QWidget):
@@ -179,14 +171,7 @@ class ClashCheckView(QWidget):
         row = self.model.row_of(record)
         self._syncing = True
         try:
-            sm = self.table.selectionModel()
-            if row < 0:
-                sm.clearSelection()
-            else:
-                idx = self.model.index(row, 0)
-                sm.setCurrentIndex(idx, QItemSelectionModel.SelectionFlag.ClearAndSelect
-                                   | QItemSelectionModel.SelectionFlag.Rows)
-                self.table.scrollTo(idx)
+            show_row(self.table, row)
         finally:
             self._syncing = False
 

@@ -4,27 +4,18 @@ from __future__ import annotations
 
 import numpy as np
 from PySide6.QtCore import Qt, Signal
-from PySide6.QtWidgets import (QAbstractItemView, QHBoxLayout, QLabel, QPushButton, QSplitter,
-                               QTableView, QVBoxLayout, QWidget)
+from PySide6.QtWidgets import (QHBoxLayout, QLabel, QPushButton, QSplitter, QTableView, QVBoxLayout, QWidget)
 
 from energy.clashes import atom_label
 
+from .tables import record_table
 from ..models.array_table import ArrayTableModel, Column
 
 TOP_CLASHES = 10
 
 
 def _table(name: str) -> QTableView:
-    t = QTableView(); t.setObjectName(name)
-    t.setSortingEnabled(True)
-    t.horizontalHeader().setSortIndicator(-1, Qt.SortOrder.AscendingOrder)
-    t.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
-    t.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
-    t.setAlternatingRowColors(True)
-    t.verticalHeader().setVisible(False)
-    t.verticalHeader().setDefaultSectionSize(22)
-    t.horizontalHeader().setStretchLastSection(True)
-    return t
+    return record_table(name)
 
 
 class ModelComparisonView(QWidget):

@@ -4,8 +4,9 @@ from __future__ import annotations
 
 from PySide6.QtCore import QItemSelectionModel, Qt
 from PySide6.QtWidgets import (QAbstractItemView, QCheckBox, QComboBox, QHBoxLayout, QHeaderView,
-                               QLabel, QLineEdit, QTableView, QVBoxLayout, QWidget)
+                               QLabel, QLineEdit, QVBoxLayout, QWidget)
 
+from .tables import record_table
 from ..models.pair_table import PairTableModel
 
 ANY = ""
@@ -33,17 +34,8 @@ class PairLedgerView(QWidget):
         top.addWidget(self.chain_b); top.addWidget(self.hide_self); top.addStretch(1)
         top.addWidget(self.count)
 
-        self.table = QTableView(); self.table.setObjectName("ledgerTable")
-        self.table.setModel(self.model)
-        self.table.setSortingEnabled(True)
-        self.table.horizontalHeader().setSortIndicator(-1, Qt.SortOrder.AscendingOrder)
-        self.table.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
-        self.table.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
-        self.table.setAlternatingRowColors(True)
-        self.table.verticalHeader().setVisible(False)
-        self.table.verticalHeader().setDefaultSectionSize(22)
+        self.table = record_table("ledgerTable", self.model)
         self.table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.Interactive)
-        self.table.horizontalHeader().setStretchLastSection(True)
         self.table.horizontalHeader().setResizeContentsPrecision(40)   # size columns from 40 rows
         lay = QVBoxLayout(self); lay.setContentsMargins(0, 0, 0, 0); lay.setSpacing(2)
         lay.addLayout(top); lay.addWidget(self.table, 1)

@@ -11,8 +11,8 @@ import math
 import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import QPointF, QRectF, Qt, Signal
-from PySide6.QtGui import QColor, QCursor, QFont, QFontMetrics, QPen
-from PySide6.QtWidgets import (QComboBox, QHBoxLayout, QLabel, QToolTip, QVBoxLayout, QWidget)
+from PySide6.QtGui import QColor, QCursor, QFont, QFontMetrics
+from PySide6.QtWidgets import QComboBox, QHBoxLayout, QLabel, QToolTip, QVBoxLayout, QWidget
 
 from energy.system import TERMS
 

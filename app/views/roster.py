@@ -3,10 +3,10 @@
 from __future__ import annotations
 
 import numpy as np
-from PySide6.QtCore import Qt, QItemSelectionModel, Signal
-from PySide6.QtWidgets import (QAbstractItemView, QFormLayout, QHBoxLayout, QLabel, QLineEdit,
-                               QPushButton, QTableView, QVBoxLayout, QWidget)
+from PySide6.QtCore import QItemSelectionModel, Signal
+from PySide6.QtWidgets import (QFormLayout, QHBoxLayout, QLabel, QLineEdit, QPushButton, QVBoxLayout, QWidget)
 
+from .tables import record_table
 from ..models.array_table import ArrayTableModel, Column, format_energy
 
 
@@ -19,17 +19,7 @@ class ResidueRosterView(QWidget):
         self.model = ArrayTableModel(self)
         self._syncing = False
         self.dataset = None
-        self.table = QTableView(); self.table.setObjectName("rosterTable")
-        self.table.setModel(self.model)
-        self.table.setSortingEnabled(True)
-        self.table.horizontalHeader().setSortIndicator(-1, Qt.SortOrder.AscendingOrder)
-        self.table.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
-        self.table.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
-        self.table.setAlternatingRowColors(True)
-        self.table.verticalHeader().setVisible(False)
-        self.table.verticalHeader().setDefaultSectionSize(22)
-        self.table.horizontalHeader().setStretchLastSection(True)
-        self.table.horizontalHeader().setResizeContentsPrecision(40)   # size columns from 40 rows
+        self.table = record_table("rosterTable", self.model, size_from_rows=40)
         self.find = QLineEdit(); self.find.setPlaceholderText("Filter residues")
         self.find.setClearButtonEnabled(True)
 

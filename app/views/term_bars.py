@@ -6,7 +6,6 @@ import pyqtgraph as pg
 
 from energy.system import TERMS
 
-from ..models.array_table import format_energy
 
 SHORT = {"bond": "bond", "urey_bradley": "UB", "angle": "angle", "dihedral": "dihed",
          "improper": "impr", "cmap": "CMAP", "coulomb": "Coul", "lj": "LJ", "total": "total"}

@@ -95,7 +95,6 @@ def _residue_table(topology):
 
 def system_from_openmm(omm_system, topology, types=None, force_field="", source_files=()):
     """Convert an ``openmm.System`` + ``Topology`` into a :class:`MolecularSystem`."""
-    import openmm
     forces = {f.__class__.__name__: f for f in omm_system.getForces()}
     unknown = set(forces) - _KNOWN_FORCES
     if unknown:
