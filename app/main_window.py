@@ -4,10 +4,10 @@ from __future__ import annotations
 import os
 from pathlib import Path
 
-from PySide6.QtCore import QByteArray, Qt, QTimer, Signal
+from PySide6.QtCore import QByteArray, Qt, Signal
 from PySide6.QtGui import QAction, QKeySequence
-from PySide6.QtWidgets import (QApplication, QDockWidget, QFileDialog, QLabel, QMainWindow,
-                               QProgressBar, QPushButton, QToolBar)
+from PySide6.QtWidgets import (QDockWidget, QFileDialog, QLabel, QMainWindow, QProgressBar,
+                               QPushButton, QToolBar)
 
 from energy.compare import compare_results
 from energy.units import ENERGY_UNITS

@@ -16,7 +16,7 @@ from .document import Dataset
 from .trajectory_state import (FrameCache, PairSeriesStore, TrajectoryView, frame_snapshot,
                                is_trajectory_path, make_request, mean_pairs, pair_series_request,
                                series_from_result)
-from .workers import CallWorker, TrajectoryWorker, WorkerHandle
+from .workers import CallWorker, TrajectoryWorker
 
 
 class TrajectoryController(QObject):

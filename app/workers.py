@@ -18,6 +18,18 @@ from energy.pipeline import compute_steps
 from .document import LoadSpec, Snapshot
 
 
+
+
+def failure_message(exc: BaseException) -> tuple[str, str]:
+    """(one-line message, details) for the error dialog: expected failures (engine errors,
+    unreadable files) say what happened; anything else also carries its traceback."""
+    if isinstance(exc, EnergyError):
+        return str(exc), ""
+    if isinstance(exc, OSError):
+        name = getattr(exc, "filename", None)
+        return f"{name + ': ' if name else ''}{exc.strerror or exc}", ""
+    return f"unexpected error: {exc}", traceback.format_exc()
+
 class Cancelled(Exception):
     pass
 
@@ -131,13 +143,8 @@ class CallWorker(QObject):
     def run(self) -> None:
         try:
             self.finished.emit(self._func(*self._args))
-        except EnergyError as exc:
-            self.failed.emit(str(exc), "")
-        except OSError as exc:
-            name = getattr(exc, "filename", None)
-            self.failed.emit(f"{name + ': ' if name else ''}{exc.strerror or exc}", "")
-        except Exception as exc:
-            self.failed.emit(f"unexpected error: {exc}", traceback.format_exc())
+        except Exception as exc:  # noqa: BLE001  (every failure reaches the window as a message)
+            self.failed.emit(*failure_message(exc))
 
 
 class TrajectoryWorker(QObject):
@@ -179,10 +186,5 @@ class TrajectoryWorker(QObject):
                     self.finished.emit(stop.value)
                     return
                 self.progress.emit(int(done), int(total))
-        except EnergyError as exc:
-            self.failed.emit(str(exc), "")
-        except OSError as exc:
-            name = getattr(exc, "filename", None)
-            self.failed.emit(f"{name + ': ' if name else ''}{exc.strerror or exc}", "")
-        except Exception as exc:
-            self.failed.emit(f"unexpected error: {exc}", traceback.format_exc())
+        except Exception as exc:  # noqa: BLE001  (every failure reaches the window as a message)
+            self.failed.emit(*failure_message(exc))
