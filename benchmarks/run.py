@@ -13,7 +13,8 @@ For each benchmark system (:mod:`systems`) and setting, in this order:
    ``timings`` and ``totals`` are read from OUT; wall time and peak RSS (``ru_maxrss`` from
    ``os.wait4`` on that child alone) are measured here.
 
-The table goes to stdout, ``benchmarks/results/latest.md`` and ``benchmarks/results/latest.json``.
+The table goes to stdout, ``benchmarks/results/latest.md`` and ``benchmarks/results/latest.json``
+(``scaling.md``/``scaling.json`` for ``--scaling``).
 If ``benchmarks/gui_bench.py`` exists it is run last and its output included.
 """
 from __future__ import annotations
@@ -45,6 +46,8 @@ SETTINGS = {
 PLAN = {"water_5k": ["cutoff12-rf", "no-cutoff"], "water_25k": ["cutoff12-rf"],
         "water_100k": ["cutoff12-rf"]}
 REPEATS = {"water_5k": 5, "water_25k": 5, "water_100k": 3}
+#: `--scaling`: one cutoff setting on every size, one run each (time and memory against size).
+SCALING_SYSTEMS = ["water_5k", "water_10k", "water_25k", "water_50k", "water_100k", "water_250k"]
 QUICK_SYSTEMS = ["water_5k", "water_25k"]
 QUICK_REPEATS = 2
 OPENMM_THREADS = 2
@@ -424,11 +427,18 @@ def main(argv=None) -> int:
     p.add_argument("--quick", action="store_true",
                    help=f"only {', '.join(QUICK_SYSTEMS)}, {QUICK_REPEATS} repeats, no GUI benchmark")
     p.add_argument("--systems", nargs="+", choices=list(PLAN), help="systems to run (default: all)")
+    p.add_argument("--scaling", action="store_true",
+                   help="scaling table: 5k to 250k atoms, 12 A cutoff with reaction field, 1 run each")
     p.add_argument("--repeats", type=int, help="override N for every system")
     p.add_argument("--no-gui", action="store_true", help="skip benchmarks/gui_bench.py")
     args = p.parse_args(argv)
 
     names = args.systems or (QUICK_SYSTEMS if args.quick else list(PLAN))
+    if args.scaling:
+        names = SCALING_SYSTEMS
+        for name in names:
+            PLAN[name] = ["cutoff12-rf"]
+            REPEATS[name] = 1
     os.makedirs(os.path.join(RESULTS, "scan"), exist_ok=True)
     started = time.strftime("%Y-%m-%d %H:%M:%S")
     report = {"started": started, "machine": machine_info(),
@@ -495,9 +505,10 @@ def main(argv=None) -> int:
         report["gui_bench"] = run_gui_bench()
     report["finished"] = time.strftime("%Y-%m-%d %H:%M:%S")
     text = markdown(report)
-    with open(os.path.join(RESULTS, "latest.md"), "w") as fh:
+    stem = "scaling" if args.scaling else "latest"   # a scaling run keeps the main table
+    with open(os.path.join(RESULTS, f"{stem}.md"), "w") as fh:
         fh.write(text + "\n")
-    with open(os.path.join(RESULTS, "latest.json"), "w") as fh:
+    with open(os.path.join(RESULTS, f"{stem}.json"), "w") as fh:
         json.dump(report, fh, indent=1)
     print()
     print(text)

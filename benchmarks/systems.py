@@ -35,7 +35,8 @@ SEED = 20261201
 RECIPE = 1
 
 #: name -> target atom count.
-TARGETS = {"water_5k": 5_000, "water_25k": 25_000, "water_100k": 100_000}
+TARGETS = {"water_5k": 5_000, "water_10k": 10_000, "water_25k": 25_000, "water_50k": 50_000,
+           "water_100k": 100_000, "water_250k": 250_000}
 ATOMS_PER_A3 = 0.100  # TIP3P at ~1 g/cm^3: 3 atoms per 29.9 A^3
 TOLERANCE = 0.02  # accept a box within 2% of the target atom count
 
