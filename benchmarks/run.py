@@ -495,8 +495,11 @@ def main(argv=None) -> int:
 
     report["target"] = target_verdict(report["rows"], report["failures"])
     report["engine_end"] = engine_fingerprint()
-    if report["engine_end"] != report["engine_start"] or any(
-            r["engine_before"] != r["engine_after"] for r in report["rows"]):
+    # Compare the engine sources only: a commit elsewhere (docs, benchmarks) changes the git
+    # revision but not what was measured.
+    sha = lambda fp: fp.get("engine_sha256") if isinstance(fp, dict) else fp  # noqa: E731
+    if sha(report["engine_end"]) != sha(report["engine_start"]) or any(
+            sha(r["engine_before"]) != sha(r["engine_after"]) for r in report["rows"]):
         report["engine_changed"] = ("the engine sources (energy/) changed while the benchmark ran "
                                     f"({report['engine_start']['engine_sha256']} at the start, "
                                     f"{report['engine_end']['engine_sha256']} at the end): rows may "
