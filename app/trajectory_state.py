@@ -36,17 +36,7 @@ class ViewerTrajectorySource(TrajectorySource):
     parameterisation) that hands every frame's residue-pair table to ``sink(frame_index, rp)``."""
 
     def __init__(self, request: TrajectoryRequest, loaded, sink=None):
-        from energy.trajectory import open_trajectory
-        self.request = request
-        self.loaded = loaded
-        self.system = loaded.system
-        self.path = request.trajectory_path
-        self.universe = open_trajectory(self.path, self.system.n_atoms, self.system.names)
-        self.n_frames = len(self.universe.trajectory)
-        heavy = self.system.is_heavy
-        self._heavy_of = {r: np.flatnonzero((self.system.resindex == r) & heavy)
-                          for pair in request.pairs for r in pair}
-        self._sel_universe = None
+        super().__init__(request, loaded)
         self.sink = sink
 
     def evaluate(self, frame):

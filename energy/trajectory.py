@@ -32,7 +32,8 @@ from dataclasses import dataclass, field
 import numba
 import numpy as np
 
-from .errors import EnergyError, StructureFileError
+from .errors import EnergyError
+from .io.coordinates import frame_from_timestep
 from .settings import EnergySettings
 from .system import TERMS, Frame
 
@@ -149,12 +150,15 @@ def open_trajectory(path: str, n_atoms: int, names):
 class TrajectorySource:
     """The parameterised system and an open trajectory (one per process; not thread-safe)."""
 
-    def __init__(self, request: TrajectoryRequest):
+    def __init__(self, request: TrajectoryRequest, loaded=None):
+        """``loaded``: the system already loaded for ``request`` (a :class:`LoadedSystem`), or
+        None to load it here."""
         from .io.loaders import load_system
 
         self.request = request
-        loaded = load_system(request.structure, request.coords, request.params, frame=0,
-                             add_hydrogens=request.add_hydrogens)
+        if loaded is None:
+            loaded = load_system(request.structure, request.coords, request.params, frame=0,
+                                 add_hydrogens=request.add_hydrogens)
         self.loaded = loaded
         self.system = loaded.system
         self.path = request.trajectory_path
@@ -179,11 +183,7 @@ class TrajectorySource:
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")
                 ts = self.universe.trajectory[int(k)]
-            positions = np.array(ts.positions, dtype=np.float64)
-            if not np.all(np.isfinite(positions)):
-                raise StructureFileError(self.path, f"frame {k} holds non-finite coordinates")
-            box = None if ts.dimensions is None else np.array(ts.dimensions, dtype=np.float64)
-            yield Frame(positions=positions, box=box, index=int(k), source=self.path)
+            yield frame_from_timestep(ts, self.path, int(k))
 
     # -- one frame ------------------------------------------------------------------------
     def _pair_distances(self, frame: Frame, periodic: bool) -> np.ndarray:
