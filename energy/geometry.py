@@ -1,4 +1,5 @@
-"""Vector geometry on (n, 3) arrays: periodic minimum image, distances, angles, dihedrals.
+"""Vector geometry on (n, 3) arrays: distances, angles, dihedrals (minimum image in a unit cell
+from :mod:`energy.pbc`).
 
 All lengths in angstrom, angles in radians.  Dihedral angles follow the IUPAC convention
 (trans = 180 deg, range (-180, 180]) as in every common force field.
@@ -7,40 +8,7 @@ from __future__ import annotations
 
 import numpy as np
 
-
-def box_matrix(box) -> np.ndarray:
-    """Unit-cell vectors as rows of a (3, 3) matrix from ``[a, b, c, alpha, beta, gamma]``.
-
-    Standard crystallographic construction: a along x, b in the xy plane.
-    """
-    a, b, c = box[:3]
-    alpha, beta, gamma = np.radians(box[3:6])
-    ax = np.array([a, 0.0, 0.0])
-    bx = np.array([b * np.cos(gamma), b * np.sin(gamma), 0.0])
-    cx_ = c * np.cos(beta)
-    cy_ = c * (np.cos(alpha) - np.cos(beta) * np.cos(gamma)) / np.sin(gamma)
-    cz_ = np.sqrt(max(c * c - cx_ * cx_ - cy_ * cy_, 0.0))
-    m = np.array([ax, bx, [cx_, cy_, cz_]])
-    m[np.abs(m) < 1e-9] = 0.0
-    return m
-
-
-def minimum_image(d: np.ndarray, box) -> np.ndarray:
-    """Apply the minimum-image convention to displacement vectors ``d`` (n, 3).
-
-    ``box`` is ``None`` (returns ``d``) or ``[a, b, c, alpha, beta, gamma]``.  For triclinic cells
-    this is the fractional-coordinate rounding, exact for vectors shorter than half the smallest
-    cell width (bonded geometry always is).
-    """
-    if box is None:
-        return d
-    m = box_matrix(box)
-    if np.allclose(box[3:], 90.0):
-        lengths = np.diag(m)
-        return d - lengths * np.round(d / lengths)
-    frac = d @ np.linalg.inv(m)
-    frac -= np.round(frac)
-    return frac @ m
+from .pbc import minimum_image_vectors as minimum_image
 
 
 def _rowdot(a, b):

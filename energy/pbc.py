@@ -13,7 +13,23 @@ import numba
 import numpy as np
 
 from .errors import SettingsError
-from .geometry import box_matrix
+
+
+def box_matrix(box) -> np.ndarray:
+    """Unit-cell vectors as rows of a (3, 3) matrix from ``[a, b, c, alpha, beta, gamma]``.
+
+    Standard crystallographic construction: a along x, b in the xy plane.
+    """
+    a, b, c = box[:3]
+    alpha, beta, gamma = np.radians(box[3:6])
+    ax = np.array([a, 0.0, 0.0])
+    bx = np.array([b * np.cos(gamma), b * np.sin(gamma), 0.0])
+    cx_ = c * np.cos(beta)
+    cy_ = c * (np.cos(alpha) - np.cos(beta) * np.cos(gamma)) / np.sin(gamma)
+    cz_ = np.sqrt(max(c * c - cx_ * cx_ - cy_ * cy_, 0.0))
+    m = np.array([ax, bx, [cx_, cy_, cz_]])
+    m[np.abs(m) < 1e-9] = 0.0
+    return m
 
 
 def perpendicular_widths(h: np.ndarray) -> np.ndarray:

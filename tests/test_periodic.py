@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 from energy.cells import candidate_pairs_cells
-from energy.geometry import box_matrix
+from energy.pbc import box_matrix
 from energy.pipeline import compute
 from energy.settings import EnergySettings
 from energy.system import Frame
