@@ -119,7 +119,8 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
     t_bonded = time.perf_counter()
 
     # Ordinary nonbonded pairs, residue pair by residue pair.
-    res_atoms = ResidueAtoms.from_resindex(system.resindex, n_res)
+    res_atoms = system.derived("residue_atoms",
+                               lambda s: ResidueAtoms.from_resindex(s.resindex, s.n_residues))
     if settings.cutoff_angstrom is None:
         pair_i, pair_j, row_start = all_pairs_rows(n_res)
         centers, radii = np.zeros((n_res, 3)), np.zeros(n_res)
@@ -128,7 +129,8 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
         pair_i, pair_j, row_start = candidate_pairs_cells(centers, radii, settings.cutoff_angstrom,
                                                           h if periodic else None)
     has_excl = _exception_residue_flags(system, pair_j, row_start, n_res)
-    excl_ptr, excl_idx = exclusion_csr(system.exception_pairs, system.n_atoms)
+    excl_ptr, excl_idx = system.derived("exclusion_csr",
+                                        lambda s: exclusion_csr(s.exception_pairs, s.n_atoms))
     kc = KernelConstants.from_settings(settings)
     order = res_atoms.atoms
     identity = bool(np.array_equal(order, np.arange(system.n_atoms)))

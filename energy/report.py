@@ -8,7 +8,6 @@ from __future__ import annotations
 import csv
 import io
 import json
-import math
 import os
 import tempfile
 from contextlib import contextmanager
@@ -79,20 +78,6 @@ def pair_columns(result, include_zero: bool = False) -> dict:
     out["total"] = rp.total[rows]
     out["min_heavy_distance"] = rp.min_heavy_distance[rows]
     return out
-
-
-def pair_rows(result, include_zero: bool = False):
-    """Residue-pair rows as dicts (convenient for small systems; the writers stream columns)."""
-    cols = pair_columns(result, include_zero)
-    rows = []
-    for k in range(len(cols["i"])):
-        row = {"i": int(cols["i"][k]), "j": int(cols["j"][k])}
-        for t in (*TERMS, "total"):
-            row[t] = float(cols[t][k])
-        d = float(cols["min_heavy_distance"][k])
-        row["min_heavy_distance"] = d if math.isfinite(d) else None
-        rows.append(row)
-    return rows
 
 
 _PAIR_KEYS = ("i", "j", *TERMS, "total", "min_heavy_distance")

@@ -183,16 +183,22 @@ class MolecularSystem:
     def n_residues(self) -> int:
         return len(self.residues)
 
+    def derived(self, key: str, build):
+        """A value computed once from this (frozen) system by ``build(self)`` and kept: topology
+        data that every frame would otherwise rebuild (exclusion lists, atom order by residue)."""
+        cache = self.__dict__.setdefault("_derived", {})
+        if key not in cache:
+            cache[key] = build(self)
+        return cache[key]
+
     @property
     def is_heavy(self) -> np.ndarray:
         """(n_atoms,) bool: True for every atom that is not hydrogen (computed once)."""
-        cached = self.__dict__.get("_is_heavy")
-        if cached is None:
-            upper = np.char.upper(self.elements.astype(str))
-            cached = ~np.isin(upper, ["H", "D"])
-            cached.flags.writeable = False
-            object.__setattr__(self, "_is_heavy", cached)
-        return cached
+        def build(system):
+            heavy = ~np.isin(np.char.upper(system.elements.astype(str)), ["H", "D"])
+            heavy.flags.writeable = False
+            return heavy
+        return self.derived("is_heavy", build)
 
     def term_counts(self) -> dict[str, int]:
         return {"bonds": len(self.bonds), "urey_bradley": len(self.urey_bradley),
