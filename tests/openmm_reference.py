@@ -25,6 +25,16 @@ def _energy(system, positions_nm, groups=None, box=None):
     return ctx.getState(getEnergy=True, **kwargs).getPotentialEnergy().value_in_unit(KCAL)
 
 
+def zero_charges(nb: openmm.NonbondedForce) -> None:
+    """Set every charge and exception charge product of ``nb`` to zero (LJ alone remains)."""
+    for i in range(nb.getNumParticles()):
+        _, s, e = nb.getParticleParameters(i)
+        nb.setParticleParameters(i, 0.0, s, e)
+    for k in range(nb.getNumExceptions()):
+        i, j, _, s, e = nb.getExceptionParameters(k)
+        nb.setExceptionParameters(k, i, j, 0.0, s, e)
+
+
 def openmm_force_energies(system: openmm.System, positions_angstrom) -> dict:
     """Energy of each force class of ``system`` (kcal/mol); NonbondedForce split into
     ``coulomb`` and ``lj``.  ``positions_angstrom`` is (n, 3)."""
@@ -42,13 +52,7 @@ def openmm_force_energies(system: openmm.System, positions_angstrom) -> dict:
     nb_groups = [g for g, n in names.items() if n == "NonbondedForce"]
     if nb_groups:
         g = nb_groups[0]
-        nb = system.getForce(g)
-        for i in range(nb.getNumParticles()):
-            _, s, e = nb.getParticleParameters(i)
-            nb.setParticleParameters(i, 0.0, s, e)
-        for k in range(nb.getNumExceptions()):
-            i, j, _, s, e = nb.getExceptionParameters(k)
-            nb.setExceptionParameters(k, i, j, 0.0, s, e)
+        zero_charges(system.getForce(g))
         out["lj"] = _energy(system, pos, {g})
         out["coulomb"] = out["NonbondedForce"] - out["lj"]
     return out

@@ -32,6 +32,7 @@ from MDAnalysis.lib.distances import distance_array
 from openmm import app
 
 from energy.cli import build_parser, main
+from openmm_reference import zero_charges
 from energy.io.builtin import DEFAULT_FORCE_FIELD
 from energy.pipeline import compute
 from energy.system import TERMS, Frame
@@ -90,13 +91,7 @@ class OpenMMEnergies:
             force.setForceGroup(g)
             self.names[g] = force.__class__.__name__
         lj_system = copy.deepcopy(system)
-        nb_lj = next(f for f in lj_system.getForces() if isinstance(f, openmm.NonbondedForce))
-        for i in range(nb_lj.getNumParticles()):
-            _, sig, eps = nb_lj.getParticleParameters(i)
-            nb_lj.setParticleParameters(i, 0.0, sig, eps)
-        for k in range(nb_lj.getNumExceptions()):
-            i, j, _, sig, eps = nb_lj.getExceptionParameters(k)
-            nb_lj.setExceptionParameters(k, i, j, 0.0, sig, eps)
+        zero_charges(next(f for f in lj_system.getForces() if isinstance(f, openmm.NonbondedForce)))
         self.nb_group = next(g for g, n in self.names.items() if n == "NonbondedForce")
         platform = openmm.Platform.getPlatformByName("Reference")
         self.ctx = openmm.Context(system, openmm.VerletIntegrator(1.0), platform)
