@@ -113,9 +113,8 @@ def run_scan(args) -> int:
     if (args.select_a is None) != (args.select_b is None):
         raise EnergyError("give both --select-a and --select-b, or neither")
     settings = settings_from_args(args)
-    for out in (args.json,):
-        if out and not os.path.isdir(os.path.dirname(os.path.abspath(out))):
-            raise EnergyError(f"{out}: the output folder does not exist")
+    if args.json and not os.path.isdir(os.path.dirname(os.path.abspath(args.json))):
+        raise EnergyError(f"{args.json}: the output folder does not exist")
     from .warmup import prepare_kernels
     t0 = time.perf_counter()
     prepare_kernels(settings)
