@@ -80,6 +80,21 @@ def _exception_residue_flags(system, pair_j, row_start, n_res):
     return flags
 
 
+def _residue_atoms(system) -> ResidueAtoms:
+    return ResidueAtoms.from_resindex(system.resindex, system.n_residues)
+
+
+def _residue_ordered_atoms(system):
+    """Charges, LJ types and heavy-atom mask in residue order (the kernel's layout), and whether
+    that order is the file's own."""
+    order = system.derived("residue_atoms", _residue_atoms).atoms
+    identity = bool(np.array_equal(order, np.arange(system.n_atoms)))
+    if identity:
+        return system.charges, system.lj_type, system.is_heavy, True
+    return (np.ascontiguousarray(system.charges[order]), np.ascontiguousarray(system.lj_type[order]),
+            np.ascontiguousarray(system.is_heavy[order]), False)
+
+
 def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySettings | None = None):
     """Generator: yields ``(done, total)``, returns an :class:`EnergyResult`."""
     settings = settings or EnergySettings()
@@ -119,8 +134,7 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
     t_bonded = time.perf_counter()
 
     # Ordinary nonbonded pairs, residue pair by residue pair.
-    res_atoms = system.derived("residue_atoms",
-                               lambda s: ResidueAtoms.from_resindex(s.resindex, s.n_residues))
+    res_atoms = system.derived("residue_atoms", _residue_atoms)
     if settings.cutoff_angstrom is None:
         pair_i, pair_j, row_start = all_pairs_rows(n_res)
         centers, radii = np.zeros((n_res, 3)), np.zeros(n_res)
@@ -133,10 +147,8 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
                                         lambda s: exclusion_csr(s.exception_pairs, s.n_atoms))
     kc = KernelConstants.from_settings(settings)
     order = res_atoms.atoms
-    identity = bool(np.array_equal(order, np.arange(system.n_atoms)))
-    gather = (lambda a: a) if identity else (lambda a: np.ascontiguousarray(a[order]))  # noqa: E731
-    pos_r, q_r = gather(x), gather(system.charges)
-    t_r, heavy_r = gather(system.lj_type), gather(system.is_heavy)
+    q_r, t_r, heavy_r, identity = system.derived("residue_ordered_atoms", _residue_ordered_atoms)
+    pos_r = x if identity else np.ascontiguousarray(x[order])
     n_cand = len(pair_i)
     coul = np.zeros(n_cand); lj = np.zeros(n_cand)
     count = np.zeros(n_cand, np.int64); min_h2 = np.zeros(n_cand)
