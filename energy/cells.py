@@ -1,11 +1,14 @@
 """Cell-list search for residue pairs whose bounding spheres come within the cutoff (numba).
 
 Residue centres are binned into a grid of cells of side about ``(cutoff + 2 r_small) / 2``,
-where ``r_small`` is a typical (90th percentile) residue radius.  Each pair (I, J) is searched
-from the residue with the larger radius (ties: the lower index), over as many cell shells as
-that radius needs, so water-water pairs look at 27 cells only and large residues still see every
-partner.  The test is exact on the spheres: |c_I - c_J| < cutoff + r_I + r_J (minimum image in
-any periodic cell, orthorhombic or triclinic).  Output rows are sorted by (I, J), I <= J, and include every (I, I).
+where ``r_small`` is a typical (90th percentile) residue radius, and copied in cell order so the
+inner loop streams through memory.  Row I (the partners J > I of residue I) is owned by one
+thread: it visits the cells within ``cutoff + r_I + r_max`` and skips a cell when even its
+largest residue cannot reach (so water rows look at ~125 cells and a large residue's partners are
+never missed); inside a cell only residues J > I are read (a binary search, cells keep residue
+order).  The test is exact on the spheres: |c_I - c_J| < cutoff + r_I + r_J (minimum image in any
+periodic cell, orthorhombic or triclinic).  Two passes, count then fill, so the output is written
+once in place: rows sorted by (I, J), I <= J, every (I, I) included.
 """
 from __future__ import annotations
 
@@ -31,16 +34,6 @@ def _bin(idx, dims):
 
 
 @numba.njit(cache=True, inline="always")
-def _owns(i, j, radii):
-    # Pair (i, j) is searched from the residue with the larger radius; ties by lower index.
-    if radii[i] > radii[j]:
-        return True
-    if radii[i] < radii[j]:
-        return False
-    return i < j
-
-
-@numba.njit(cache=True, inline="always")
 def _close(i, j, centers, radii, cutoff, periodic, h, orthorhombic):
     dx = centers[j, 0] - centers[i, 0]
     dy = centers[j, 1] - centers[i, 1]
@@ -52,7 +45,7 @@ def _close(i, j, centers, radii, cutoff, periodic, h, orthorhombic):
 
 
 @numba.njit(cache=True, inline="always")
-def _axis_visits(center_cell, shells, n_cells, periodic):
+def _axis_visits(shells, n_cells, periodic):
     """How many cells to visit along one axis, and whether the whole (periodic) axis is covered."""
     if periodic and 2 * shells + 1 >= n_cells:
         return n_cells, True
@@ -61,118 +54,176 @@ def _axis_visits(center_cell, shells, n_cells, periodic):
 
 @numba.njit(cache=True, inline="always")
 def _axis_cell(k, center_cell, shells, n_cells, periodic, covered):
-    """k-th visited cell along an axis: (cell index or -1, lattice wraps, cell offset)."""
+    """k-th visited cell along an axis: (cell index or -1, lattice wraps, cell offset).
+
+    Without a full cover |offset| <= shells < n_cells / 2, so one wrap at most (no division)."""
     if covered:
         return k, 0, 0
     off = k - shells
     c = center_cell + off
     if periodic:
-        wraps = (c - (c % n_cells)) // n_cells
-        return c % n_cells, wraps, off
+        if c < 0:
+            return c + n_cells, -1, off
+        if c >= n_cells:
+            return c - n_cells, 1, off
+        return c, 0, off
     if c < 0 or c >= n_cells:
         return -1, 0, off
     return c, 0, off
 
 
-@numba.njit(parallel=True, cache=True)
-def _search(centers, radii, cutoff, periodic, h, orthorhombic, cell, dims, idx, order, start,
-            chunk_bounds, hist, cursor, out_j, fill):
-    """Count (``fill`` False: ``hist[chunk, row] += 1``) or write (``out_j[cursor[chunk, row]]``)
-    the pairs found, row = the lower residue index.  Chunks of residues run in parallel; each
-    chunk owns its counters, so the result is deterministic."""
-    for chunk in numba.prange(len(chunk_bounds) - 1):
-        for i in range(chunk_bounds[chunk], chunk_bounds[chunk + 1]):
-            reach = cutoff + 2.0 * radii[i]
-            sx_ = int(np.ceil(reach / cell[0]))
-            sy_ = int(np.ceil(reach / cell[1]))
-            sz_ = int(np.ceil(reach / cell[2]))
-            nx, cov_x = _axis_visits(idx[i, 0], sx_, dims[0], periodic)
-            ny, cov_y = _axis_visits(idx[i, 1], sy_, dims[1], periodic)
-            nz, cov_z = _axis_visits(idx[i, 2], sz_, dims[2], periodic)
-            ci0, ci1, ci2 = centers[i, 0], centers[i, 1], centers[i, 2]
-            for a in range(nx):
-                cx, wx, ox = _axis_cell(a, idx[i, 0], sx_, dims[0], periodic, cov_x)
-                if cx < 0:
+@numba.njit(cache=True, inline="always")
+def _first_above(values, lo, hi, i):
+    """First index in the sorted slice ``values[lo:hi]`` holding a value above ``i``."""
+    while lo < hi:
+        mid = (lo + hi) // 2
+        if values[mid] <= i:
+            lo = mid + 1
+        else:
+            hi = mid
+    return lo
+
+
+@numba.njit(cache=True)
+def _radix_sort(a, scratch, counts):
+    """Sort the non-negative integers ``a`` in place: LSD radix sort, 8 bits a pass, over the span
+    of the values only (rows of ~200 residue indices sort several times faster than quicksort).
+    ``scratch`` is at least as long as ``a``; ``counts`` has 256 slots."""
+    n = len(a)
+    if n < 2:
+        return
+    lo = a.min()
+    span = a.max() - lo
+    src = a
+    dst = scratch[:n]
+    shift = 0
+    while (span >> shift) > 0:
+        counts[:] = 0
+        for k in range(n):
+            counts[((src[k] - lo) >> shift) & 255] += 1
+        total = 0
+        for b in range(256):
+            c = counts[b]
+            counts[b] = total
+            total += c
+        for k in range(n):
+            d = ((src[k] - lo) >> shift) & 255
+            dst[counts[d]] = src[k]
+            counts[d] += 1
+        src, dst = dst, src
+        shift += 8
+    if (shift // 8) % 2 == 1:  # an odd number of passes left the result in scratch
+        a[:] = src
+
+
+@numba.njit(parallel=True, cache=True, error_model="numpy")
+def _search_rows(centers, radii, cutoff, periodic, h, orthorhombic, cell, dims, idx, start,
+                 cell_xyz, cell_radius, cell_residue, cell_max_radius, r_max, row_order, row_start,
+                 out_i, out_j, fill):
+    """Partners J > I of every residue I, row by row in parallel (each row owned by one thread).
+
+    Count pass (``fill`` False): returns the partner count of each row.  Fill pass: writes row I
+    into ``out_i``/``out_j[row_start[I]:row_start[I+1]]``, the diagonal first, then the partners
+    in increasing order.  ``cell_*`` arrays hold the residues in cell order (cell c is
+    ``start[c]:start[c+1]``, residue indices increasing), so the inner loop streams through memory.
+    """
+    n = len(radii)
+    counts = np.zeros(n if not fill else 0, np.int64)
+    for k in numba.prange(n):
+        i = row_order[k]
+        ri = radii[i]
+        reach_max = cutoff + ri + r_max
+        sx_ = int(np.ceil(reach_max / cell[0]))
+        sy_ = int(np.ceil(reach_max / cell[1]))
+        sz_ = int(np.ceil(reach_max / cell[2]))
+        nx, cov_x = _axis_visits(sx_, dims[0], periodic)
+        ny, cov_y = _axis_visits(sy_, dims[1], periodic)
+        nz, cov_z = _axis_visits(sz_, dims[2], periodic)
+        exact_shift = not (cov_x or cov_y or cov_z)
+        ci0, ci1, ci2 = centers[i, 0], centers[i, 1], centers[i, 2]
+        found = 0
+        pos = 0
+        if fill:  # row I is gathered in its own buffer (one slot of slack for the branch-free write)
+            row = np.empty(row_start[i + 1] - row_start[i] + 1, np.intp)
+            scratch = np.empty(len(row), np.intp)
+            radix_counts = np.empty(256, np.int64)
+            row[0] = i
+            pos = 1
+        for a in range(nx):
+            cx, wx, ox = _axis_cell(a, idx[i, 0], sx_, dims[0], periodic, cov_x)
+            if cx < 0:
+                continue
+            gx = max(0, abs(ox) - 1) * cell[0]
+            if gx > reach_max:
+                continue
+            for b in range(ny):
+                cy, wy, oy = _axis_cell(b, idx[i, 1], sy_, dims[1], periodic, cov_y)
+                if cy < 0:
                     continue
-                gx = max(0, abs(ox) - 1) * cell[0]
-                for b in range(ny):
-                    cy, wy, oy = _axis_cell(b, idx[i, 1], sy_, dims[1], periodic, cov_y)
-                    if cy < 0:
+                gy = max(0, abs(oy) - 1) * cell[1]
+                gxy2 = gx * gx + gy * gy if orthorhombic else max(gx * gx, gy * gy)
+                if gxy2 > reach_max * reach_max:
+                    continue
+                # z offsets whose gap can still be within reach: |oz| - 1 <= sqrt(left) / cell_z
+                e_lo, e_hi = 0, nz
+                if not cov_z:
+                    left = reach_max * reach_max - gxy2 if orthorhombic else reach_max * reach_max
+                    z_reach = min(sz_, 1 + int(np.sqrt(left) / cell[2]))
+                    e_lo, e_hi = sz_ - z_reach, sz_ + z_reach + 1
+                for e in range(e_lo, e_hi):
+                    cz, wz, oz = _axis_cell(e, idx[i, 2], sz_, dims[2], periodic, cov_z)
+                    if cz < 0:
                         continue
-                    gy = max(0, abs(oy) - 1) * cell[1]
-                    if (gx * gx + gy * gy if orthorhombic else max(gx * gx, gy * gy)) > reach * reach:
+                    c = (cx * dims[1] + cy) * dims[2] + cz
+                    # Lower bound of the distance to any point of this cell (per-axis gaps are
+                    # perpendicular distances; they add in quadrature only in orthorhombic cells).
+                    gz = max(0, abs(oz) - 1) * cell[2]
+                    gap2 = gxy2 + gz * gz if orthorhombic else max(gxy2, gz * gz)
+                    reach = cutoff + ri + cell_max_radius[c]
+                    if gap2 > reach * reach:
                         continue
-                    for e in range(nz):
-                        cz, wz, oz = _axis_cell(e, idx[i, 2], sz_, dims[2], periodic, cov_z)
-                        if cz < 0:
-                            continue
-                        gz = max(0, abs(oz) - 1) * cell[2]
-                        # Lower bound of the distance to any point of this cell (per-axis gaps are
-                        # perpendicular distances; they add in quadrature only in orthorhombic cells).
-                        gap2 = gx * gx + gy * gy + gz * gz if orthorhombic else max(gx * gx, max(gy * gy, gz * gz))
-                        if gap2 > reach * reach:
-                            continue
-                        c = (cx * dims[1] + cy) * dims[2] + cz
-                        exact_shift = not (cov_x or cov_y or cov_z)
-                        shx = wx * h[0, 0] + wy * h[1, 0] + wz * h[2, 0]
-                        shy = wy * h[1, 1] + wz * h[2, 1]
-                        shz = wz * h[2, 2]
-                        for s in range(start[c], start[c + 1]):
-                            j = order[s]
-                            if j == i or not _owns(i, j, radii):
-                                continue
-                            if exact_shift:
-                                # centres are wrapped into the cell; the visited cell's image shift is known
-                                dx = centers[j, 0] + shx - ci0
-                                dy = centers[j, 1] + shy - ci1
-                                dz = centers[j, 2] + shz - ci2
-                                lim = cutoff + radii[i] + radii[j]
-                                close = dx * dx + dy * dy + dz * dz < lim * lim
-                            else:
-                                close = _close(i, j, centers, radii, cutoff, periodic, h, orthorhombic)
-                            if close:
-                                row = min(i, j)
+                    hi = start[c + 1]
+                    lo = _first_above(cell_residue, start[c], hi, i)
+                    if lo >= hi:
+                        continue
+                    if exact_shift:
+                        # centres are wrapped into the cell; the visited cell's image shift is known
+                        shx = wx * h[0, 0] + wy * h[1, 0] + wz * h[2, 0] - ci0
+                        shy = wy * h[1, 1] + wz * h[2, 1] - ci1
+                        shz = wz * h[2, 2] - ci2
+                        base = cutoff + ri
+                        if fill:  # branch-free: write every candidate, advance on a hit
+                            for s in range(lo, hi):
+                                dx = cell_xyz[s, 0] + shx
+                                dy = cell_xyz[s, 1] + shy
+                                dz = cell_xyz[s, 2] + shz
+                                lim = base + cell_radius[s]
+                                row[pos] = cell_residue[s]
+                                pos += dx * dx + dy * dy + dz * dz < lim * lim
+                        else:
+                            for s in range(lo, hi):
+                                dx = cell_xyz[s, 0] + shx
+                                dy = cell_xyz[s, 1] + shy
+                                dz = cell_xyz[s, 2] + shz
+                                lim = base + cell_radius[s]
+                                found += dx * dx + dy * dy + dz * dz < lim * lim
+                    else:
+                        for s in range(lo, hi):
+                            if _close(i, cell_residue[s], centers, radii, cutoff, periodic, h,
+                                      orthorhombic):
                                 if fill:
-                                    out_j[cursor[chunk, row]] = max(i, j)
-                                    cursor[chunk, row] += 1
+                                    row[pos] = cell_residue[s]
+                                    pos += 1
                                 else:
-                                    hist[chunk, row] += 1
-
-
-@numba.njit(parallel=True, cache=True)
-def _row_offsets(hist):
-    """Per-chunk write cursors and row starts (one slot per row for the diagonal, first)."""
-    n_chunks, n = hist.shape
-    per_row = np.ones(n, np.int64)
-    for r in numba.prange(n):
-        for c in range(n_chunks):
-            per_row[r] += hist[c, r]
-    row_start = np.zeros(n + 1, np.int64)
-    for r in range(n):
-        row_start[r + 1] = row_start[r] + per_row[r]
-    cursor = np.empty((n_chunks, n), np.int64)
-    for r in numba.prange(n):
-        pos = row_start[r] + 1
-        for c in range(n_chunks):
-            cursor[c, r] = pos
-            pos += hist[c, r]
-    return row_start, cursor
-
-
-@numba.njit(parallel=True, cache=True)
-def _finish_rows(row_start, out_j):
-    """Row index of every pair; in each row of ``out_j`` the diagonal first, then the partners
-    in increasing order (sorted in place)."""
-    n = len(row_start) - 1
-    pair_i = np.empty(len(out_j), np.intp)
-    for r in numba.prange(n):
-        lo, hi = row_start[r], row_start[r + 1]
-        out_j[lo] = r
-        if hi - lo > 2:
-            out_j[lo + 1:hi] = np.sort(out_j[lo + 1:hi])
-        for a in range(lo, hi):
-            pair_i[a] = r
-    return pair_i
+                                    found += 1
+        if fill:
+            _radix_sort(row[1:pos], scratch, radix_counts)
+            first = row_start[i]
+            out_j[first:first + pos] = row[:pos]
+            out_i[first:first + pos] = i
+        else:
+            counts[i] = found
+    return counts
 
 
 def candidate_pairs_cells(centers, radii, cutoff: float, cell_matrix=None):
@@ -215,19 +266,32 @@ def candidate_pairs_cells(centers, radii, cutoff: float, cell_matrix=None):
         idx = np.minimum(((centers - lo) / cell).astype(np.int64), dims - 1)
     idx = np.ascontiguousarray(idx)
     order, start = _bin(idx, dims)
-    n_chunks = int(max(1, min(64, n, 20_000_000 // max(n, 1))))
-    chunk_bounds = np.linspace(0, n, n_chunks + 1).astype(np.int64)
-    hist = np.zeros((n_chunks, n), np.int64)
-    dummy = np.zeros((1, 1), np.int64)
-    out_dummy = np.zeros(1, np.intp)
-    _search(centers, radii, cutoff, periodic, h, orthorhombic, cell, dims, idx, order, start,
-            chunk_bounds, hist, dummy, out_dummy, False)
-    row_start, cursor = _row_offsets(hist)
-    del hist
-    out_j = np.empty(row_start[-1], np.intp)
-    _search(centers, radii, cutoff, periodic, h, orthorhombic, cell, dims, idx, order, start,
-            chunk_bounds, dummy, cursor, out_j, True)
-    return _finish_rows(row_start, out_j), out_j, row_start
+    cell_xyz = np.ascontiguousarray(centers[order])
+    cell_radius = np.ascontiguousarray(radii[order])
+    cell_residue = order.astype(np.intp)
+    flat = ((idx[:, 0] * dims[1] + idx[:, 1]) * dims[2] + idx[:, 2])
+    cell_max_radius = np.zeros(int(np.prod(dims)))
+    np.maximum.at(cell_max_radius, flat, radii)
+    r_max = float(radii.max())
+    args = (centers, radii, cutoff, periodic, h, orthorhombic, cell, dims, idx, start, cell_xyz,
+            cell_radius, cell_residue, cell_max_radius, r_max, interleaved_rows(0, n))
+    none = np.zeros(0, np.intp)
+    counts = _search_rows(*args, np.zeros(1, np.int64), none, none, False)
+    row_start = np.zeros(n + 1, np.int64)
+    np.cumsum(counts + 1, out=row_start[1:])
+    pair_i = np.empty(row_start[-1], np.intp)
+    pair_j = np.empty(row_start[-1], np.intp)
+    _search_rows(*args, row_start, pair_i, pair_j, True)
+    return pair_i, pair_j, row_start
+
+
+def interleaved_rows(lo: int, hi: int) -> np.ndarray:
+    """Rows lo..hi-1 dealt round-robin to the threads: numba's ``prange`` hands each thread one
+    contiguous stretch of the iteration space, and rows owning the pairs J > I grow shorter
+    along the index (linearly so without a cutoff), so contiguous stretches would not balance."""
+    threads = numba.get_num_threads()
+    rows = np.arange(lo, hi, dtype=np.intp)
+    return np.concatenate([rows[t::threads] for t in range(threads)]) if threads > 1 else rows
 
 
 def all_pairs_rows(n: int):

@@ -107,7 +107,7 @@ def run_scan(args) -> int:
             raise EnergyError(f"trajectory scans are not available: {exc}") from None
         return trajectory_cli.run(args)
     from .io.loaders import load_system
-    from .pipeline import compute
+    from .pipeline import compute, prepare_system
     from . import report
 
     if (args.select_a is None) != (args.select_b is None):
@@ -121,9 +121,12 @@ def run_scan(args) -> int:
     prepare_seconds = time.perf_counter() - t0
     loaded = load_system(args.structure, args.coords, args.params, frame=args.frame,
                          add_hydrogens=args.add_hydrogens)
+    t0 = time.perf_counter()
+    prepare_system(loaded.system)
+    prepare_system_seconds = time.perf_counter() - t0
     result = compute(loaded.system, loaded.frame, settings)
     selection = None
-    extra = {"prepare": prepare_seconds}
+    extra = {"prepare": prepare_seconds, "prepare_system": prepare_system_seconds}
     if args.select_a is not None:
         from .io.selection import select_atoms, universe_for
         from .pairs import interaction_energy
@@ -172,6 +175,8 @@ def run_view(files) -> int:
 
 
 def main(argv=None) -> int:
+    from .runtime import tune_memory
+    tune_memory()
     argv = list(sys.argv[1:] if argv is None else argv)
     if not argv or (argv[0] not in SUBCOMMANDS and not argv[0].startswith("-")):
         argv = ["view", *argv]

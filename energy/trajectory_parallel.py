@@ -43,6 +43,8 @@ _LOCK = threading.Lock()
 
 def _worker_init(numba_threads: int | None) -> None:
     signal.signal(signal.SIGINT, signal.SIG_IGN)
+    from .runtime import tune_memory
+    tune_memory()
     if numba_threads:
         try:
             import numba

@@ -55,6 +55,24 @@ def test_residue_pair_search_finds_every_pair_brute_force(name):
     assert found == expected
 
 
+def test_residue_pair_search_without_cell_finds_every_pair_brute_force():
+    # Non-periodic grid: clustered centres (two blobs far apart) and a few large radii, so rows
+    # reach over several cells and some cells stay empty.
+    rng = np.random.default_rng(12)
+    n = 150
+    centers = np.concatenate([rng.normal(0.0, 6.0, (n // 2, 3)), rng.normal(40.0, 6.0, (n - n // 2, 3))])
+    radii = rng.uniform(0.3, 1.5, n)
+    radii[rng.choice(n, 5, replace=False)] = 6.0
+    cutoff = 8.0
+    pair_i, pair_j, row_start = candidate_pairs_cells(centers, radii, cutoff)
+    found = set(zip(pair_i.tolist(), pair_j.tolist()))
+    assert np.array_equal(row_start, np.searchsorted(pair_i, np.arange(n + 1)))
+    d = np.linalg.norm(centers[:, None] - centers[None], axis=2)
+    lim = cutoff + radii[:, None] + radii[None]
+    expected = {(i, j) for i in range(n) for j in range(i, n) if i == j or d[i, j] < lim[i, j]}
+    assert found == expected
+
+
 @pytest.mark.parametrize("name", sorted(CELLS))
 def test_periodic_energies_match_brute_force_over_images(name):
     system, frame = random_system(np.random.default_rng(5), n_residues=10, box=30.0, n_exceptions=0)

@@ -13,8 +13,8 @@ Forms (docs/physics.md):
 Exception pairs (1-2, 1-3, 1-4) are skipped here and evaluated by :func:`exception_energies`
 with their own parameters, plain Coulomb and plain LJ, no cutoff.
 
-The kernel loops over candidate residue pairs in parallel (numba ``prange``); each residue pair
-owns its output slot, so no atom-pair array is ever materialised.
+The kernel (:func:`residue_rows_kernel`) runs over rows of residue pairs in parallel (numba
+``prange``); each pair owns its output slot, so no atom-pair array is ever materialised.
 """
 from __future__ import annotations
 
@@ -32,8 +32,14 @@ _MODES = {"plain": MODE_PLAIN, "reaction-field": MODE_REACTION_FIELD,
           "distance-dependent": MODE_DISTANCE_DEPENDENT, "shifted": MODE_SHIFTED}
 VDW_LJ, VDW_EXP6 = 0, 1
 
-# Layout of the constants array handed to the numba kernels.
-C_MODE, C_COULOMB, C_KRF, C_CRF, C_RC, C_SWITCH_ON, C_SWITCH_WIDTH, C_VDW, C_ALPHA, C_XTURN = range(10)
+# Layout of the constants array handed to the numba kernels.  Every Coulomb form above is
+#   k q_i q_j / eps * (W1/r + W2/r^2 + A1 r + A2 r^2 + C0)
+# with mode-dependent coefficients (plain: W1 = 1; reaction field: W1 = 1, A2 = k_rf, C0 = -c_rf;
+# distance-dependent: W2 = 1 with eps = D; shifted: W1 = 1, A1 = 1/r_c^2, C0 = -2/r_c), so one
+# branch-free expression serves every mode.  The switch runs t = (r - r_on) * INV_WIDTH clamped to
+# [0, 1], so INV_WIDTH = 0 means no switching.
+(C_COULOMB, C_W1, C_W2, C_A1, C_A2, C_C0, C_SWITCH_ON, C_SWITCH_INV_WIDTH, C_VDW, C_ALPHA,
+ C_XTURN) = range(11)
 
 
 def exp6_turnover(alpha: float) -> float:
@@ -62,43 +68,67 @@ class KernelConstants:
         if for_exceptions:
             mode = MODE_DISTANCE_DEPENDENT if mode == MODE_DISTANCE_DEPENDENT else MODE_PLAIN
             rc = None
-        k_rf = c_rf = 0.0
+        w1, w2, a1, a2, c0 = 1.0, 0.0, 0.0, 0.0, 0.0
         if mode == MODE_REACTION_FIELD:
             e_in, e_rf = s.dielectric, s.solvent_dielectric
             k_rf = (e_rf - e_in) / ((2.0 * e_rf + e_in) * rc ** 3)
-            c_rf = 1.0 / rc + k_rf * rc * rc
-        switch_on = 0.0 if for_exceptions else (s.switch_angstrom or 0.0)
-        switch_width = (rc - switch_on) if (s.switch_angstrom and not for_exceptions) else 0.0
+            a2, c0 = k_rf, -(1.0 / rc + k_rf * rc * rc)
+        elif mode == MODE_DISTANCE_DEPENDENT:
+            w1, w2 = 0.0, 1.0
+        elif mode == MODE_SHIFTED:
+            a1, c0 = 1.0 / (rc * rc), -2.0 / rc
+        switching = bool(s.switch_angstrom) and not for_exceptions
+        switch_on = s.switch_angstrom if switching else 0.0
+        inv_width = 1.0 / (rc - switch_on) if switching else 0.0
         vdw = VDW_EXP6 if s.vdw == "exp6" else VDW_LJ
         x_turn = exp6_turnover(s.exp6_alpha) if vdw == VDW_EXP6 else 0.0
-        values = np.array([mode, COULOMB_CONSTANT / s.dielectric, k_rf, c_rf,
-                           0.0 if rc is None else rc, switch_on, switch_width, vdw, s.exp6_alpha,
-                           x_turn], dtype=np.float64)
+        values = np.array([COULOMB_CONSTANT / s.dielectric, w1, w2, a1, a2, c0, switch_on,
+                           inv_width, vdw, s.exp6_alpha, x_turn], dtype=np.float64)
         return cls(values, np.inf if rc is None else rc * rc)
+
+
+@numba.njit(cache=True, inline="always")
+def _coulomb_form(qq, r, inv_r, r2, cf, w1, w2, a1, a2, c0):
+    """Coulomb energy (kcal/mol) of charge product ``qq`` at distance r: the one expression of
+    every electrostatics mode (coefficients as in the constants array)."""
+    return cf * qq * (w1 * inv_r + w2 * inv_r * inv_r + a1 * r + a2 * r2 + c0)
+
+
+@numba.njit(cache=True, inline="always")
+def _switch_form(r, on, inv_width):
+    """S(r) = 1 - 10t^3 + 15t^4 - 6t^5, t = (r - r_on)/(r_c - r_on) clamped to [0, 1]."""
+    t = min(max((r - on) * inv_width, 0.0), 1.0)
+    return 1.0 + t * t * t * (-10.0 + t * (15.0 - 6.0 * t))
+
+
+@numba.njit(cache=True, inline="always")
+def _coulomb(qq, r, inv_r, r2, c):
+    return _coulomb_form(qq, r, inv_r, r2, c[C_COULOMB], c[C_W1], c[C_W2], c[C_A1], c[C_A2], c[C_C0])
+
+
+@numba.njit(cache=True, inline="always")
+def _switch(r, c):
+    return _switch_form(r, c[C_SWITCH_ON], c[C_SWITCH_INV_WIDTH])
+
+
+@numba.njit(cache=True, inline="always")
+def _lennard_jones(r2, rmin, eps):
+    s2 = rmin * rmin / r2
+    s6 = s2 * s2 * s2
+    return eps * (s6 * s6 - 2.0 * s6)
 
 
 @numba.njit(cache=True, inline="always")
 def _pair_energy(r2, qq, rmin, eps, c):
     """Coulomb and vdW energy (kcal/mol) of one pair at squared distance r2 (A^2); ``c`` holds
-    the constants (indices C_*).  The single place where the pair forms are written."""
+    the constants (indices C_*).  The pair forms are :func:`_coulomb`, :func:`_lennard_jones`
+    (or exp-6) and :func:`_switch`; the vectorised row kernel uses the same three."""
     r = np.sqrt(r2)
-    mode = c[C_MODE]
-    cf = c[C_COULOMB]
-    if mode == MODE_PLAIN:
-        coul = cf * qq / r
-    elif mode == MODE_REACTION_FIELD:
-        coul = cf * qq * (1.0 / r + c[C_KRF] * r2 - c[C_CRF])
-    elif mode == MODE_DISTANCE_DEPENDENT:
-        coul = cf * qq / r2
-    else:  # shifted force: 1/r - 1/rc + (r - rc)/rc^2
-        rc = c[C_RC]
-        coul = cf * qq * (1.0 / r - 1.0 / rc + (r - rc) / (rc * rc))
+    coul = _coulomb(qq, r, 1.0 / r, r2, c)
     if eps == 0.0:
         vdw = 0.0
     elif c[C_VDW] == VDW_LJ:
-        s2 = rmin * rmin / r2
-        s6 = s2 * s2 * s2
-        vdw = eps * (s6 * s6 - 2.0 * s6)
+        vdw = _lennard_jones(r2, rmin, eps)
     else:
         alpha = c[C_ALPHA]
         x = r / rmin
@@ -107,14 +137,10 @@ def _pair_energy(r2, qq, rmin, eps, c):
         x6 = x * x * x
         x6 *= x6
         vdw = eps / (alpha - 6.0) * (6.0 * np.exp(alpha * (1.0 - x)) - alpha / x6)
-    width = c[C_SWITCH_WIDTH]
-    if width > 0.0 and r > c[C_SWITCH_ON]:
-        t = (r - c[C_SWITCH_ON]) / width
-        vdw *= 1.0 + t * t * t * (-10.0 + t * (15.0 - 6.0 * t))
-    return coul, vdw
+    return coul, vdw * _switch(r, c)
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, error_model="numpy")
 def pair_energies(r2, qq, rmin, eps, c):
     """Vectorised :func:`_pair_energy` over aligned arrays; returns (coulomb, vdw)."""
     n = len(r2)
@@ -134,68 +160,244 @@ def _is_excluded(a, b, excl_ptr, excl_idx):
     return False
 
 
-@numba.njit(parallel=True, cache=True)
-def residue_pair_kernel(pos, charges, lj_type, rmin_tab, eps_tab, is_heavy, atom_of,
-                        res_ptr, pair_i, pair_j, pair_has_excl, excl_ptr, excl_idx,
-                        centers, radii, h, orthorhombic, min_width, periodic, consts, cutoff2,
-                        out_coul, out_lj, out_count, out_min_heavy2):
-    """Sum Coulomb and LJ over every atom pair of each candidate residue pair (kcal/mol).
+@numba.njit(cache=True, inline="always")
+def _image_shift(ri, rj, centers, h, orthorhombic):
+    """Lattice vector that brings residue J next to residue I (from the residue centres)."""
+    ex = centers[rj, 0] - centers[ri, 0]
+    ey = centers[rj, 1] - centers[ri, 1]
+    ez = centers[rj, 2] - centers[ri, 2]
+    mx, my, mz = minimum_image(ex, ey, ez, h, orthorhombic)
+    return ex - mx, ey - my, ez - mz
 
-    Per-atom inputs (``pos``, ``charges``, ``lj_type``, ``is_heavy``) are in residue order:
-    the atoms of residue r are rows ``res_ptr[r]:res_ptr[r+1]``; ``atom_of`` maps a row back to
-    the system's atom index (for the exclusion lists).  In a periodic cell (box matrix ``h``,
-    smallest perpendicular width ``min_width``) the image of residue J is chosen once from the
-    residue centres when that is exact (the cell is wider than twice cutoff + r_I + r_J, so only
-    one image can hold atoms in range); otherwise each atom pair takes its own minimum image.
-    """
-    for p in numba.prange(len(pair_i)):
-        ri, rj = pair_i[p], pair_j[p]
-        check = pair_has_excl[p]
-        sx = sy = sz = 0.0
-        per_atom_image = False
-        if periodic:
-            if 2.0 * (np.sqrt(cutoff2) + radii[ri] + radii[rj]) < min_width:
-                ex = centers[rj, 0] - centers[ri, 0]
-                ey = centers[rj, 1] - centers[ri, 1]
-                ez = centers[rj, 2] - centers[ri, 2]
-                mx, my, mz = minimum_image(ex, ey, ez, h, orthorhombic)
-                sx, sy, sz = ex - mx, ey - my, ez - mz  # added to residue I's atoms
+
+@numba.njit(cache=True)
+def _residue_pair_scalar(ri, rj, check, per_atom_image, sx, sy, sz, pos, charges, lj_type,
+                         rmin_tab, eps_tab, is_heavy, atom_of, res_ptr, excl_ptr, excl_idx, h,
+                         orthorhombic, consts, cutoff2):
+    """One residue pair, atom pair by atom pair: (Coulomb, vdW, pairs in range, min heavy r^2).
+
+    Handles what the vectorised path does not: the pair (I, I), exclusion checks (``check``),
+    a separate minimum image per atom pair, and the exp-6 form.  Residue J is moved by
+    (sx, sy, sz) unless ``per_atom_image``."""
+    coul_sum = 0.0
+    lj_sum = 0.0
+    count = 0
+    min_h = np.inf
+    for ka in range(res_ptr[ri], res_ptr[ri + 1]):
+        xa = pos[ka, 0] + sx
+        ya = pos[ka, 1] + sy
+        za = pos[ka, 2] + sz
+        qa = charges[ka]
+        ta = lj_type[ka]
+        ha = is_heavy[ka]
+        start_b = ka + 1 if ri == rj else res_ptr[rj]
+        for kb in range(start_b, res_ptr[rj + 1]):
+            dx = pos[kb, 0] - xa
+            dy = pos[kb, 1] - ya
+            dz = pos[kb, 2] - za
+            if per_atom_image:
+                dx, dy, dz = minimum_image(dx, dy, dz, h, orthorhombic)
+            r2 = dx * dx + dy * dy + dz * dz
+            if ha and is_heavy[kb] and r2 < min_h:
+                min_h = r2
+            if r2 >= cutoff2:
+                continue
+            if check and _is_excluded(atom_of[ka], atom_of[kb], excl_ptr, excl_idx):
+                continue
+            tb = lj_type[kb]
+            c, l = _pair_energy(r2, qa * charges[kb], rmin_tab[ta, tb], eps_tab[ta, tb], consts)
+            coul_sum += c
+            lj_sum += l
+            count += 1
+    return coul_sum, lj_sum, count, min_h
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _block_loop(xa, ya, za, qa, heavy_a, with_lj, bx, by, bz, bq, bheavy, brmin, beps, consts,
+                cutoff2, acc_coul, acc_lj, acc_count, acc_heavy):
+    """One atom of residue I against the gathered block: branch-free (selects only), so that
+    the compiler emits SIMD code; ``with_lj`` False skips LJ for atom types with no well."""
+    cf, w1, w2 = consts[C_COULOMB], consts[C_W1], consts[C_W2]
+    a1, a2, c0 = consts[C_A1], consts[C_A2], consts[C_C0]
+    on, inv_width = consts[C_SWITCH_ON], consts[C_SWITCH_INV_WIDTH]
+    heavy = 1.0 if heavy_a else 0.0
+    if with_lj:
+        for b in range(len(bx)):
+            dx = bx[b] - xa
+            dy = by[b] - ya
+            dz = bz[b] - za
+            r2 = dx * dx + dy * dy + dz * dz
+            inside = r2 < cutoff2
+            r = np.sqrt(r2)
+            coul = _coulomb_form(qa * bq[b], r, 1.0 / r, r2, cf, w1, w2, a1, a2, c0)
+            eps = beps[b]
+            lj = _lennard_jones(r2, brmin[b], eps) * _switch_form(r, on, inv_width)
+            acc_coul[b] += coul if inside else 0.0
+            acc_lj[b] += lj if (inside and eps != 0.0) else 0.0
+            acc_count[b] += 1.0 if inside else 0.0
+            hr2 = r2 if heavy * bheavy[b] > 0.0 else np.inf
+            cur = acc_heavy[b]
+            acc_heavy[b] = hr2 if hr2 < cur else cur
+    else:
+        for b in range(len(bx)):
+            dx = bx[b] - xa
+            dy = by[b] - ya
+            dz = bz[b] - za
+            r2 = dx * dx + dy * dy + dz * dz
+            inside = r2 < cutoff2
+            r = np.sqrt(r2)
+            coul = _coulomb_form(qa * bq[b], r, 1.0 / r, r2, cf, w1, w2, a1, a2, c0)
+            acc_coul[b] += coul if inside else 0.0
+            acc_count[b] += 1.0 if inside else 0.0
+            hr2 = r2 if heavy * bheavy[b] > 0.0 else np.inf
+            cur = acc_heavy[b]
+            acc_heavy[b] = hr2 if hr2 < cur else cur
+
+
+@numba.njit(cache=True, error_model="numpy")
+def _rows_chunk(k_lo, k_hi, pos, charges, lj_type, rmin_tab, eps_tab, type_has_lj, is_heavy,
+                atom_of, res_ptr, rows, row_start, pair_j, pair_has_excl, excl_ptr, excl_idx,
+                centers, radii, h, orthorhombic, min_width, periodic, consts, cutoff2, vectorised,
+                out_coul, out_lj, out_count, out_min_heavy2):
+    """Rows ``rows[k_lo:k_hi]`` on one thread (a separate function, so that its work arrays are
+    private to the calling thread)."""
+    cutoff = np.sqrt(cutoff2)
+    # Work arrays of this chunk of rows, grown on demand: block atoms (x, y, z, charge,
+    # heavy flag, LJ Rmin and depth against the current atom type) and per-atom sums.
+    cap_atoms, cap_partners = 1024, 256
+    work = np.empty((11, cap_atoms))
+    types = np.empty(cap_atoms, lj_type.dtype)
+    scalar = np.empty(cap_partners, np.bool_)
+    shifts = np.zeros((cap_partners, 3))
+    for k in range(k_lo, k_hi):
+        ri = rows[k]
+        p0, p1 = row_start[ri], row_start[ri + 1]
+        n_partners = p1 - p0
+        if n_partners > cap_partners:
+            cap_partners = 2 * n_partners
+            scalar = np.empty(cap_partners, np.bool_)
+            shifts = np.zeros((cap_partners, 3))
+        n_block = 0
+        for q in range(n_partners):
+            p = p0 + q
+            rj = pair_j[p]
+            per_atom = periodic and not (2.0 * (cutoff + radii[ri] + radii[rj]) < min_width)
+            scalar[q] = (not vectorised) or rj == ri or pair_has_excl[p] or per_atom
+            if periodic and not per_atom:
+                shifts[q, 0], shifts[q, 1], shifts[q, 2] = _image_shift(ri, rj, centers, h,
+                                                                        orthorhombic)
             else:
-                per_atom_image = True
-        coul_sum = 0.0
-        lj_sum = 0.0
-        count = 0
-        min_h = np.inf
+                shifts[q, 0] = shifts[q, 1] = shifts[q, 2] = 0.0
+            if scalar[q]:
+                c, l, n, m = _residue_pair_scalar(ri, rj, pair_has_excl[p], per_atom,
+                                                  shifts[q, 0], shifts[q, 1], shifts[q, 2],
+                                                  pos, charges, lj_type, rmin_tab, eps_tab,
+                                                  is_heavy, atom_of, res_ptr, excl_ptr,
+                                                  excl_idx, h, orthorhombic, consts, cutoff2)
+                out_coul[p] = c
+                out_lj[p] = l
+                out_count[p] = n
+                out_min_heavy2[p] = m
+            else:
+                n_block += res_ptr[rj + 1] - res_ptr[rj]
+        if n_block == 0:
+            continue
+        if n_block > cap_atoms:
+            cap_atoms = 2 * n_block
+            work = np.empty((11, cap_atoms))
+            types = np.empty(cap_atoms, lj_type.dtype)
+        bx, by, bz = work[0, :n_block], work[1, :n_block], work[2, :n_block]
+        bq, bheavy = work[3, :n_block], work[4, :n_block]
+        brmin, beps = work[5, :n_block], work[6, :n_block]
+        acc_coul, acc_lj = work[7, :n_block], work[8, :n_block]
+        acc_count, acc_heavy = work[9, :n_block], work[10, :n_block]
+        bt = types[:n_block]
+        # Gather the partners' atoms, moved into residue I's frame (minus the image shift).
+        m = 0
+        for q in range(n_partners):
+            if scalar[q]:
+                continue
+            rj = pair_j[p0 + q]
+            for kb in range(res_ptr[rj], res_ptr[rj + 1]):
+                bx[m] = pos[kb, 0] - shifts[q, 0]
+                by[m] = pos[kb, 1] - shifts[q, 1]
+                bz[m] = pos[kb, 2] - shifts[q, 2]
+                bq[m] = charges[kb]
+                bt[m] = lj_type[kb]
+                bheavy[m] = 1.0 if is_heavy[kb] else 0.0
+                m += 1
+        acc_coul[:] = 0.0
+        acc_lj[:] = 0.0
+        acc_count[:] = 0.0
+        acc_heavy[:] = np.inf
+        last_type = -1
         for ka in range(res_ptr[ri], res_ptr[ri + 1]):
-            xa = pos[ka, 0] + sx
-            ya = pos[ka, 1] + sy
-            za = pos[ka, 2] + sz
-            qa = charges[ka]
             ta = lj_type[ka]
-            ha = is_heavy[ka]
-            start_b = ka + 1 if ri == rj else res_ptr[rj]
-            for kb in range(start_b, res_ptr[rj + 1]):
-                dx = pos[kb, 0] - xa
-                dy = pos[kb, 1] - ya
-                dz = pos[kb, 2] - za
-                if per_atom_image:
-                    dx, dy, dz = minimum_image(dx, dy, dz, h, orthorhombic)
-                r2 = dx * dx + dy * dy + dz * dz
-                if ha and is_heavy[kb] and r2 < min_h:
-                    min_h = r2
-                if r2 >= cutoff2:
-                    continue
-                if check and _is_excluded(atom_of[ka], atom_of[kb], excl_ptr, excl_idx):
-                    continue
-                tb = lj_type[kb]
-                c, l = _pair_energy(r2, qa * charges[kb], rmin_tab[ta, tb], eps_tab[ta, tb], consts)
-                coul_sum += c
-                lj_sum += l
-                count += 1
-        out_coul[p] = coul_sum
-        out_lj[p] = lj_sum
-        out_count[p] = count
-        out_min_heavy2[p] = min_h
+            if ta != last_type:  # LJ parameters of this type against the block, gathered once
+                for b in range(n_block):
+                    brmin[b] = rmin_tab[ta, bt[b]]
+                    beps[b] = eps_tab[ta, bt[b]]
+                last_type = ta
+            _block_loop(pos[ka, 0], pos[ka, 1], pos[ka, 2], charges[ka], is_heavy[ka],
+                        type_has_lj[ta], bx, by, bz, bq, bheavy, brmin, beps, consts,
+                        cutoff2, acc_coul, acc_lj, acc_count, acc_heavy)
+        # Sums per partner (its atoms are consecutive in the block).
+        m = 0
+        for q in range(n_partners):
+            if scalar[q]:
+                continue
+            rj = pair_j[p0 + q]
+            size = res_ptr[rj + 1] - res_ptr[rj]
+            c = 0.0
+            l = 0.0
+            n = 0.0
+            mh = np.inf
+            for b in range(m, m + size):
+                c += acc_coul[b]
+                l += acc_lj[b]
+                n += acc_count[b]
+                mh = min(mh, acc_heavy[b])
+            m += size
+            p = p0 + q
+            out_coul[p] = c
+            out_lj[p] = l
+            out_count[p] = int(n)
+            out_min_heavy2[p] = mh
+
+
+@numba.njit(parallel=True, cache=True, error_model="numpy")
+def residue_rows_kernel(pos, charges, lj_type, rmin_tab, eps_tab, type_has_lj, is_heavy, atom_of,
+                        res_ptr, rows, row_start, pair_j, pair_has_excl, excl_ptr, excl_idx,
+                        centers, radii, h, orthorhombic, min_width, periodic, consts, cutoff2,
+                        vectorised, out_coul, out_lj, out_count, out_min_heavy2):
+    """Sum Coulomb and LJ over every atom pair of each residue pair of the given CSR rows.
+
+    Row I holds the residue pairs ``row_start[I]:row_start[I+1]`` (partners ``pair_j``, the
+    first being (I, I)); results go to ``out_*[p]`` of each pair p (kcal/mol; count of atom pairs
+    in range; smallest heavy-atom r^2 examined).  Rows run in parallel (numba ``prange``), each
+    owned by one thread, so no atom-pair array is ever materialised.
+
+    Per-atom inputs (``pos``, ``charges``, ``lj_type``, ``is_heavy``) are in residue order: the
+    atoms of residue r are ``res_ptr[r]:res_ptr[r+1]``; ``atom_of`` maps back to the system's
+    atom index (for the exclusion lists).  In a periodic cell (box matrix ``h``, smallest
+    perpendicular width ``min_width``) residue J takes one image, chosen from the residue centres,
+    when the cell is wider than twice cutoff + r_I + r_J (then only one image can hold atoms in
+    range); otherwise each atom pair takes its own minimum image.
+
+    ``type_has_lj[t]``: atom type t has a nonzero well depth with some type.
+    ``vectorised`` (Lennard-Jones only): the partners that need no exclusion check and take one
+    image have their atoms gathered, shifted, into one contiguous block, and each atom of I runs
+    a branch-free loop over that block that the compiler turns into SIMD code; sums per partner
+    follow.  Everything else (and everything when ``vectorised`` is False) goes through
+    :func:`_residue_pair_scalar`.  Both use the same pair forms.
+    """
+    n_chunks = min(len(rows), 64)
+    for chunk in numba.prange(n_chunks):
+        _rows_chunk(chunk * len(rows) // n_chunks, (chunk + 1) * len(rows) // n_chunks, pos,
+                    charges, lj_type, rmin_tab, eps_tab, type_has_lj, is_heavy, atom_of, res_ptr,
+                    rows, row_start, pair_j, pair_has_excl, excl_ptr, excl_idx, centers, radii, h,
+                    orthorhombic, min_width, periodic, consts, cutoff2, vectorised, out_coul,
+                    out_lj, out_count, out_min_heavy2)
 
 
 def exclusion_csr(exception_pairs: np.ndarray, n_atoms: int):
