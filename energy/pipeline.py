@@ -11,7 +11,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .cells import all_pairs_rows, candidate_pairs_cells, interleaved_rows, locate_pairs
+from .cells import all_pairs_rows, candidate_pairs_cells, locate_pairs
 from .decompose import ResiduePairEnergies, assemble, sorted_unique, split_over_residue_pairs
 from .errors import InputMismatchError
 from .neighbors import ResidueAtoms, residue_spheres
@@ -19,8 +19,8 @@ from .pbc import is_orthorhombic, perpendicular_widths, periodic_cell
 from .settings import EnergySettings
 from .system import BONDED_TERMS, TERMS, Frame, MolecularSystem
 from .terms import bonded, cmap
-from .terms.nonbonded import (KernelConstants, exception_energies, exclusion_csr,
-                              residue_rows_kernel)
+from . import residue_rows
+from .terms.nonbonded import KernelConstants, exception_energies, exclusion_csr
 
 #: Bonded term name -> (system attribute, energy function).
 BONDED_TABLES = {
@@ -36,8 +36,6 @@ BONDED_TABLES = {
 #: residue pair through the atom-pair-by-atom-pair path (tests compare the two).
 VECTORISED_KERNEL = True
 
-#: Residue pairs evaluated per kernel call (about; whole rows per call), a progress step.
-KERNEL_BLOCK = 2_000_000
 
 
 @dataclass(frozen=True)
@@ -57,6 +55,9 @@ class EnergyResult:
     timings: dict = field(default_factory=dict)
     periodic: bool = False
     n_atom_pairs: int = 0
+    #: Without a cutoff on a large system (energy.residue_rows): residue pairs too small to list,
+    #: ``n_pairs``, their ``coulomb`` and ``lj`` sums and the threshold ``below``; None otherwise.
+    unlisted: dict | None = None
 
 
 def _validate_frame(system: MolecularSystem, frame: Frame):
@@ -162,44 +163,38 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
 
     # Ordinary nonbonded pairs, residue pair by residue pair.
     res_atoms = system.derived("residue_atoms", _residue_atoms)
+    q_r, t_r, heavy_r, identity = system.derived("residue_ordered_atoms", _residue_ordered_atoms)
+    excl_ptr, excl_idx = system.derived("exclusion_csr", _exclusions)
+    kc = KernelConstants.from_settings(settings)
+    blocked = (settings.cutoff_angstrom is None
+               and n_res * (n_res + 1) // 2 > residue_rows.ALL_PAIRS_LISTED_LIMIT)
     if settings.cutoff_angstrom is None:
-        pair_i, pair_j, row_start = all_pairs_rows(n_res)
         centers, radii = np.zeros((n_res, 3)), np.zeros(n_res)
+        if not blocked:
+            pair_i, pair_j, row_start = all_pairs_rows(n_res)
     else:
         centers, radii = residue_spheres(x, res_atoms, system.resindex, box if periodic else None)
         pair_i, pair_j, row_start = candidate_pairs_cells(centers, radii, settings.cutoff_angstrom,
                                                           h if periodic else None)
-    has_excl = _exception_residue_flags(system, pair_j, row_start)
-    excl_ptr, excl_idx = system.derived("exclusion_csr", _exclusions)
-    kc = KernelConstants.from_settings(settings)
-    order = res_atoms.atoms
-    q_r, t_r, heavy_r, identity = system.derived("residue_ordered_atoms", _residue_ordered_atoms)
-    pos_r = x if identity else np.ascontiguousarray(x[order])
-    n_cand = len(pair_i)
-    coul = np.zeros(n_cand); lj = np.zeros(n_cand)
-    count = np.zeros(n_cand, np.int64); min_h2 = np.zeros(n_cand)
+    inputs = residue_rows.KernelInputs(
+        x if identity else np.ascontiguousarray(x[res_atoms.atoms]), q_r, t_r, system.lj_rmin,
+        system.lj_eps, heavy_r, res_atoms.atoms, res_atoms.ptr, excl_ptr, excl_idx, centers, radii,
+        h, orthorhombic, min_width, periodic, kc.values, kc.cutoff2,
+        VECTORISED_KERNEL and settings.vdw == "lj")
     t_search = time.perf_counter()
-    yield 0, n_cand
-    # Blocks of whole rows holding about KERNEL_BLOCK pairs each.
-    cuts = np.unique(np.searchsorted(row_start, np.arange(0, n_cand, KERNEL_BLOCK), side="right") - 1)
-    bounds = list(cuts[cuts > 0]) + [n_res]
-    first_row = 0
-    for last_row in bounds:
-        residue_rows_kernel(pos_r, q_r, t_r, system.lj_rmin, system.lj_eps,
-                            np.any(system.lj_eps != 0.0, axis=1), heavy_r, order,
-                            res_atoms.ptr, interleaved_rows(first_row, last_row), row_start,
-                            pair_j, has_excl, excl_ptr, excl_idx, centers, radii, h, orthorhombic,
-                            min_width, periodic, kc.values, kc.cutoff2,
-                            VECTORISED_KERNEL and settings.vdw == "lj",
-                            coul, lj, count, min_h2)
-        first_row = last_row
-        yield int(row_start[last_row]), n_cand
-    totals["coulomb"] += float(coul.sum())
-    totals["lj"] += float(lj.sum())
+    if blocked:
+        rows = yield from residue_rows.evaluate_all_pairs_in_blocks(
+            inputs, n_res, system.derived("exception_residue_keys", _exception_residue_keys))
+    else:
+        rows = yield from residue_rows.evaluate_listed(
+            inputs, pair_i, pair_j, row_start, _exception_residue_flags(system, pair_j, row_start))
+    totals["coulomb"] += rows.coulomb_total
+    totals["lj"] += rows.lj_total
     t_kernel = time.perf_counter()
 
-    residue_pairs = assemble(n_res, pair_i, pair_j, row_start, {"coulomb": coul, "lj": lj},
-                             np.sqrt(min_h2), count > 0, contributions)
+    residue_pairs = assemble(n_res, rows.pair_i, rows.pair_j, rows.row_start,
+                             {"coulomb": rows.coulomb, "lj": rows.lj}, np.sqrt(rows.min_heavy2),
+                             rows.count > 0, contributions)
     totals["total"] = float(sum(totals[t] for t in TERMS))
     t_end = time.perf_counter()
     timings = {"bonded": t_bonded - t0, "neighbour_search": t_search - t_bonded,
@@ -207,7 +202,7 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
                "compute": t_end - t0}
     return EnergyResult(settings=settings, totals=totals, interactions=interactions,
                         residue_pairs=residue_pairs, timings=timings, periodic=periodic,
-                        n_atom_pairs=int(count.sum()))
+                        n_atom_pairs=rows.n_atom_pairs, unlisted=rows.unlisted)
 
 
 def compute(system: MolecularSystem, frame: Frame, settings: EnergySettings | None = None,

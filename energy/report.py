@@ -120,6 +120,7 @@ def scan_document(loaded, result, selection=None, extra_timings=None) -> dict:
         "settings": {**result.settings.as_dict(), "periodic": result.periodic},
         "totals": {k: float(result.totals[k]) for k in (*TERMS, "total")},
         "n_atom_pairs_within_cutoff": result.n_atom_pairs,
+        "unlisted_pairs": result.unlisted,
         "residues": residue_records(system),
         "pairs": _PAIRS_PLACEHOLDER,
         "timings": timings,
@@ -216,6 +217,11 @@ def summary_text(loaded, result, top: int = 8, selection=None) -> str:
         lines += ["", f"interaction {selection['a']!r} vs {selection['b']!r}: "
                   f"Coulomb {selection['coulomb']:.4f}, LJ {selection['lj']:.4f}, "
                   f"total {selection['total']:.4f} kcal/mol ({selection['n_pairs']} atom pairs)"]
+    if result.unlisted:
+        u = result.unlisted
+        lines += ["", f"{u['n_pairs']:,} residue pairs below {u['below']:g} kcal/mol are not listed "
+                  f"(no cutoff, large system); they add Coulomb {u['coulomb']:.4f} and LJ "
+                  f"{u['lj']:.4f} kcal/mol, included in the totals"]
     lines += ["", "timings (s): " + ", ".join(f"{k} {v:.3f}" for k, v in
                                            {**loaded.timings, "compute": result.timings['compute']}.items())]
     return "\n".join(lines)

@@ -48,3 +48,37 @@ def test_simd_path_matches_atom_pair_path(name, periodic, monkeypatch):
     np.testing.assert_allclose(fast.residue_pairs.min_heavy_distance,
                                plain.residue_pairs.min_heavy_distance, rtol=1e-14)
     assert fast.n_atom_pairs == plain.n_atom_pairs
+
+
+def test_all_pairs_in_blocks_keeps_totals_and_lists_every_large_pair(monkeypatch):
+    # Block mode (no cutoff, large system) made to trigger on a small invented system.
+    from energy import residue_rows
+    from energy.errors import SettingsError
+    system, frame = random_system(np.random.default_rng(7), n_residues=60, atoms_per_residue=(1, 6),
+                                  box=60.0, n_exceptions=30)
+    listed = compute(system, frame, EnergySettings())
+    monkeypatch.setattr(residue_rows, "ALL_PAIRS_LISTED_LIMIT", 10)
+    monkeypatch.setattr(residue_rows, "BLOCK_PAIRS", 97)      # many blocks, rows split unevenly
+    monkeypatch.setattr(residue_rows, "UNLISTED_BELOW", 0.05)
+    blocked = compute(system, frame, EnergySettings())
+    for term in ("coulomb", "lj", "total"):
+        assert blocked.totals[term] == pytest.approx(listed.totals[term], rel=1e-12, abs=1e-10)
+    assert blocked.n_atom_pairs == listed.n_atom_pairs
+    a, b = listed.residue_pairs, blocked.residue_pairs
+    key_a = a.pair_i.astype(np.int64) * a.n_residues + a.pair_j
+    key_b = b.pair_i.astype(np.int64) * b.n_residues + b.pair_j
+    assert np.all(np.diff(key_b) > 0)                          # still sorted CSR order
+    kept = np.isin(key_a, key_b)
+    nonbonded = np.abs(a.values["coulomb"]) + np.abs(a.values["lj"])
+    # every pair at or above the threshold (and every diagonal entry) is listed ...
+    assert np.all(kept[(nonbonded >= 0.05) | (a.pair_i == a.pair_j)])
+    # ... with the same numbers, and what is left out adds up to the unlisted sums
+    for term in ("coulomb", "lj"):
+        np.testing.assert_allclose(b.values[term], a.values[term][kept], rtol=1e-12, atol=1e-12)
+        assert blocked.unlisted[term] == pytest.approx(a.values[term][~kept].sum(), abs=1e-9)
+    assert blocked.unlisted["n_pairs"] == int((~kept).sum()) > 0
+    assert listed.unlisted is None
+
+    monkeypatch.setattr(residue_rows, "MAX_LISTED_PAIRS", 100)
+    with pytest.raises(SettingsError, match="set a cutoff"):
+        compute(system, frame, EnergySettings())
