@@ -98,7 +98,16 @@ def bench_map(repeats=7, clicks=40):
         click.append((time.perf_counter() - t0) * 1e3)
         assert view.cursor() == (row, col), (view.cursor(), row, col)
     split.close()
+    _dispose(split)
     return render, click, len(ds.pairs)
+
+
+def _dispose(widget) -> None:
+    """Delete a top-level widget now, while the QApplication is alive: left to the interpreter's
+    exit, PySide6 and pyqtgraph objects are destroyed after the application and can crash."""
+    widget.deleteLater()
+    QApplication.sendPostedEvents(None, 0)  # 0 = QEvent.DeferredDelete handled here
+    QApplication.processEvents()
 
 
 def bench_scenario(runs=3):
@@ -115,6 +124,7 @@ def bench_scenario(runs=3):
         out.append(time.perf_counter() - t0)
         assert w.dataset is not None
         w.close()
+        _dispose(w)
     return out
 
 
