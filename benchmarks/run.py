@@ -51,8 +51,8 @@ SCALING_SYSTEMS = ["water_5k", "water_10k", "water_25k", "water_50k", "water_100
 QUICK_SYSTEMS = ["water_5k", "water_25k"]
 QUICK_REPEATS = 2
 OPENMM_THREADS = 2
-#: Target of the current issue.
-TARGET = {"system": "water_100k", "setting": "cutoff12-rf", "max_ratio": 10.0, "max_rss_mib": 4096.0}
+#: Target of the speed issue: compute within 2x of OpenMM's energy call, peak memory under 2 GB.
+TARGET = {"system": "water_100k", "setting": "cutoff12-rf", "max_ratio": 2.0, "max_rss_mib": 2048.0}
 #: Relative disagreement of total energies that counts as a finding.
 ENERGY_RTOL = 1e-4
 CHILD_TIMEOUT_S = 3600
@@ -319,14 +319,14 @@ def markdown(report: dict) -> str:
                         f"{r['loadavg_1min_after']:.1f}" for r in rows)
             + f" ({report['machine']['cpus']} CPUs; above that, other work competed for the CPUs).", "",
             "## Tessera phases (medians, s) and whole-process figures", "",
-            "| system | setting | read | parameterise | prepare | bonded | neighbour_search | nonbonded "
-            "| aggregate | compute | write | process wall | JSON (MB) | pairs in JSON |",
-            "|---|---|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|"]
+            "| system | setting | read | parameterise | prepare | prepare_system | bonded | neighbour_search "
+            "| nonbonded | aggregate | compute | write | process wall | JSON (MB) | pairs in JSON |",
+            "|---|---|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|"]
     for r in rows:
         p = r["tessera_phase_medians_s"]
         g = lambda k: fmt(p.get(k), ".3f")  # noqa: E731
         out.append(f"| {r['system']} | {r['setting']} | {g('read')} | {g('parameterise')} | {g('prepare')} "
-                   f"| {g('compute_bonded')} | {g('compute_neighbour_search')} "
+                   f"| {g('prepare_system')} | {g('compute_bonded')} | {g('compute_neighbour_search')} "
                    f"| {g('compute_nonbonded')} | {g('compute_aggregate')} | {g('compute')} "
                    f"| {g('write')} | {r['tessera_wall_median_s']:.2f} | {r['tessera_json_mib']:.1f} "
                    f"| {r['tessera_n_pairs_reported']} |")
@@ -384,7 +384,7 @@ def target_verdict(rows, failures=()) -> dict:
     text = (f"{TARGET['system']} ({row['atoms']} atoms), {TARGET['setting']}: ratio "
             f"{row['ratio']:.1f}x OpenMM (target <= {TARGET['max_ratio']:g}x): "
             f"{'met' if ok_time else 'NOT met'}; peak RSS {row['tessera_peak_rss_mib']:.0f} MiB "
-            f"(target < {TARGET['max_rss_mib']:.0f} MiB = 4 GiB): {'met' if ok_mem else 'NOT met'}. "
+            f"(target < {TARGET['max_rss_mib']:.0f} MiB = {TARGET['max_rss_mib'] / 1024:g} GiB): {'met' if ok_mem else 'NOT met'}. "
             f"Overall: {'MET' if ok_time and ok_mem else 'NOT MET'}.")
     return {"measured": True, "time_met": ok_time, "memory_met": ok_mem, "met": ok_time and ok_mem,
             "text": text}

@@ -31,7 +31,13 @@ def axis_order(mode: str, chains, pairs, quantity: str) -> np.ndarray:
 
 
 def profile_order(pairs, quantity: str) -> np.ndarray:
-    from scipy.cluster.hierarchy import leaves_list, linkage
+    from scipy.cluster.hierarchy import leaves_list
+    return leaves_list(profile_linkage(pairs, quantity)).astype(np.intp)
+
+
+def profile_linkage(pairs, quantity: str) -> np.ndarray:
+    """The (n - 1, 4) scipy linkage matrix behind the ``profile`` order."""
+    from scipy.cluster.hierarchy import linkage
     m = pairs.matrix(quantity).tocsr()
     m.data = np.sign(m.data) * np.log1p(np.abs(m.data))
     n = m.shape[0]
@@ -42,5 +48,27 @@ def profile_order(pairs, quantity: str) -> np.ndarray:
         features = u * s
     else:
         features = m.toarray()
-    z = linkage(features, method="average", metric="euclidean", optimal_ordering=n <= 400)
-    return leaves_list(z).astype(np.intp)
+    return linkage(features, method="average", metric="euclidean", optimal_ordering=n <= 400)
+
+
+def dendrogram_segments(z: np.ndarray, order: np.ndarray):
+    """Line segments of the tree of linkage ``z`` drawn over display positions ``order``.
+
+    Returns ``(x0, h0, x1, h1)``, each (3 (n - 1),): for every merge, the two vertical legs (from
+    each child's height up to the merge height) and the bar joining them; x is the display
+    position (leaf k of ``order`` at k, a cluster at the midpoint of its two children, as
+    scipy.cluster.hierarchy.dendrogram draws it) and h the linkage distance.
+    """
+    n = len(order)
+    x = np.empty(2 * n - 1)
+    height = np.zeros(2 * n - 1)
+    x[np.asarray(order)] = np.arange(n, dtype=float)
+    segments = np.empty((n - 1, 3, 4))
+    for k, (a, b, dist, _) in enumerate(z):
+        a, b = int(a), int(b)
+        x[n + k] = 0.5 * (x[a] + x[b])
+        height[n + k] = dist
+        segments[k] = [[x[a], height[a], x[a], dist], [x[a], dist, x[b], dist],
+                       [x[b], dist, x[b], height[b]]]
+    flat = segments.reshape(-1, 4)
+    return flat[:, 0], flat[:, 1], flat[:, 2], flat[:, 3]

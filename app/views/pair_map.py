@@ -2,7 +2,9 @@
 
 Colours are centred on zero (blue attractive, red repulsive) with fixed symmetric levels set by
 a percentile of |E| so one clash does not wash everything out.  Hover shows the pair, a click
-selects it, the arrow keys move the selection, the wheel zooms.
+selects it, the arrow keys move the selection, the wheel zooms.  With the clustered axis order
+the tree is drawn above the matrix, in the map's own coordinates (so it pans and zooms with it):
+leaves at y = -0.5, the root :data:`TREE_HEIGHT` x n above.
 """
 from __future__ import annotations
 
@@ -17,7 +19,7 @@ from PySide6.QtWidgets import QComboBox, QHBoxLayout, QLabel, QToolTip, QVBoxLay
 from energy.system import TERMS
 
 from ..models.array_table import format_energy
-from ..models.ordering import ORDERS, axis_order
+from ..models.ordering import ORDERS, axis_order, dendrogram_segments, profile_linkage
 
 QUANTITIES = {"total": "Total", "nonbonded": "Nonbonded (Coulomb + LJ)", "coulomb": "Coulomb",
               "lj": "Lennard-Jones", "bonded": "Bonded (all bonded terms)",
@@ -25,6 +27,9 @@ QUANTITIES = {"total": "Total", "nonbonded": "Nonbonded (Coulomb + LJ)", "coulom
 CLIPS = (100.0, 99.9, 99.5, 99.0, 98.0, 95.0, 90.0)
 # Diverging blue - white - red (the RdBu scheme of ColorBrewer, as in the exported figures):
 # attractive entries blue, repulsive red, zero exactly white.
+#: Height of the drawn clustering tree, as a fraction of the matrix side.
+TREE_HEIGHT = 0.16
+
 DIVERGING = ("#053061", "#2166ac", "#4393c3", "#92c5de", "#d1e5f0", "#ffffff",
              "#fddbc7", "#f4a582", "#d6604d", "#b2182b", "#67001f")
 
@@ -170,6 +175,11 @@ class PairMapView(QWidget):
         self.plot.addItem(self.clash_marks)
         self.clashes = {}                          # (i, j) residue pair -> (count, worst overlap A)
         self.show_clashes = True
+        # clustering tree above the matrix (axis order "profile" only)
+        self.tree = pg.PlotCurveItem(connect="pairs", pen=pg.mkPen("#444444", width=1))
+        self.tree.setZValue(6)
+        self.plot.addItem(self.tree)
+        self.linkage = None
         guide = pg.mkPen(QColor(0, 150, 0, 140), width=1)
         self.guides = [pg.InfiniteLine(angle=90, pen=guide, movable=False),
                        pg.InfiniteLine(angle=0, pen=guide, movable=False)]
@@ -246,7 +256,7 @@ class PairMapView(QWidget):
             return
         self.order_mode = mode
         self._sync_box(self.order_box, mode)
-        self._reorder()
+        self._reorder(reset_view=True)  # positions all change; show the whole map (and tree)
         self.orderChanged.emit(mode)
 
     def set_clip(self, percentile: float) -> None:
@@ -272,8 +282,13 @@ class PairMapView(QWidget):
 
     def _reorder(self, reset_view=False) -> None:
         ds = self.dataset
+        self.linkage = None
         if ds is None:
             self.order = np.zeros(0, np.intp)
+        elif self.order_mode == "profile" and ds.n >= 3:
+            from scipy.cluster.hierarchy import leaves_list
+            self.linkage = profile_linkage(ds.pairs, self.quantity)
+            self.order = leaves_list(self.linkage).astype(np.intp)
         else:
             self.order = axis_order(self.order_mode, ds.chains, ds.pairs, self.quantity)
         self.position = np.empty(len(self.order), np.intp)
@@ -284,9 +299,11 @@ class PairMapView(QWidget):
         self._draw_boundaries()
         self._redraw()
         self._draw_clashes()
+        self._draw_tree()
         n = len(self.order)
         if reset_view and n:
-            self.plot.setRange(xRange=(-0.5, n - 0.5), yRange=(-0.5, n - 0.5), padding=0)
+            top = -0.5 - (TREE_HEIGHT * n if self.linkage is not None else 0.0)
+            self.plot.setRange(xRange=(-0.5, n - 0.5), yRange=(top, n - 0.5), padding=0)
         self._on_selection(self.selection.pair)
 
     def _redraw(self) -> None:
@@ -309,6 +326,22 @@ class PairMapView(QWidget):
         self.colorbar.axis.setLabel(f"{what}{QUANTITIES[self.quantity].split(' (')[0]} ({self.unit})")
         self.plot.setTitle(f"<span style='color:#222'>{ds.title} &nbsp;·&nbsp; axis order: "
                            f"{ORDERS[self.order_mode].lower()}</span>", size="10pt")
+
+    def tree_segments(self):
+        """(x0, y0, x1, y1) of the drawn tree in map coordinates, or None without one."""
+        if self.linkage is None:
+            return None
+        x0, h0, x1, h1 = dendrogram_segments(self.linkage, self.order)
+        scale = TREE_HEIGHT * len(self.order) / max(float(self.linkage[:, 2].max()), 1e-12)
+        return x0, -0.5 - h0 * scale, x1, -0.5 - h1 * scale
+
+    def _draw_tree(self) -> None:
+        seg = self.tree_segments()
+        if seg is None:
+            self.tree.setData([], [])
+            return
+        x0, y0, x1, y1 = seg
+        self.tree.setData(np.column_stack([x0, x1]).ravel(), np.column_stack([y0, y1]).ravel())
 
     def _draw_boundaries(self) -> None:
         for line in self._boundaries:

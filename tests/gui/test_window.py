@@ -134,3 +134,30 @@ def test_units_rescale_every_view(opened):
     np.testing.assert_allclose(opened.map.matrix, kcal * 4.184)
     assert "kJ/mol" in opened.ledger.model.headerData(6, Qt.Orientation.Horizontal)
     assert opened.app_settings.unit == "kJ/mol"
+
+
+def test_clustered_order_draws_the_tree_scipy_would(opened):
+    # Reference: scipy.cluster.hierarchy.dendrogram(no_plot=True) lays out the same linkage with
+    # leaf k at x = 10 k + 5; our tree, drawn over display positions, must be the same drawing.
+    from scipy.cluster.hierarchy import dendrogram
+    view = opened.map
+    view.set_order("sequence")
+    xs, _ = view.tree.getData()
+    assert view.tree_segments() is None and (xs is None or len(xs) == 0)
+    view.set_order("profile")
+    z = view.linkage
+    n = opened.dataset.n
+    ref = dendrogram(z, no_plot=True)
+    assert ref["leaves"] == view.order.tolist()
+    x0, y0, x1, y1 = view.tree_segments()
+    scale = 0.16 * n / z[:, 2].max()
+    ours = {tuple(np.round(s, 6)) for s in zip(x0, -0.5 - y0, x1, -0.5 - y1)}
+    theirs = set()
+    for xs, hs in zip(ref["icoord"], ref["dcoord"]):
+        xs = (np.asarray(xs) - 5.0) / 10.0
+        hs = np.asarray(hs) * scale
+        for a in range(3):
+            theirs.add(tuple(np.round((xs[a], hs[a], xs[a + 1], hs[a + 1]), 6)))
+    assert ours == theirs
+    xs, ys = view.tree.getData()
+    assert len(xs) == 6 * (n - 1) and ys.max() <= -0.5 + 1e-9   # above the matrix (y inverted)
