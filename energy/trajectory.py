@@ -5,16 +5,15 @@ A :class:`TrajectoryRequest` names the inputs (the same topology and parameters 
 record.  For every frame the engine records a small :class:`FrameRecord`: the per-term totals,
 the energies of the chosen residue pairs (every term, their total, and the minimum heavy-atom
 distance of the pair), and the interaction of selection A with selection B.  Over the frames it
-keeps :class:`PairStatistics`: running mean and (population) standard deviation of every
-residue-pair entry and term (Welford), sparse over the union of the pair keys seen (a pair with
-no entry in a frame counts as 0 kcal/mol there), plus each pair's persistence, the fraction of
-frames whose pair total is below a threshold.
+keeps :class:`~energy.pair_statistics.PairStatistics`: mean and (population) standard deviation
+of every residue-pair entry and term (shifted sums), sparse over the union of the pair keys seen
+(a pair with no entry in a frame counts as 0 kcal/mol there), plus each pair's persistence, the
+fraction of frames whose pair total is below a threshold.
 
 Deterministic reduction (identical results serial, on worker processes or on a Dask cluster):
 the frames are cut into fixed chunks of ``chunk_frames`` consecutive frames of the requested
-range (independent of the number of workers).  Each chunk is reduced by Welford's update in
-frame order; chunk statistics are merged into the total in chunk order with Chan et al.'s
-pairwise formula.  Every execution route runs exactly these floating-point operations in this
+range (independent of the number of workers).  Each chunk accumulates its frames in frame order;
+chunk statistics are merged into the total in chunk order (Chan et al.'s pairwise update).  Every execution route runs exactly these floating-point operations in this
 order, so results agree bit for bit.
 
 :class:`TrajectoryScan` drives a serial run: ``steps()`` is a generator yielding ``(done, total)``
@@ -29,16 +28,15 @@ import time
 import warnings
 from dataclasses import dataclass, field
 
-import numba
 import numpy as np
 
 from .errors import EnergyError
 from .io.coordinates import frame_from_timestep
 from .settings import EnergySettings
+from .pair_statistics import COLUMNS, PairStatistics
 from .system import TERMS, Frame
 
-#: Columns of the pair statistics and of the chosen-pair records: every term, then their sum.
-COLUMNS = (*TERMS, "total")
+# COLUMNS: of the pair statistics and of the chosen-pair records, every term, then their sum.
 #: Per-frame columns of the selection A vs B interaction.
 SELECTION_COLUMNS = ("coulomb", "lj", "total", "n_atoms_a", "n_atoms_b")
 #: Frames per reduction chunk (also the unit of work sent to a worker).
@@ -278,147 +276,6 @@ class FrameRecord:
     pair_distance: np.ndarray
     selection: dict | None = None
     seconds: float = 0.0
-
-
-@numba.njit(cache=True)
-def _welford_update(mean, m2, pos, vals, n):
-    """One Welford step on every row: rows ``pos`` see ``vals``, all others see 0."""
-    K, C = mean.shape
-    row_of = np.full(K, -1, np.int64)
-    for r in range(len(pos)):
-        row_of[pos[r]] = r
-    for k in range(K):
-        r = row_of[k]
-        for c in range(C):
-            x = vals[r, c] if r >= 0 else 0.0
-            delta = x - mean[k, c]
-            mean[k, c] += delta / n
-            m2[k, c] += delta * (x - mean[k, c])
-
-
-class PairStatistics:
-    """Running mean / M2 (Welford) of every residue-pair entry over frames, sparse.
-
-    ``keys`` (K,) int64 ``i * n_residues + j`` sorted; ``mean`` and ``m2`` (K, len(COLUMNS));
-    ``present`` frames with an entry, ``below`` frames with an entry whose total is below the
-    threshold, ``min_distance`` smallest minimum heavy-atom distance seen (inf if never examined).
-    """
-
-    def __init__(self, n_residues: int, threshold: float):
-        self.n_residues = int(n_residues)
-        self.threshold = float(threshold)
-        self.frames: list[int] = []
-        self.keys = np.zeros(0, np.int64)
-        self.mean = np.zeros((0, len(COLUMNS)))
-        self.m2 = np.zeros((0, len(COLUMNS)))
-        self.present = np.zeros(0, np.int64)
-        self.below = np.zeros(0, np.int64)
-        self.min_distance = np.zeros(0)
-
-    @property
-    def n(self) -> int:
-        return len(self.frames)
-
-    def __len__(self) -> int:
-        return len(self.keys)
-
-    def copy(self) -> "PairStatistics":
-        out = PairStatistics(self.n_residues, self.threshold)
-        out.frames = list(self.frames)
-        for name in ("keys", "mean", "m2", "present", "below", "min_distance"):
-            setattr(out, name, getattr(self, name).copy())
-        return out
-
-    def _grow(self, keys: np.ndarray) -> None:
-        """Make room for ``keys`` (sorted, unique); new entries start as 0 over the past frames."""
-        if len(self.keys):
-            at = np.minimum(np.searchsorted(self.keys, keys), len(self.keys) - 1)
-            new = keys[self.keys[at] != keys]
-        else:
-            new = keys
-        if not len(new):
-            return
-        union = np.concatenate([self.keys, new])
-        union.sort(kind="stable")
-        where = np.searchsorted(union, self.keys)
-        K, C = len(union), len(COLUMNS)
-        mean, m2 = np.zeros((K, C)), np.zeros((K, C))
-        present, below = np.zeros(K, np.int64), np.zeros(K, np.int64)
-        min_d = np.full(K, np.inf)
-        mean[where], m2[where] = self.mean, self.m2
-        present[where], below[where], min_d[where] = self.present, self.below, self.min_distance
-        self.keys, self.mean, self.m2 = union, mean, m2
-        self.present, self.below, self.min_distance = present, below, min_d
-
-    def add(self, frame_index: int, rp) -> None:
-        """Welford update with one frame's :class:`~energy.decompose.ResiduePairEnergies`."""
-        keys = rp.pair_i.astype(np.int64) * self.n_residues + rp.pair_j.astype(np.int64)
-        self._grow(keys)
-        pos = np.searchsorted(self.keys, keys)
-        vals = np.empty((len(keys), len(COLUMNS)))
-        for c, t in enumerate(TERMS):
-            vals[:, c] = rp.values[t]
-        vals[:, -1] = rp.total
-        self.frames.append(int(frame_index))
-        _welford_update(self.mean, self.m2, pos, vals, float(self.n))
-        self.present[pos] += 1
-        self.below[pos] += vals[:, -1] < self.threshold
-        self.min_distance[pos] = np.minimum(self.min_distance[pos], rp.min_heavy_distance)
-
-    def merge(self, other: "PairStatistics") -> None:
-        """Append ``other``'s frames (which come after ours): Chan et al. (1979) pairwise update."""
-        if other.n == 0:
-            return
-        if self.n == 0:
-            o = other.copy()
-            self.frames, self.keys, self.mean, self.m2 = o.frames, o.keys, o.mean, o.m2
-            self.present, self.below, self.min_distance = o.present, o.below, o.min_distance
-            return
-        self._grow(other.keys)
-        pos = np.searchsorted(self.keys, other.keys)
-        mean_b, m2_b = np.zeros_like(self.mean), np.zeros_like(self.m2)
-        mean_b[pos], m2_b[pos] = other.mean, other.m2
-        na, nb = float(self.n), float(other.n)
-        n = na + nb
-        delta = mean_b - self.mean
-        self.mean = self.mean + delta * (nb / n)
-        self.m2 = self.m2 + m2_b + delta * delta * (na * nb / n)
-        self.present[pos] += other.present
-        self.below[pos] += other.below
-        self.min_distance[pos] = np.minimum(self.min_distance[pos], other.min_distance)
-        self.frames.extend(other.frames)
-
-    # -- views --------------------------------------------------------------------------------
-    @property
-    def pair_i(self) -> np.ndarray:
-        return (self.keys // self.n_residues).astype(np.intp)
-
-    @property
-    def pair_j(self) -> np.ndarray:
-        return (self.keys % self.n_residues).astype(np.intp)
-
-    def std(self) -> np.ndarray:
-        """(K, len(COLUMNS)) population standard deviation over the frames (ddof = 0)."""
-        if self.n == 0:
-            return np.zeros_like(self.m2)
-        return np.sqrt(np.maximum(self.m2, 0.0) / self.n)
-
-    def persistence(self) -> np.ndarray:
-        """(K,) fraction of frames whose pair total is below the threshold (a frame without an
-        entry counts as total 0)."""
-        if self.n == 0:
-            return np.zeros(len(self.keys))
-        absent_below = (self.n - self.present) if 0.0 < self.threshold else 0
-        return (self.below + absent_below) / self.n
-
-    def column(self, quantity: str = "total", stat: str = "mean") -> np.ndarray:
-        c = COLUMNS.index(quantity)
-        return (self.mean if stat == "mean" else self.std())[:, c]
-
-    def lookup(self, i: int, j: int) -> int | None:
-        key = np.int64(min(i, j)) * self.n_residues + max(i, j)
-        k = int(np.searchsorted(self.keys, key))
-        return k if k < len(self.keys) and self.keys[k] == key else None
 
 
 @dataclass

@@ -52,4 +52,12 @@ def prepare_kernels(settings: EnergySettings | None = None) -> None:
         compute(system, frame, EnergySettings(cutoff_angstrom=10.0, electrostatics="reaction-field",
                                               switch_angstrom=8.0))
         compute(system, Frame(frame.positions), EnergySettings(cutoff_angstrom=10.0))
+    if "all" in wanted and "statistics" not in _prepared:  # trajectory statistics kernels
+        from .pair_statistics import PairStatistics
+        result = compute(system, frame, EnergySettings())
+        stats, more = PairStatistics(system.n_residues, 0.0), PairStatistics(system.n_residues, 0.0)
+        stats.add(0, result.residue_pairs)
+        more.add(1, result.residue_pairs)
+        stats.merge(more)
+        todo = todo | {"statistics"}
     _prepared |= todo
