@@ -410,6 +410,10 @@ class MainWindow(QMainWindow):
             if c.unmatched_first_labels or c.unmatched_second_labels:
                 un = c.unmatched_first_labels[:6] + c.unmatched_second_labels[:6]
                 self.statusBar().showMessage("Unmatched residues: " + ", ".join(un), 15000)
+        unlisted = getattr(snap.result, "unlisted", None)
+        if unlisted and not ds.is_difference:
+            size += (f" | {unlisted['n_pairs']:,} residue pairs under {unlisted['below']:g} kcal/mol "
+                     "not listed (no cutoff; totals include them)")
         self.size_label.setText(size)
         self.time_label.setText(f"last computation {self.last_compute_s:.2f} s"
                                 if self.last_compute_s is not None else "")

@@ -193,7 +193,8 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
     t_kernel = time.perf_counter()
 
     residue_pairs = assemble(n_res, rows.pair_i, rows.pair_j, rows.row_start,
-                             {"coulomb": rows.coulomb, "lj": rows.lj}, np.sqrt(rows.min_heavy2),
+                             {"coulomb": rows.coulomb, "lj": rows.lj},
+                             np.sqrt(rows.min_heavy2, out=rows.min_heavy2),  # in place: r^2 -> r
                              rows.count > 0, contributions)
     totals["total"] = float(sum(totals[t] for t in TERMS))
     t_end = time.perf_counter()

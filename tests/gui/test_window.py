@@ -161,3 +161,15 @@ def test_clustered_order_draws_the_tree_scipy_would(opened):
     assert ours == theirs
     xs, ys = view.tree.getData()
     assert len(xs) == 6 * (n - 1) and ys.max() <= -0.5 + 1e-9   # above the matrix (y inverted)
+
+
+def test_status_bar_says_when_small_pairs_are_not_listed(qtbot, opened, monkeypatch):
+    # Block mode without a cutoff (energy/residue_rows.py), made to trigger on the scenario.
+    from energy import residue_rows
+    monkeypatch.setattr(residue_rows, "ALL_PAIRS_LISTED_LIMIT", 10)
+    monkeypatch.setattr(residue_rows, "UNLISTED_BELOW", 0.05)
+    with qtbot.waitSignal(opened.computeFinished, timeout=30000):
+        opened.recompute()
+    unlisted = opened.snapshot.result.unlisted
+    assert unlisted["n_pairs"] > 0
+    assert f"{unlisted['n_pairs']:,} residue pairs under 0.05 kcal/mol not listed" in opened.size_label.text()
