@@ -77,7 +77,8 @@ def options_from_args(args) -> ClashOptions:
 
 
 def run(args) -> int:
-    from .clashes import clash_csv, clash_document, clash_table, find_clashes
+    from .clash_report import clash_csv, clash_document, clash_table
+    from .clashes import find_clashes
     from .io.loaders import load_system
     from .report import atomic_write_text
 

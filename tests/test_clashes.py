@@ -19,8 +19,8 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from energy.clashes import (ClashOptions, atom_radii, excluded_and_14, find_clashes, lj_energy,
-                            clash_csv, clash_document, clash_table)
+from energy.clash_report import clash_csv, clash_document, clash_table
+from energy.clashes import ClashOptions, atom_radii, excluded_and_14, find_clashes, lj_energy
 from energy.errors import SettingsError
 from energy.system import Frame
 from energy.vdw_radii import BONDI_RADII, bondi_radius

@@ -11,7 +11,8 @@ from PySide6.QtCore import Qt, QTimer, Signal
 from PySide6.QtWidgets import (QCheckBox, QComboBox, QDoubleSpinBox, QHBoxLayout, QLabel,
                                QSplitter, QTableView, QVBoxLayout, QWidget)
 
-from energy.clashes import DEFAULT_OVERLAP, ClashOptions, atom_label
+from energy.clash_report import atom_label
+from energy.clashes import DEFAULT_OVERLAP, ClashOptions
 
 from .tables import record_table, show_row
 from ..models.array_table import ArrayTableModel, Column

@@ -6,7 +6,7 @@ import numpy as np
 from PySide6.QtCore import Qt, Signal
 from PySide6.QtWidgets import (QHBoxLayout, QLabel, QPushButton, QSplitter, QTableView, QVBoxLayout, QWidget)
 
-from energy.clashes import atom_label
+from energy.clash_report import atom_label
 
 from .tables import record_table
 from ..models.array_table import ArrayTableModel, Column
