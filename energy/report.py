@@ -86,15 +86,37 @@ _PAIR_TEMPLATE = "{" + ", ".join(f'"{k}": %{"d" if k in ("i", "j") else ("s" if 
 _STREAM_ROWS = 20_000
 
 
+def _chunk_template(cols, sl) -> tuple[str, list]:
+    """Row template for one chunk with the columns that are +0.0 on every row written in as
+    literals (bonded terms of solvent pairs), and the keys still to substitute.  The text is the
+    same as formatting every value (repr(0.0) == "0.0"); it is just less work."""
+    parts, keys = [], []
+    for k in _PAIR_KEYS:
+        fmt = "%d" if k in ("i", "j") else ("%s" if k == "min_heavy_distance" else "%r")
+        if fmt == "%r":
+            col = cols[k][sl]
+            if not np.any(col) and not np.any(np.signbit(col)):
+                parts.append(f'"{k}": 0.0')
+                continue
+        parts.append(f'"{k}": {fmt}')
+        keys.append(k)
+    return "{" + ", ".join(parts) + "}", keys
+
+
 def _pair_json_chunks(cols):
     n = len(cols["i"])
     for start in range(0, n, _STREAM_ROWS):
         sl = slice(start, start + _STREAM_ROWS)
-        d = cols["min_heavy_distance"][sl]
-        dist = np.where(np.isfinite(d), d, np.nan).tolist()
-        dist = ["null" if x != x else repr(x) for x in dist]
-        columns = [cols[k][sl].tolist() for k in _PAIR_KEYS[:-1]] + [dist]
-        yield ",\n  ".join(_PAIR_TEMPLATE % row for row in zip(*columns))
+        template, keys = _chunk_template(cols, sl)
+        columns = []
+        for k in keys:
+            if k == "min_heavy_distance":
+                d = cols[k][sl]
+                dist = np.where(np.isfinite(d), d, np.nan).tolist()
+                columns.append(["null" if x != x else repr(x) for x in dist])
+            else:
+                columns.append(cols[k][sl].tolist())
+        yield ",\n  ".join(template % row for row in zip(*columns))
 
 
 _PAIRS_PLACEHOLDER = "@@tessera-pairs@@"
