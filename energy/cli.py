@@ -204,5 +204,19 @@ def main(argv=None) -> int:
         return 130
 
 
+def console_main() -> None:
+    """The ``tessera`` command: :func:`main`, then exit.  After a parallel trajectory run whose
+    worker processes were stopped mid-chunk (Ctrl-C), the interpreter's normal exit can hang in
+    concurrent.futures (energy.trajectory_parallel); the outputs are written and closed by then,
+    so such a process ends with ``os._exit``."""
+    code = main()
+    parallel = sys.modules.get("energy.trajectory_parallel")
+    if parallel is not None and parallel.abandoned_workers:
+        sys.stdout.flush()
+        sys.stderr.flush()
+        os._exit(code)
+    sys.exit(code)
+
+
 if __name__ == "__main__":
-    sys.exit(main())
+    console_main()

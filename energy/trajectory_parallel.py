@@ -77,6 +77,10 @@ def worker_chunk(request: TrajectoryRequest, chunk: int, indices) -> ChunkResult
 # client side
 # --------------------------------------------------------------------------------------------
 
+#: Set when a run stopped its worker processes mid-chunk (see ``_ProcessBackend.close``).
+abandoned_workers = False
+
+
 class _ProcessBackend:
     def __init__(self, workers: int):
         threads = max(1, (os.cpu_count() or 1) // workers)
@@ -102,6 +106,7 @@ class _ProcessBackend:
                                   "merged so far are kept") from None
 
     def close(self, abort: bool):
+        global abandoned_workers
         if abort:
             # Running chunks are abandoned: stop the worker processes instead of waiting.
             processes = list(getattr(self.executor, "_processes", {}).values())
@@ -111,6 +116,11 @@ class _ProcessBackend:
                     p.terminate()
             for p in processes:
                 p.join(timeout=5)
+            # A worker stopped while writing its result leaves a partial message in the result
+            # pipe; concurrent.futures' manager thread then waits for the rest for ever, and so
+            # does the interpreter's exit, which joins that thread.  The command line therefore
+            # ends such a process with os._exit once its outputs are written (cli.console_main).
+            abandoned_workers = True
         else:
             self.executor.shutdown(wait=True)
 
