@@ -125,7 +125,6 @@ class PairMapView(QWidget):
         self.level = 1.0
         self._cursor = None                        # (row, col) display positions
         self._dense_cache = {}
-        self._boundaries = []
 
         bar = QHBoxLayout()
         bar.setContentsMargins(4, 2, 4, 2)
@@ -175,6 +174,10 @@ class PairMapView(QWidget):
         self.plot.addItem(self.clash_marks)
         self.clashes = {}                          # (i, j) residue pair -> (count, worst overlap A)
         self.show_clashes = True
+        self.boundaries = pg.PlotCurveItem(connect="pairs", pen=pg.mkPen(
+            QColor(40, 40, 40, 200), width=1.2, style=Qt.PenStyle.DashLine))
+        self.boundaries.setZValue(5)
+        self.plot.addItem(self.boundaries)
         # clustering tree above the matrix (axis order "profile" only)
         self.tree = pg.PlotCurveItem(connect="pairs", pen=pg.mkPen("#444444", width=1))
         self.tree.setZValue(6)
@@ -344,24 +347,26 @@ class PairMapView(QWidget):
         self.tree.setData(np.column_stack([x0, x1]).ravel(), np.column_stack([y0, y1]).ravel())
 
     def _draw_boundaries(self) -> None:
-        for line in self._boundaries:
-            self.plot.removeItem(line)
-        self._boundaries = []
+        """Dashed lines between chains, over the matrix only (not across the clustering tree)."""
         if self.dataset is None or not len(self.order):
+            self.boundaries.setData([], [])
             return
         ch = self.dataset.chains[self.order]
         cuts = np.flatnonzero(ch[1:] != ch[:-1]) + 1
-        if len(cuts) > 40:  # an order that interleaves chains: lines would only add noise
+        if len(cuts) > 40 or not len(cuts):  # an order that interleaves chains: lines would be noise
+            self.boundaries.setData([], [])
             return
-        pen = pg.mkPen(QColor(40, 40, 40, 200), width=1.2, style=Qt.PenStyle.DashLine)
-        for c in cuts:
-            for angle in (90, 0):
-                line = pg.InfiniteLine(pos=c - 0.5, angle=angle, pen=pen, movable=False)
-                line.setZValue(5)
-                self.plot.addItem(line)
-                self._boundaries.append(line)
+        n = len(self.order)
+        at = cuts - 0.5
+        lo, hi = np.full(len(at), -0.5), np.full(len(at), n - 0.5)
+        xs = np.concatenate([np.column_stack([at, at]).ravel(), np.column_stack([lo, hi]).ravel()])
+        ys = np.concatenate([np.column_stack([lo, hi]).ravel(), np.column_stack([at, at]).ravel()])
+        self.boundaries.setData(xs, ys)
 
-    # -- selection -------------------------------------------------------------------------
+    def chain_boundary_segments(self) -> int:
+        xs, _ = self.boundaries.getData()
+        return 0 if xs is None else len(xs) // 2
+
     def _cell_at(self, scene_pos):
         if self.dataset is None or not self.plot.vb.sceneBoundingRect().contains(scene_pos):
             return None

@@ -161,6 +161,11 @@ def test_clustered_order_draws_the_tree_scipy_would(opened):
     assert ours == theirs
     xs, ys = view.tree.getData()
     assert len(xs) == 6 * (n - 1) and ys.max() <= -0.5 + 1e-9   # above the matrix (y inverted)
+    # chain boundaries stay on the matrix and do not cross the tree
+    view.set_order("chain")
+    assert view.chain_boundary_segments() == 2                  # chains A | B: one cut, two lines
+    bx, by = view.boundaries.getData()
+    assert by.min() >= -0.5 and bx.min() >= -0.5 and max(bx.max(), by.max()) <= n - 0.5
 
 
 def test_status_bar_says_when_small_pairs_are_not_listed(qtbot, opened, monkeypatch):
