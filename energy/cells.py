@@ -20,7 +20,8 @@ from .pbc import is_orthorhombic, minimum_image, perpendicular_widths
 
 @numba.njit(cache=True)
 def _bin(idx, dims):
-    """Order residues by cell; ``start[c]:start[c+1]`` indexes ``order`` for cell c."""
+    """Order residues by cell; ``start[c]:start[c+1]`` indexes ``order`` for cell c; ``flat``
+    is each residue's cell."""
     n = idx.shape[0]
     flat = (idx[:, 0] * dims[1] + idx[:, 1]) * dims[2] + idx[:, 2]
     order = np.argsort(flat, kind="mergesort")
@@ -30,7 +31,7 @@ def _bin(idx, dims):
         start[flat[i] + 1] += 1
     for c in range(n_cells):
         start[c + 1] += start[c]
-    return order, start
+    return order, start, flat
 
 
 @numba.njit(cache=True, inline="always")
@@ -85,13 +86,16 @@ def _first_above(values, lo, hi, i):
 
 
 @numba.njit(cache=True)
-def _radix_sort(a, scratch, counts):
+def _radix_sort(a):
     """Sort the non-negative integers ``a`` in place: LSD radix sort, 8 bits a pass, over the span
     of the values only (rows of ~200 residue indices sort several times faster than quicksort).
-    ``scratch`` is at least as long as ``a``; ``counts`` has 256 slots."""
+    Its work arrays are allocated here, in a plain function, never in a ``prange`` body, where
+    numba may hoist a fixed-size allocation out of the loop and share it between threads."""
     n = len(a)
     if n < 2:
         return
+    scratch = np.empty(n, a.dtype)
+    counts = np.empty(256, np.int64)
     lo = a.min()
     span = a.max() - lo
     src = a
@@ -145,8 +149,6 @@ def _search_rows(centers, radii, cutoff, periodic, h, orthorhombic, cell, dims, 
         pos = 0
         if fill:  # row I is gathered in its own buffer (one slot of slack for the branch-free write)
             row = np.empty(row_start[i + 1] - row_start[i] + 1, np.intp)
-            scratch = np.empty(len(row), np.intp)
-            radix_counts = np.empty(256, np.int64)
             row[0] = i
             pos = 1
         for a in range(nx):
@@ -217,7 +219,7 @@ def _search_rows(centers, radii, cutoff, periodic, h, orthorhombic, cell, dims, 
                                 else:
                                     found += 1
         if fill:
-            _radix_sort(row[1:pos], scratch, radix_counts)
+            _radix_sort(row[1:pos])
             first = row_start[i]
             out_j[first:first + pos] = row[:pos]
             out_i[first:first + pos] = i
@@ -265,11 +267,10 @@ def candidate_pairs_cells(centers, radii, cutoff: float, cell_matrix=None):
         cell = np.maximum(span / dims, target)
         idx = np.minimum(((centers - lo) / cell).astype(np.int64), dims - 1)
     idx = np.ascontiguousarray(idx)
-    order, start = _bin(idx, dims)
+    order, start, flat = _bin(idx, dims)
     cell_xyz = np.ascontiguousarray(centers[order])
     cell_radius = np.ascontiguousarray(radii[order])
     cell_residue = order.astype(np.intp)
-    flat = ((idx[:, 0] * dims[1] + idx[:, 1]) * dims[2] + idx[:, 2])
     cell_max_radius = np.zeros(int(np.prod(dims)))
     np.maximum.at(cell_max_radius, flat, radii)
     r_max = float(radii.max())
@@ -296,10 +297,29 @@ def interleaved_rows(lo: int, hi: int) -> np.ndarray:
 
 def all_pairs_rows(n: int):
     """Every residue pair I <= J in (I, J) order, with CSR row starts (like candidate_pairs_cells)."""
-    i, j = np.triu_indices(n)
     row_start = np.zeros(n + 1, np.int64)
-    np.cumsum(np.arange(n, 0, -1), out=row_start[1:])
-    return i.astype(np.intp), j.astype(np.intp), row_start
+    pair_i, pair_j = upper_triangle_rows(0, n, n, row_start)
+    return pair_i, pair_j, row_start
+
+
+@numba.njit(cache=True)
+def upper_triangle_rows(lo, hi, n, row_start):
+    """Rows lo..hi-1 of the full upper triangle I <= J < n: (pair_i, pair_j); ``row_start[lo:hi+1]``
+    is set to the offsets within these rows."""
+    m = 0
+    for i in range(lo, hi):
+        row_start[i] = m
+        m += n - i
+    row_start[hi] = m
+    pair_i = np.empty(m, np.intp)
+    pair_j = np.empty(m, np.intp)
+    k = 0
+    for i in range(lo, hi):
+        for j in range(i, n):
+            pair_i[k] = i
+            pair_j[k] = j
+            k += 1
+    return pair_i, pair_j
 
 
 @numba.njit(parallel=True, cache=True)

@@ -66,6 +66,18 @@ def _locate(index_keys, index_slot, keys, n_slots):
     return slots, n_new, merged_keys, merged_slots
 
 
+@numba.njit(cache=True, inline="always")
+def _observe(t, c, x, first, shift, s, q):
+    """Value x of column c for slot t: sets the shift on the slot's first frame, else adds to
+    the shifted sums."""
+    if first:
+        shift[t, c] = x
+    else:
+        d = x - shift[t, c]
+        s[t, c] += d
+        q[t, c] += d * d
+
+
 @numba.njit(cache=True)
 def _add_frame(slots, columns, min_heavy, threshold, shift, s, q, present, below, min_d):
     """Accumulate one frame: ``columns`` (C - 1 term columns, the total is their sum)."""
@@ -77,18 +89,8 @@ def _add_frame(slots, columns, min_heavy, threshold, shift, s, q, present, below
         for c in range(n_terms):
             x = columns[c][r]
             total += x
-            if first:
-                shift[t, c] = x
-            else:
-                d = x - shift[t, c]
-                s[t, c] += d
-                q[t, c] += d * d
-        if first:
-            shift[t, n_terms] = total
-        else:
-            d = total - shift[t, n_terms]
-            s[t, n_terms] += d
-            q[t, n_terms] += d * d
+            _observe(t, c, x, first, shift, s, q)
+        _observe(t, n_terms, total, first, shift, s, q)
         present[t] += 1
         if total < threshold:
             below[t] += 1

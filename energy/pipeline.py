@@ -93,6 +93,10 @@ def _exception_residue_flags(system, pair_j, row_start):
     return flags
 
 
+def _type_has_lj(system):
+    return np.any(system.lj_eps != 0.0, axis=1)
+
+
 def _exclusions(system):
     return exclusion_csr(system.exception_pairs, system.n_atoms)
 
@@ -121,6 +125,7 @@ def prepare_system(system: MolecularSystem) -> None:
     system.derived("residue_ordered_atoms", _residue_ordered_atoms)
     system.derived("exclusion_csr", _exclusions)
     system.derived("exception_residue_keys", _exception_residue_keys)
+    system.derived("type_has_lj", _type_has_lj)
 
 
 def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySettings | None = None):
@@ -178,7 +183,8 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
                                                           h if periodic else None)
     inputs = residue_rows.KernelInputs(
         x if identity else np.ascontiguousarray(x[res_atoms.atoms]), q_r, t_r, system.lj_rmin,
-        system.lj_eps, heavy_r, res_atoms.atoms, res_atoms.ptr, excl_ptr, excl_idx, centers, radii,
+        system.lj_eps, system.derived("type_has_lj", _type_has_lj),
+        heavy_r, res_atoms.atoms, res_atoms.ptr, excl_ptr, excl_idx, centers, radii,
         h, orthorhombic, min_width, periodic, kc.values, kc.cutoff2,
         VECTORISED_KERNEL and settings.vdw == "lj")
     t_search = time.perf_counter()

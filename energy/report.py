@@ -81,8 +81,6 @@ def pair_columns(result, include_zero: bool = False) -> dict:
 
 
 _PAIR_KEYS = ("i", "j", *TERMS, "total", "min_heavy_distance")
-_PAIR_TEMPLATE = "{" + ", ".join(f'"{k}": %{"d" if k in ("i", "j") else ("s" if k == "min_heavy_distance" else "r")}'
-                                 for k in _PAIR_KEYS) + "}"
 _STREAM_ROWS = 20_000
 
 

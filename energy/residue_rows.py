@@ -17,10 +17,9 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-import numba
 import numpy as np
 
-from .cells import interleaved_rows, locate_pairs
+from .cells import interleaved_rows, locate_pairs, upper_triangle_rows
 from .errors import SettingsError
 from .terms.nonbonded import residue_rows_kernel
 
@@ -43,6 +42,7 @@ class KernelInputs:
     lj_type: np.ndarray
     lj_rmin: np.ndarray
     lj_eps: np.ndarray
+    type_has_lj: np.ndarray    # (n_types,) bool: the type has a nonzero well depth with some type
     is_heavy: np.ndarray
     atom_of: np.ndarray        # residue-order row -> system atom index
     res_ptr: np.ndarray
@@ -60,7 +60,7 @@ class KernelInputs:
 
     def run(self, rows, row_start, pair_j, has_excl, coul, lj, count, min_h2) -> None:
         residue_rows_kernel(self.positions, self.charges, self.lj_type, self.lj_rmin, self.lj_eps,
-                            np.any(self.lj_eps != 0.0, axis=1), self.is_heavy, self.atom_of,
+                            self.type_has_lj, self.is_heavy, self.atom_of,
                             self.res_ptr, rows, row_start, pair_j, has_excl, self.excl_ptr,
                             self.excl_idx, self.centers, self.radii, self.box_matrix,
                             self.orthorhombic, self.min_width, self.periodic, self.constants,
@@ -101,26 +101,6 @@ def evaluate_listed(inputs: KernelInputs, pair_i, pair_j, row_start, has_excl):
                       float(lj.sum()), int(count.sum()))
 
 
-@numba.njit(cache=True)
-def _all_pair_rows(lo, hi, n, row_start):
-    """Rows lo..hi-1 of the full upper triangle: (pair_i, pair_j); ``row_start[lo:hi+1]`` is set
-    to the offsets within this block."""
-    m = 0
-    for i in range(lo, hi):
-        row_start[i] = m
-        m += n - i
-    row_start[hi] = m
-    pair_i = np.empty(m, np.intp)
-    pair_j = np.empty(m, np.intp)
-    k = 0
-    for i in range(lo, hi):
-        for j in range(i, n):
-            pair_i[k] = i
-            pair_j[k] = j
-            k += 1
-    return pair_i, pair_j
-
-
 def _block_end(lo: int, n: int) -> int:
     """Last row (exclusive) of the block starting at row ``lo``: about BLOCK_PAIRS pairs."""
     sizes = np.arange(n - lo, 0, -1, dtype=np.int64)
@@ -143,7 +123,7 @@ def evaluate_all_pairs_in_blocks(inputs: KernelInputs, n_res: int, exception_key
     lo = 0
     while lo < n_res:
         hi = min(n_res, _block_end(lo, n_res))
-        pair_i, pair_j = _all_pair_rows(lo, hi, n_res, row_start)
+        pair_i, pair_j = upper_triangle_rows(lo, hi, n_res, row_start)
         m = len(pair_i)
         has_excl = np.zeros(m, np.bool_)
         sel = (exc_lo >= lo) & (exc_lo < hi)

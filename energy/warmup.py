@@ -46,18 +46,19 @@ def prepare_kernels(settings: EnergySettings | None = None) -> None:
     system, frame = _toy_system()
     wanted = {"all"} if settings is None else {"cutoff" if settings.cutoff_angstrom else "none"}
     todo = ({"none", "cutoff"} if "all" in wanted else wanted) - _prepared
+    plain = None
     if "none" in todo:
-        compute(system, frame, EnergySettings())
+        plain = compute(system, frame, EnergySettings())
     if "cutoff" in todo:
         compute(system, frame, EnergySettings(cutoff_angstrom=10.0, electrostatics="reaction-field",
                                               switch_angstrom=8.0))
         compute(system, Frame(frame.positions), EnergySettings(cutoff_angstrom=10.0))
     if "all" in wanted and "statistics" not in _prepared:  # trajectory statistics kernels
         from .pair_statistics import PairStatistics
-        result = compute(system, frame, EnergySettings())
+        pairs = (plain or compute(system, frame, EnergySettings())).residue_pairs
         stats, more = PairStatistics(system.n_residues, 0.0), PairStatistics(system.n_residues, 0.0)
-        stats.add(0, result.residue_pairs)
-        more.add(1, result.residue_pairs)
+        stats.add(0, pairs)
+        more.add(1, pairs)
         stats.merge(more)
         todo = todo | {"statistics"}
     _prepared |= todo

@@ -17,6 +17,16 @@ ORDERS = {"sequence": "File sequence", "chain": "Chain, then sequence",
           "profile": "Similar interaction profiles (clustered)"}
 
 
+def axis_order_and_tree(mode: str, chains, pairs, quantity: str):
+    """(order, linkage): the axis order, and for ``profile`` the scipy linkage it comes from
+    (None for the other orders)."""
+    if mode == "profile" and len(chains) >= 3:
+        from scipy.cluster.hierarchy import leaves_list
+        z = profile_linkage(pairs, quantity)
+        return leaves_list(z).astype(np.intp), z
+    return axis_order(mode, chains, pairs, quantity), None
+
+
 def axis_order(mode: str, chains, pairs, quantity: str) -> np.ndarray:
     n = len(chains)
     if mode == "sequence" or n < 3:

@@ -19,7 +19,7 @@ from PySide6.QtWidgets import QComboBox, QHBoxLayout, QLabel, QToolTip, QVBoxLay
 from energy.system import TERMS
 
 from ..models.array_table import format_energy
-from ..models.ordering import ORDERS, axis_order, dendrogram_segments, profile_linkage
+from ..models.ordering import ORDERS, axis_order_and_tree, dendrogram_segments
 
 QUANTITIES = {"total": "Total", "nonbonded": "Nonbonded (Coulomb + LJ)", "coulomb": "Coulomb",
               "lj": "Lennard-Jones", "bonded": "Bonded (all bonded terms)",
@@ -285,15 +285,11 @@ class PairMapView(QWidget):
 
     def _reorder(self, reset_view=False) -> None:
         ds = self.dataset
-        self.linkage = None
         if ds is None:
-            self.order = np.zeros(0, np.intp)
-        elif self.order_mode == "profile" and ds.n >= 3:
-            from scipy.cluster.hierarchy import leaves_list
-            self.linkage = profile_linkage(ds.pairs, self.quantity)
-            self.order = leaves_list(self.linkage).astype(np.intp)
+            self.order, self.linkage = np.zeros(0, np.intp), None
         else:
-            self.order = axis_order(self.order_mode, ds.chains, ds.pairs, self.quantity)
+            self.order, self.linkage = axis_order_and_tree(self.order_mode, ds.chains, ds.pairs,
+                                                           self.quantity)
         self.position = np.empty(len(self.order), np.intp)
         self.position[self.order] = np.arange(len(self.order))
         labels = [] if ds is None else list(ds.labels[self.order])

@@ -221,37 +221,23 @@ def _block_loop(xa, ya, za, qa, heavy_a, with_lj, bx, by, bz, bq, bheavy, brmin,
     a1, a2, c0 = consts[C_A1], consts[C_A2], consts[C_C0]
     on, inv_width = consts[C_SWITCH_ON], consts[C_SWITCH_INV_WIDTH]
     heavy = 1.0 if heavy_a else 0.0
-    if with_lj:
-        for b in range(len(bx)):
-            dx = bx[b] - xa
-            dy = by[b] - ya
-            dz = bz[b] - za
-            r2 = dx * dx + dy * dy + dz * dz
-            inside = r2 < cutoff2
-            r = np.sqrt(r2)
-            coul = _coulomb_form(qa * bq[b], r, 1.0 / r, r2, cf, w1, w2, a1, a2, c0)
+    for b in range(len(bx)):  # with_lj is loop-invariant: the compiler splits the loop on it
+        dx = bx[b] - xa
+        dy = by[b] - ya
+        dz = bz[b] - za
+        r2 = dx * dx + dy * dy + dz * dz
+        inside = r2 < cutoff2
+        r = np.sqrt(r2)
+        coul = _coulomb_form(qa * bq[b], r, 1.0 / r, r2, cf, w1, w2, a1, a2, c0)
+        acc_coul[b] += coul if inside else 0.0
+        if with_lj:
             eps = beps[b]
             lj = _lennard_jones(r2, brmin[b], eps) * _switch_form(r, on, inv_width)
-            acc_coul[b] += coul if inside else 0.0
             acc_lj[b] += lj if (inside and eps != 0.0) else 0.0
-            acc_count[b] += 1.0 if inside else 0.0
-            hr2 = r2 if heavy * bheavy[b] > 0.0 else np.inf
-            cur = acc_heavy[b]
-            acc_heavy[b] = hr2 if hr2 < cur else cur
-    else:
-        for b in range(len(bx)):
-            dx = bx[b] - xa
-            dy = by[b] - ya
-            dz = bz[b] - za
-            r2 = dx * dx + dy * dy + dz * dz
-            inside = r2 < cutoff2
-            r = np.sqrt(r2)
-            coul = _coulomb_form(qa * bq[b], r, 1.0 / r, r2, cf, w1, w2, a1, a2, c0)
-            acc_coul[b] += coul if inside else 0.0
-            acc_count[b] += 1.0 if inside else 0.0
-            hr2 = r2 if heavy * bheavy[b] > 0.0 else np.inf
-            cur = acc_heavy[b]
-            acc_heavy[b] = hr2 if hr2 < cur else cur
+        acc_count[b] += 1.0 if inside else 0.0
+        hr2 = r2 if heavy * bheavy[b] > 0.0 else np.inf
+        cur = acc_heavy[b]
+        acc_heavy[b] = hr2 if hr2 < cur else cur
 
 
 @numba.njit(cache=True, error_model="numpy")
