@@ -12,6 +12,8 @@ once in place: rows sorted by (I, J), I <= J, every (I, I) included.
 """
 from __future__ import annotations
 
+from typing import NamedTuple
+
 import numba
 import numpy as np
 
@@ -85,6 +87,48 @@ def _first_above(values, lo, hi, i):
     return lo
 
 
+@numba.njit(cache=True, inline="always")
+def _cell_in_reach(e, center_cell, shells, n_cells, periodic, col, gxy2, width, orthorhombic,
+                   base_reach, cell_max_radius):
+    """Whether the e-th cell along z of a column can hold a partner (its largest residue within
+    ``base_reach`` + its radius of the lower bound of the distance), for trimming a run's ends."""
+    off = e - shells
+    c = center_cell + off
+    if c < 0 or c >= n_cells:
+        if not periodic:
+            return False
+        c = c + n_cells if c < 0 else c - n_cells
+    gz = max(0, abs(off) - 1) * width
+    gap2 = gxy2 + gz * gz if orthorhombic else max(gxy2, gz * gz)
+    reach = base_reach + cell_max_radius[col + c]
+    return gap2 <= reach * reach
+
+
+@numba.njit(cache=True, inline="always")
+def _scan_run(s_lo, s_hi, i, shx, shy, shz, base, cell_x, cell_y, cell_z, cell_radius, cell_residue,
+              fill, row, found, pos):
+    """Residues ``s_lo:s_hi`` (cell order) that are partners J > I of residue I: counted, or
+    written to ``row`` branch-free (every candidate written, the position advanced on a hit)."""
+    if fill:
+        for s in range(s_lo, s_hi):
+            dx = cell_x[s] + shx
+            dy = cell_y[s] + shy
+            dz = cell_z[s] + shz
+            lim = base + cell_radius[s]
+            j = cell_residue[s]
+            row[pos] = j
+            pos += (dx * dx + dy * dy + dz * dz < lim * lim) & (j > i)
+    else:
+        for s in range(s_lo, s_hi):
+            dx = cell_x[s] + shx
+            dy = cell_y[s] + shy
+            dz = cell_z[s] + shz
+            lim = base + cell_radius[s]
+            hit = (dx * dx + dy * dy + dz * dz < lim * lim) & (cell_residue[s] > i)
+            found += 1 if hit else 0
+    return found, pos
+
+
 @numba.njit(cache=True)
 def _radix_sort(a):
     """Sort the non-negative integers ``a`` in place: LSD radix sort, 8 bits a pass, over the span
@@ -122,7 +166,8 @@ def _radix_sort(a):
 
 @numba.njit(parallel=True, cache=True, error_model="numpy")
 def _search_rows(centers, radii, cutoff, periodic, h, orthorhombic, cell, dims, idx, start,
-                 cell_xyz, cell_radius, cell_residue, cell_max_radius, r_max, row_order, row_start,
+                 cell_xyz, cell_radius, cell_residue, cell_max_radius, column_max_radius, r_max,
+                 row_order, row_start,
                  out_i, out_j, fill):
     """Partners J > I of every residue I, row by row in parallel (each row owned by one thread).
 
@@ -147,8 +192,9 @@ def _search_rows(centers, radii, cutoff, periodic, h, orthorhombic, cell, dims, 
         ci0, ci1, ci2 = centers[i, 0], centers[i, 1], centers[i, 2]
         found = 0
         pos = 0
-        if fill:  # row I is gathered in its own buffer (one slot of slack for the branch-free write)
-            row = np.empty(row_start[i + 1] - row_start[i] + 1, np.intp)
+        # Row I is gathered in its own buffer (one slot of slack for the branch-free write).
+        row = np.empty(row_start[i + 1] - row_start[i] + 1 if fill else 0, np.intp)
+        if fill:
             row[0] = i
             pos = 1
         for a in range(nx):
@@ -172,11 +218,47 @@ def _search_rows(centers, radii, cutoff, periodic, h, orthorhombic, cell, dims, 
                     left = reach_max * reach_max - gxy2 if orthorhombic else reach_max * reach_max
                     z_reach = min(sz_, 1 + int(np.sqrt(left) / cell[2]))
                     e_lo, e_hi = sz_ - z_reach, sz_ + z_reach + 1
+                col = (cx * dims[1] + cy) * dims[2]
+                if exact_shift:
+                    # The column's cells in reach form at most three runs (below, inside, above the
+                    # lattice along z), each contiguous in cell order: scan each run in one loop.
+                    reach_col = cutoff + ri + column_max_radius[cx * dims[1] + cy]
+                    if gxy2 > reach_col * reach_col:
+                        continue
+                    while e_lo < e_hi and not _cell_in_reach(e_lo, idx[i, 2], sz_, dims[2], periodic,
+                                                             col, gxy2, cell[2], orthorhombic,
+                                                             cutoff + ri, cell_max_radius):
+                        e_lo += 1
+                    while e_hi > e_lo and not _cell_in_reach(e_hi - 1, idx[i, 2], sz_, dims[2],
+                                                             periodic, col, gxy2, cell[2],
+                                                             orthorhombic, cutoff + ri,
+                                                             cell_max_radius):
+                        e_hi -= 1
+                    below = sz_ - idx[i, 2]          # offsets e < below fall below the lattice
+                    above = dims[2] + sz_ - idx[i, 2]  # offsets e >= above fall above it
+                    for wz in range(-1, 2):
+                        if wz == -1:
+                            p, q = e_lo, min(e_hi, below)
+                        elif wz == 0:
+                            p, q = max(e_lo, below), min(e_hi, above)
+                        else:
+                            p, q = max(e_lo, above), e_hi
+                        if p >= q or (wz != 0 and not periodic):
+                            continue
+                        c_first = idx[i, 2] + p - sz_ - wz * dims[2]
+                        shx = wx * h[0, 0] + wy * h[1, 0] + wz * h[2, 0] - ci0
+                        shy = wy * h[1, 1] + wz * h[2, 1] - ci1
+                        shz = wz * h[2, 2] - ci2
+                        found, pos = _scan_run(start[col + c_first], start[col + c_first + q - p],
+                                               i, shx, shy, shz, cutoff + ri, cell_xyz[0],
+                                               cell_xyz[1], cell_xyz[2], cell_radius,
+                                               cell_residue, fill, row, found, pos)
+                    continue
                 for e in range(e_lo, e_hi):
                     cz, wz, oz = _axis_cell(e, idx[i, 2], sz_, dims[2], periodic, cov_z)
                     if cz < 0:
                         continue
-                    c = (cx * dims[1] + cy) * dims[2] + cz
+                    c = col + cz
                     # Lower bound of the distance to any point of this cell (per-axis gaps are
                     # perpendicular distances; they add in quadrature only in orthorhombic cells).
                     gz = max(0, abs(oz) - 1) * cell[2]
@@ -186,38 +268,14 @@ def _search_rows(centers, radii, cutoff, periodic, h, orthorhombic, cell, dims, 
                         continue
                     hi = start[c + 1]
                     lo = _first_above(cell_residue, start[c], hi, i)
-                    if lo >= hi:
-                        continue
-                    if exact_shift:
-                        # centres are wrapped into the cell; the visited cell's image shift is known
-                        shx = wx * h[0, 0] + wy * h[1, 0] + wz * h[2, 0] - ci0
-                        shy = wy * h[1, 1] + wz * h[2, 1] - ci1
-                        shz = wz * h[2, 2] - ci2
-                        base = cutoff + ri
-                        if fill:  # branch-free: write every candidate, advance on a hit
-                            for s in range(lo, hi):
-                                dx = cell_xyz[s, 0] + shx
-                                dy = cell_xyz[s, 1] + shy
-                                dz = cell_xyz[s, 2] + shz
-                                lim = base + cell_radius[s]
+                    for s in range(lo, hi):
+                        if _close(i, cell_residue[s], centers, radii, cutoff, periodic, h,
+                                  orthorhombic):
+                            if fill:
                                 row[pos] = cell_residue[s]
-                                pos += dx * dx + dy * dy + dz * dz < lim * lim
-                        else:
-                            for s in range(lo, hi):
-                                dx = cell_xyz[s, 0] + shx
-                                dy = cell_xyz[s, 1] + shy
-                                dz = cell_xyz[s, 2] + shz
-                                lim = base + cell_radius[s]
-                                found += dx * dx + dy * dy + dz * dz < lim * lim
-                    else:
-                        for s in range(lo, hi):
-                            if _close(i, cell_residue[s], centers, radii, cutoff, periodic, h,
-                                      orthorhombic):
-                                if fill:
-                                    row[pos] = cell_residue[s]
-                                    pos += 1
-                                else:
-                                    found += 1
+                                pos += 1
+                            else:
+                                found += 1
         if fill:
             _radix_sort(row[1:pos])
             first = row_start[i]
@@ -228,7 +286,28 @@ def _search_rows(centers, radii, cutoff, periodic, h, orthorhombic, cell, dims, 
     return counts
 
 
+class CellRows(NamedTuple):
+    """Result of :func:`search_rows`: CSR rows of candidate residue pairs, and a spatial order."""
+
+    pair_i: np.ndarray
+    pair_j: np.ndarray
+    row_start: np.ndarray
+    #: (n,) the residues in cell order: neighbours in space are close in this order, so rows
+    #: taken in it reuse each other's partners from cache.
+    spatial_order: np.ndarray
+
+
+#: prange iterations handed to a thread at a time (numba's dynamic chunking): rows differ in
+#: cost (a large residue has many partners), so static halves would not balance.
+ROWS_PER_GRAB = 64
+
+
 def candidate_pairs_cells(centers, radii, cutoff: float, cell_matrix=None):
+    """(pair_i, pair_j, row_start) of :func:`search_rows`."""
+    return search_rows(centers, radii, cutoff, cell_matrix)[:3]
+
+
+def search_rows(centers, radii, cutoff: float, cell_matrix=None) -> CellRows:
     """Residue pairs (I <= J, sorted, diagonal included) with |c_I - c_J| < cutoff + r_I + r_J.
 
     Returns ``(pair_i, pair_j, row_start)``: (m,) arrays sorted by (I, J), and the CSR row
@@ -240,7 +319,8 @@ def candidate_pairs_cells(centers, radii, cutoff: float, cell_matrix=None):
     """
     n = len(centers)
     if n == 0:
-        return np.zeros(0, np.intp), np.zeros(0, np.intp), np.zeros(1, np.int64)
+        return CellRows(np.zeros(0, np.intp), np.zeros(0, np.intp), np.zeros(1, np.int64),
+                        np.zeros(0, np.intp))
     centers = np.ascontiguousarray(centers, np.float64)
     radii = np.ascontiguousarray(radii, np.float64)
     periodic = cell_matrix is not None
@@ -268,22 +348,24 @@ def candidate_pairs_cells(centers, radii, cutoff: float, cell_matrix=None):
         idx = np.minimum(((centers - lo) / cell).astype(np.int64), dims - 1)
     idx = np.ascontiguousarray(idx)
     order, start, flat = _bin(idx, dims)
-    cell_xyz = np.ascontiguousarray(centers[order])
+    cell_xyz = np.ascontiguousarray(centers[order].T)  # (3, n): x, y, z rows
     cell_radius = np.ascontiguousarray(radii[order])
     cell_residue = order.astype(np.intp)
     cell_max_radius = np.zeros(int(np.prod(dims)))
     np.maximum.at(cell_max_radius, flat, radii)
     r_max = float(radii.max())
     args = (centers, radii, cutoff, periodic, h, orthorhombic, cell, dims, idx, start, cell_xyz,
-            cell_radius, cell_residue, cell_max_radius, r_max, interleaved_rows(0, n))
+            cell_radius, cell_residue, cell_max_radius,
+            cell_max_radius.reshape(dims[0] * dims[1], dims[2]).max(axis=1), r_max, cell_residue)
     none = np.zeros(0, np.intp)
-    counts = _search_rows(*args, np.zeros(1, np.int64), none, none, False)
-    row_start = np.zeros(n + 1, np.int64)
-    np.cumsum(counts + 1, out=row_start[1:])
-    pair_i = np.empty(row_start[-1], np.intp)
-    pair_j = np.empty(row_start[-1], np.intp)
-    _search_rows(*args, row_start, pair_i, pair_j, True)
-    return pair_i, pair_j, row_start
+    with numba.parallel_chunksize(ROWS_PER_GRAB):
+        counts = _search_rows(*args, np.zeros(1, np.int64), none, none, False)
+        row_start = np.zeros(n + 1, np.int64)
+        np.cumsum(counts + 1, out=row_start[1:])
+        pair_i = np.empty(row_start[-1], np.intp)
+        pair_j = np.empty(row_start[-1], np.intp)
+        _search_rows(*args, row_start, pair_i, pair_j, True)
+    return CellRows(pair_i, pair_j, row_start, cell_residue)
 
 
 def interleaved_rows(lo: int, hi: int) -> np.ndarray:
@@ -344,3 +426,20 @@ def accumulate(target, idx, values):
     """target[idx[k]] += values[k] for every k (serial, so sums are reproducible)."""
     for k in range(len(idx)):
         target[idx[k]] += values[k]
+
+
+@numba.njit(parallel=True, cache=True)
+def _fill_in_parallel(a, value, parts):
+    n = len(a)
+    for t in numba.prange(parts):
+        for k in range(t * n // parts, (t + 1) * n // parts):
+            a[k] = value
+
+
+def zeros_in_parallel(n: int) -> np.ndarray:
+    """``np.zeros(n)`` whose pages are first touched by all threads at once: a fresh column that
+    is then written all over (scattered entries on every page) costs its page faults on one
+    thread otherwise (~35 ms for 45 MB here, against ~13 ms)."""
+    a = np.empty(n)
+    _fill_in_parallel(a, 0.0, numba.get_num_threads())
+    return a

@@ -154,7 +154,7 @@ def assemble(n_residues: int, base_i: np.ndarray, base_j: np.ndarray, row_start:
     are dropped, unless they are few (copying then costs more than keeping them; they hold zeros
     and never reach the reports, which list nonzero entries).
     """
-    from .cells import accumulate, locate_pairs
+    from .cells import accumulate, locate_pairs, zeros_in_parallel
     located = [locate_pairs(row_start, base_j, np.ascontiguousarray(pi, np.intp),
                             np.ascontiguousarray(pj, np.intp)) for _, pi, pj, _ in contributions]
     if any((loc < 0).any() for loc in located):
@@ -166,7 +166,7 @@ def assemble(n_residues: int, base_i: np.ndarray, base_j: np.ndarray, row_start:
     for (term, _, _, v), idx in zip(contributions, located):
         if len(idx):
             if values[term] is None:
-                values[term] = np.zeros(m)
+                values[term] = zeros_in_parallel(m)
             accumulate(values[term], idx, np.ascontiguousarray(v, np.float64))
             touched[idx] = True
     n_touched = int(np.count_nonzero(touched))

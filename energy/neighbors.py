@@ -9,7 +9,9 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+import numba
 import numpy as np
+
 from .pbc import minimum_image_vectors
 
 
@@ -45,3 +47,22 @@ def residue_spheres(positions, residue_atoms: ResidueAtoms, resindex, box=None):
     radii = np.zeros(n_res)
     np.maximum.at(radii, resindex, dist)
     return centers, radii
+
+
+@numba.njit(cache=True)
+def spatial_layout(order, ptr, atoms):
+    """Atom rows with the residues taken in ``order`` (each residue's atoms kept together):
+    ``(atom_of, res_start, res_end)``, where residue r's atoms are the system atoms
+    ``atom_of[res_start[r]:res_end[r]]``."""
+    n_res = len(ptr) - 1
+    atom_of = np.empty(len(atoms), np.intp)
+    res_start = np.empty(n_res, np.intp)
+    res_end = np.empty(n_res, np.intp)
+    k = 0
+    for r in order:
+        res_start[r] = k
+        for a in range(ptr[r], ptr[r + 1]):
+            atom_of[k] = atoms[a]
+            k += 1
+        res_end[r] = k
+    return atom_of, res_start, res_end

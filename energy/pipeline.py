@@ -11,10 +11,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .cells import all_pairs_rows, candidate_pairs_cells, locate_pairs
+from .cells import all_pairs_rows, locate_pairs, search_rows
 from .decompose import ResiduePairEnergies, assemble, sorted_unique, split_over_residue_pairs
 from .errors import InputMismatchError
-from .neighbors import ResidueAtoms, residue_spheres
+from .neighbors import ResidueAtoms, residue_spheres, spatial_layout
 from .pbc import is_orthorhombic, perpendicular_widths, periodic_cell
 from .settings import EnergySettings
 from .system import BONDED_TERMS, TERMS, Frame, MolecularSystem
@@ -168,23 +168,29 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
 
     # Ordinary nonbonded pairs, residue pair by residue pair.
     res_atoms = system.derived("residue_atoms", _residue_atoms)
-    q_r, t_r, heavy_r, identity = system.derived("residue_ordered_atoms", _residue_ordered_atoms)
     excl_ptr, excl_idx = system.derived("exclusion_csr", _exclusions)
     kc = KernelConstants.from_settings(settings)
     blocked = (settings.cutoff_angstrom is None
                and n_res * (n_res + 1) // 2 > residue_rows.ALL_PAIRS_LISTED_LIMIT)
+    spatial_order = None
     if settings.cutoff_angstrom is None:
         centers, radii = np.zeros((n_res, 3)), np.zeros(n_res)
         if not blocked:
             pair_i, pair_j, row_start = all_pairs_rows(n_res)
+        q_r, t_r, heavy_r, identity = system.derived("residue_ordered_atoms", _residue_ordered_atoms)
+        atom_of, res_start, res_end = res_atoms.atoms, res_atoms.ptr[:-1], res_atoms.ptr[1:]
+        x_r = x if identity else np.ascontiguousarray(x[atom_of])
     else:
         centers, radii = residue_spheres(x, res_atoms, system.resindex, box if periodic else None)
-        pair_i, pair_j, row_start = candidate_pairs_cells(centers, radii, settings.cutoff_angstrom,
-                                                          h if periodic else None)
+        pair_i, pair_j, row_start, spatial_order = search_rows(
+            centers, radii, settings.cutoff_angstrom, h if periodic else None)
+        # Residues laid out in the search's spatial order: a row's partners sit close in memory.
+        atom_of, res_start, res_end = spatial_layout(spatial_order, res_atoms.ptr, res_atoms.atoms)
+        x_r, q_r = x[atom_of], system.charges[atom_of]
+        t_r, heavy_r = system.lj_type[atom_of], system.is_heavy[atom_of]
     inputs = residue_rows.KernelInputs(
-        x if identity else np.ascontiguousarray(x[res_atoms.atoms]), q_r, t_r, system.lj_rmin,
-        system.lj_eps, system.derived("type_has_lj", _type_has_lj),
-        heavy_r, res_atoms.atoms, res_atoms.ptr, excl_ptr, excl_idx, centers, radii,
+        x_r, q_r, t_r, system.lj_rmin, system.lj_eps, system.derived("type_has_lj", _type_has_lj),
+        heavy_r, atom_of, res_start, res_end, excl_ptr, excl_idx, centers, radii,
         h, orthorhombic, min_width, periodic, kc.values, kc.cutoff2,
         VECTORISED_KERNEL and settings.vdw == "lj")
     t_search = time.perf_counter()
@@ -193,14 +199,15 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
             inputs, n_res, system.derived("exception_residue_keys", _exception_residue_keys))
     else:
         rows = yield from residue_rows.evaluate_listed(
-            inputs, pair_i, pair_j, row_start, _exception_residue_flags(system, pair_j, row_start))
+            inputs, pair_i, pair_j, row_start, _exception_residue_flags(system, pair_j, row_start),
+            spatial_order)
     totals["coulomb"] += rows.coulomb_total
     totals["lj"] += rows.lj_total
     t_kernel = time.perf_counter()
 
     residue_pairs = assemble(n_res, rows.pair_i, rows.pair_j, rows.row_start,
                              {"coulomb": rows.coulomb, "lj": rows.lj},
-                             np.sqrt(rows.min_heavy2, out=rows.min_heavy2),  # in place: r^2 -> r
+                             rows.min_heavy,
                              rows.count > 0, contributions)
     totals["total"] = float(sum(totals[t] for t in TERMS))
     t_end = time.perf_counter()

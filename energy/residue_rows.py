@@ -17,6 +17,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+import numba
 import numpy as np
 
 from .cells import interleaved_rows, locate_pairs, upper_triangle_rows
@@ -37,15 +38,16 @@ MAX_LISTED_PAIRS = 60_000_000
 class KernelInputs:
     """Everything :func:`energy.terms.nonbonded.residue_rows_kernel` takes besides the rows."""
 
-    positions: np.ndarray      # (n_atoms, 3) in residue order
+    positions: np.ndarray      # (n_atoms, 3), each residue's atoms together (kernel layout)
     charges: np.ndarray
     lj_type: np.ndarray
     lj_rmin: np.ndarray
     lj_eps: np.ndarray
     type_has_lj: np.ndarray    # (n_types,) bool: the type has a nonzero well depth with some type
     is_heavy: np.ndarray
-    atom_of: np.ndarray        # residue-order row -> system atom index
-    res_ptr: np.ndarray
+    atom_of: np.ndarray        # kernel atom row -> system atom index
+    res_start: np.ndarray      # (n_res,) residue r's atoms are rows res_start[r]:res_end[r]
+    res_end: np.ndarray
     excl_ptr: np.ndarray
     excl_idx: np.ndarray
     centers: np.ndarray
@@ -58,13 +60,15 @@ class KernelInputs:
     cutoff2: float
     vectorised: bool
 
-    def run(self, rows, row_start, pair_j, has_excl, coul, lj, count, min_h2) -> None:
-        residue_rows_kernel(self.positions, self.charges, self.lj_type, self.lj_rmin, self.lj_eps,
-                            self.type_has_lj, self.is_heavy, self.atom_of,
-                            self.res_ptr, rows, row_start, pair_j, has_excl, self.excl_ptr,
-                            self.excl_idx, self.centers, self.radii, self.box_matrix,
-                            self.orthorhombic, self.min_width, self.periodic, self.constants,
-                            self.cutoff2, self.vectorised, coul, lj, count, min_h2)
+    def run(self, rows, row_start, pair_j, has_excl, coul, lj, count, min_heavy) -> None:
+        with numba.parallel_chunksize(1):  # the kernel's chunks go to whichever thread is free
+            residue_rows_kernel(self.positions, self.charges, self.lj_type, self.lj_rmin,
+                                self.lj_eps, self.type_has_lj, self.is_heavy, self.atom_of,
+                                self.res_start, self.res_end, rows, row_start, pair_j, has_excl,
+                                self.excl_ptr, self.excl_idx, self.centers, self.radii,
+                                self.box_matrix, self.orthorhombic, self.min_width, self.periodic,
+                                self.constants, self.cutoff2, self.vectorised, coul, lj, count,
+                                min_heavy)
 
 
 @dataclass(frozen=True)
@@ -77,27 +81,36 @@ class RowResults:
     coulomb: np.ndarray
     lj: np.ndarray
     count: np.ndarray
-    min_heavy2: np.ndarray
+    min_heavy: np.ndarray
     coulomb_total: float
     lj_total: float
     n_atom_pairs: int
     unlisted: dict | None = None   # block mode: n_pairs, coulomb, lj, below (kcal/mol)
 
 
-def evaluate_listed(inputs: KernelInputs, pair_i, pair_j, row_start, has_excl):
-    """Every given row, kept.  Generator: yields progress, returns :class:`RowResults`."""
+def evaluate_listed(inputs: KernelInputs, pair_i, pair_j, row_start, has_excl, row_order=None):
+    """Every given row, kept.  Generator: yields progress, returns :class:`RowResults`.
+
+    ``row_order``: the order to take rows in (the cell search's spatial order, so that
+    consecutive rows share partners in cache); by default rows are dealt round-robin."""
     n_res = len(row_start) - 1
     m = len(pair_i)
     coul = np.zeros(m); lj = np.zeros(m)
-    count = np.zeros(m, np.int64); min_h2 = np.zeros(m)
+    count = np.zeros(m, np.int32); min_heavy = np.zeros(m)
     yield 0, m
-    cuts = np.unique(np.searchsorted(row_start, np.arange(0, m, BLOCK_PAIRS), side="right") - 1)
-    first = 0
-    for last in [*cuts[cuts > 0], n_res]:
-        inputs.run(interleaved_rows(first, last), row_start, pair_j, has_excl, coul, lj, count, min_h2)
-        first = last
-        yield int(row_start[last]), m
-    return RowResults(pair_i, pair_j, row_start, coul, lj, count, min_h2, float(coul.sum()),
+    if row_order is None:
+        cuts = np.unique(np.searchsorted(row_start, np.arange(0, m, BLOCK_PAIRS), side="right") - 1)
+        blocks = [interleaved_rows(a, b) for a, b in zip([0, *cuts[cuts > 0]], [*cuts[cuts > 0], n_res])]
+    else:
+        done = np.cumsum(np.diff(row_start)[row_order])
+        cuts = np.unique(np.searchsorted(done, np.arange(BLOCK_PAIRS, m, BLOCK_PAIRS)))
+        blocks = np.split(row_order, cuts)
+    finished = 0
+    for rows in blocks:
+        inputs.run(rows, row_start, pair_j, has_excl, coul, lj, count, min_heavy)
+        finished += int(np.sum(row_start[rows + 1] - row_start[rows]))
+        yield finished, m
+    return RowResults(pair_i, pair_j, row_start, coul, lj, count, min_heavy, float(coul.sum()),
                       float(lj.sum()), int(count.sum()))
 
 
@@ -113,7 +126,7 @@ def evaluate_all_pairs_in_blocks(inputs: KernelInputs, n_res: int, exception_key
     exc_lo, exc_hi = exception_keys
     total = n_res * (n_res + 1) // 2
     row_start = np.zeros(n_res + 1, np.int64)
-    kept = {k: [] for k in ("i", "j", "coulomb", "lj", "count", "min_heavy2")}
+    kept = {k: [] for k in ("i", "j", "coulomb", "lj", "count", "min_heavy")}
     n_kept = 0
     coul_total = lj_total = 0.0
     n_atom_pairs = 0
@@ -131,8 +144,8 @@ def evaluate_all_pairs_in_blocks(inputs: KernelInputs, n_res: int, exception_key
             rows = locate_pairs(row_start, pair_j, exc_lo[sel], exc_hi[sel])
             has_excl[rows[rows >= 0]] = True
         coul = np.zeros(m); lj = np.zeros(m)
-        count = np.zeros(m, np.int64); min_h2 = np.zeros(m)
-        inputs.run(interleaved_rows(lo, hi), row_start, pair_j, has_excl, coul, lj, count, min_h2)
+        count = np.zeros(m, np.int32); min_heavy = np.zeros(m)
+        inputs.run(interleaved_rows(lo, hi), row_start, pair_j, has_excl, coul, lj, count, min_heavy)
         coul_total += float(coul.sum())
         lj_total += float(lj.sum())
         n_atom_pairs += int(count.sum())
@@ -142,7 +155,7 @@ def evaluate_all_pairs_in_blocks(inputs: KernelInputs, n_res: int, exception_key
         unlisted["coulomb"] += float(coul[drop].sum())
         unlisted["lj"] += float(lj[drop].sum())
         for key, col in (("i", pair_i), ("j", pair_j), ("coulomb", coul), ("lj", lj),
-                         ("count", count), ("min_heavy2", min_h2)):
+                         ("count", count), ("min_heavy", min_heavy)):
             kept[key].append(col[keep])
         n_kept += int(keep.sum())
         if n_kept > MAX_LISTED_PAIRS:
@@ -156,4 +169,4 @@ def evaluate_all_pairs_in_blocks(inputs: KernelInputs, n_res: int, exception_key
     starts = np.zeros(n_res + 1, np.int64)
     np.cumsum(np.bincount(cols["i"], minlength=n_res), out=starts[1:])
     return RowResults(cols["i"], cols["j"], starts, cols["coulomb"], cols["lj"], cols["count"],
-                      cols["min_heavy2"], coul_total, lj_total, n_atom_pairs, unlisted)
+                      cols["min_heavy"], coul_total, lj_total, n_atom_pairs, unlisted)

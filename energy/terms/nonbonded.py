@@ -172,7 +172,8 @@ def _image_shift(ri, rj, centers, h, orthorhombic):
 
 @numba.njit(cache=True)
 def _residue_pair_scalar(ri, rj, check, per_atom_image, sx, sy, sz, pos, charges, lj_type,
-                         rmin_tab, eps_tab, is_heavy, atom_of, res_ptr, excl_ptr, excl_idx, h,
+                         rmin_tab, eps_tab, is_heavy, atom_of, res_start, res_end, excl_ptr,
+                         excl_idx, h,
                          orthorhombic, consts, cutoff2):
     """One residue pair, atom pair by atom pair: (Coulomb, vdW, pairs in range, min heavy r^2).
 
@@ -183,15 +184,15 @@ def _residue_pair_scalar(ri, rj, check, per_atom_image, sx, sy, sz, pos, charges
     lj_sum = 0.0
     count = 0
     min_h = np.inf
-    for ka in range(res_ptr[ri], res_ptr[ri + 1]):
+    for ka in range(res_start[ri], res_end[ri]):
         xa = pos[ka, 0] + sx
         ya = pos[ka, 1] + sy
         za = pos[ka, 2] + sz
         qa = charges[ka]
         ta = lj_type[ka]
         ha = is_heavy[ka]
-        start_b = ka + 1 if ri == rj else res_ptr[rj]
-        for kb in range(start_b, res_ptr[rj + 1]):
+        start_b = ka + 1 if ri == rj else res_start[rj]
+        for kb in range(start_b, res_end[rj]):
             dx = pos[kb, 0] - xa
             dy = pos[kb, 1] - ya
             dz = pos[kb, 2] - za
@@ -242,9 +243,10 @@ def _block_loop(xa, ya, za, qa, heavy_a, with_lj, bx, by, bz, bq, bheavy, brmin,
 
 @numba.njit(cache=True, error_model="numpy")
 def _rows_chunk(k_lo, k_hi, pos, charges, lj_type, rmin_tab, eps_tab, type_has_lj, is_heavy,
-                atom_of, res_ptr, rows, row_start, pair_j, pair_has_excl, excl_ptr, excl_idx,
+                atom_of, res_start, res_end, rows, row_start, pair_j, pair_has_excl, excl_ptr,
+                excl_idx,
                 centers, radii, h, orthorhombic, min_width, periodic, consts, cutoff2, vectorised,
-                out_coul, out_lj, out_count, out_min_heavy2):
+                out_coul, out_lj, out_count, out_min_heavy):
     """Rows ``rows[k_lo:k_hi]`` on one thread (a separate function, so that its work arrays are
     private to the calling thread)."""
     cutoff = np.sqrt(cutoff2)
@@ -278,14 +280,14 @@ def _rows_chunk(k_lo, k_hi, pos, charges, lj_type, rmin_tab, eps_tab, type_has_l
                 c, l, n, m = _residue_pair_scalar(ri, rj, pair_has_excl[p], per_atom,
                                                   shifts[q, 0], shifts[q, 1], shifts[q, 2],
                                                   pos, charges, lj_type, rmin_tab, eps_tab,
-                                                  is_heavy, atom_of, res_ptr, excl_ptr,
+                                                  is_heavy, atom_of, res_start, res_end, excl_ptr,
                                                   excl_idx, h, orthorhombic, consts, cutoff2)
                 out_coul[p] = c
                 out_lj[p] = l
                 out_count[p] = n
-                out_min_heavy2[p] = m
+                out_min_heavy[p] = np.sqrt(m)
             else:
-                n_block += res_ptr[rj + 1] - res_ptr[rj]
+                n_block += res_end[rj] - res_start[rj]
         if n_block == 0:
             continue
         if n_block > cap_atoms:
@@ -304,7 +306,7 @@ def _rows_chunk(k_lo, k_hi, pos, charges, lj_type, rmin_tab, eps_tab, type_has_l
             if scalar[q]:
                 continue
             rj = pair_j[p0 + q]
-            for kb in range(res_ptr[rj], res_ptr[rj + 1]):
+            for kb in range(res_start[rj], res_end[rj]):
                 bx[m] = pos[kb, 0] - shifts[q, 0]
                 by[m] = pos[kb, 1] - shifts[q, 1]
                 bz[m] = pos[kb, 2] - shifts[q, 2]
@@ -317,7 +319,7 @@ def _rows_chunk(k_lo, k_hi, pos, charges, lj_type, rmin_tab, eps_tab, type_has_l
         acc_count[:] = 0.0
         acc_heavy[:] = np.inf
         last_type = -1
-        for ka in range(res_ptr[ri], res_ptr[ri + 1]):
+        for ka in range(res_start[ri], res_end[ri]):
             ta = lj_type[ka]
             if ta != last_type:  # LJ parameters of this type against the block, gathered once
                 for b in range(n_block):
@@ -333,7 +335,7 @@ def _rows_chunk(k_lo, k_hi, pos, charges, lj_type, rmin_tab, eps_tab, type_has_l
             if scalar[q]:
                 continue
             rj = pair_j[p0 + q]
-            size = res_ptr[rj + 1] - res_ptr[rj]
+            size = res_end[rj] - res_start[rj]
             c = 0.0
             l = 0.0
             n = 0.0
@@ -348,24 +350,26 @@ def _rows_chunk(k_lo, k_hi, pos, charges, lj_type, rmin_tab, eps_tab, type_has_l
             out_coul[p] = c
             out_lj[p] = l
             out_count[p] = int(n)
-            out_min_heavy2[p] = mh
+            out_min_heavy[p] = np.sqrt(mh)
 
 
 @numba.njit(parallel=True, cache=True, error_model="numpy")
 def residue_rows_kernel(pos, charges, lj_type, rmin_tab, eps_tab, type_has_lj, is_heavy, atom_of,
-                        res_ptr, rows, row_start, pair_j, pair_has_excl, excl_ptr, excl_idx,
+                        res_start, res_end, rows, row_start, pair_j, pair_has_excl, excl_ptr,
+                        excl_idx,
                         centers, radii, h, orthorhombic, min_width, periodic, consts, cutoff2,
-                        vectorised, out_coul, out_lj, out_count, out_min_heavy2):
+                        vectorised, out_coul, out_lj, out_count, out_min_heavy):
     """Sum Coulomb and LJ over every atom pair of each residue pair of the given CSR rows.
 
     Row I holds the residue pairs ``row_start[I]:row_start[I+1]`` (partners ``pair_j``, the
     first being (I, I)); results go to ``out_*[p]`` of each pair p (kcal/mol; count of atom pairs
-    in range; smallest heavy-atom r^2 examined).  Rows run in parallel (numba ``prange``), each
-    owned by one thread, so no atom-pair array is ever materialised.
+    in range; smallest heavy-atom distance examined, inf when none).  Rows run in parallel
+    (numba ``prange``), each owned by one thread, so no atom-pair array is ever materialised.
 
-    Per-atom inputs (``pos``, ``charges``, ``lj_type``, ``is_heavy``) are in residue order: the
-    atoms of residue r are ``res_ptr[r]:res_ptr[r+1]``; ``atom_of`` maps back to the system's
-    atom index (for the exclusion lists).  In a periodic cell (box matrix ``h``, smallest
+    Per-atom inputs (``pos``, ``charges``, ``lj_type``, ``is_heavy``) hold each residue's atoms
+    together: those of residue r are ``res_start[r]:res_end[r]`` (the residues themselves may lie
+    in any order; spatial order keeps a row's partners close in memory); ``atom_of`` maps back
+    to the system's atom index (for the exclusion lists).  In a periodic cell (box matrix ``h``, smallest
     perpendicular width ``min_width``) residue J takes one image, chosen from the residue centres,
     when the cell is wider than twice cutoff + r_I + r_J (then only one image can hold atoms in
     range); otherwise each atom pair takes its own minimum image.
@@ -380,10 +384,11 @@ def residue_rows_kernel(pos, charges, lj_type, rmin_tab, eps_tab, type_has_lj, i
     n_chunks = min(len(rows), 64)
     for chunk in numba.prange(n_chunks):
         _rows_chunk(chunk * len(rows) // n_chunks, (chunk + 1) * len(rows) // n_chunks, pos,
-                    charges, lj_type, rmin_tab, eps_tab, type_has_lj, is_heavy, atom_of, res_ptr,
+                    charges, lj_type, rmin_tab, eps_tab, type_has_lj, is_heavy, atom_of, res_start,
+                    res_end,
                     rows, row_start, pair_j, pair_has_excl, excl_ptr, excl_idx, centers, radii, h,
                     orthorhombic, min_width, periodic, consts, cutoff2, vectorised, out_coul,
-                    out_lj, out_count, out_min_heavy2)
+                    out_lj, out_count, out_min_heavy)
 
 
 def exclusion_csr(exception_pairs: np.ndarray, n_atoms: int):
