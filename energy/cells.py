@@ -108,9 +108,11 @@ def _cell_in_reach(e, center_cell, shells, n_cells, periodic, col, gxy2, width, 
 def _scan_run(s_lo, s_hi, i, shx, shy, shz, base, cell_x, cell_y, cell_z, cell_radius, cell_residue,
               fill, row, found, pos):
     """Residues ``s_lo:s_hi`` (cell order) that are partners J > I of residue I: counted, or
-    written to ``row`` branch-free (every candidate written, the position advanced on a hit)."""
+    written to ``row`` branch-free (every candidate written, the position advanced on a hit).
+    Unsigned indices spare the negative-index wrap-around on every load (so the count loop
+    vectorises with plain loads)."""
     if fill:
-        for s in range(s_lo, s_hi):
+        for s in range(np.uint64(s_lo), np.uint64(s_hi)):
             dx = cell_x[s] + shx
             dy = cell_y[s] + shy
             dz = cell_z[s] + shz
@@ -119,7 +121,7 @@ def _scan_run(s_lo, s_hi, i, shx, shy, shz, base, cell_x, cell_y, cell_z, cell_r
             row[pos] = j
             pos += (dx * dx + dy * dy + dz * dz < lim * lim) & (j > i)
     else:
-        for s in range(s_lo, s_hi):
+        for s in range(np.uint64(s_lo), np.uint64(s_hi)):
             dx = cell_x[s] + shx
             dy = cell_y[s] + shy
             dz = cell_z[s] + shz

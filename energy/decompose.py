@@ -165,8 +165,8 @@ def assemble(n_residues: int, base_i: np.ndarray, base_j: np.ndarray, row_start:
     touched = base_keep.copy()
     for (term, _, _, v), idx in zip(contributions, located):
         if len(idx):
-            if values[term] is None:
-                values[term] = zeros_in_parallel(m)
+            if values[term] is None:  # entries on most pages: fault them all at once, in parallel
+                values[term] = zeros_in_parallel(m) if len(idx) > m // 512 else np.zeros(m)
             accumulate(values[term], idx, np.ascontiguousarray(v, np.float64))
             touched[idx] = True
     n_touched = int(np.count_nonzero(touched))

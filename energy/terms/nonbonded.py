@@ -222,7 +222,7 @@ def _block_loop(xa, ya, za, qa, heavy_a, with_lj, bx, by, bz, bq, bheavy, brmin,
     a1, a2, c0 = consts[C_A1], consts[C_A2], consts[C_C0]
     on, inv_width = consts[C_SWITCH_ON], consts[C_SWITCH_INV_WIDTH]
     heavy = 1.0 if heavy_a else 0.0
-    for b in range(len(bx)):  # with_lj is loop-invariant: the compiler splits the loop on it
+    for b in range(np.uint64(0), np.uint64(len(bx))):  # with_lj is loop-invariant: split on it
         dx = bx[b] - xa
         dy = by[b] - ya
         dz = bz[b] - za
@@ -301,19 +301,20 @@ def _rows_chunk(k_lo, k_hi, pos, charges, lj_type, rmin_tab, eps_tab, type_has_l
         acc_count, acc_heavy = work[9, :n_block], work[10, :n_block]
         bt = types[:n_block]
         # Gather the partners' atoms, moved into residue I's frame (minus the image shift).
-        m = 0
+        # (Unsigned indices here and below spare numba's negative-index wrap-around per load.)
+        g = np.uint64(0)
         for q in range(n_partners):
             if scalar[q]:
                 continue
             rj = pair_j[p0 + q]
-            for kb in range(res_start[rj], res_end[rj]):
-                bx[m] = pos[kb, 0] - shifts[q, 0]
-                by[m] = pos[kb, 1] - shifts[q, 1]
-                bz[m] = pos[kb, 2] - shifts[q, 2]
-                bq[m] = charges[kb]
-                bt[m] = lj_type[kb]
-                bheavy[m] = 1.0 if is_heavy[kb] else 0.0
-                m += 1
+            for kb in range(np.uint64(res_start[rj]), np.uint64(res_end[rj])):
+                bx[g] = pos[kb, 0] - shifts[q, 0]
+                by[g] = pos[kb, 1] - shifts[q, 1]
+                bz[g] = pos[kb, 2] - shifts[q, 2]
+                bq[g] = charges[kb]
+                bt[g] = lj_type[kb]
+                bheavy[g] = 1.0 if is_heavy[kb] else 0.0
+                g += np.uint64(1)
         acc_coul[:] = 0.0
         acc_lj[:] = 0.0
         acc_count[:] = 0.0
@@ -321,13 +322,14 @@ def _rows_chunk(k_lo, k_hi, pos, charges, lj_type, rmin_tab, eps_tab, type_has_l
         last_type = -1
         for ka in range(res_start[ri], res_end[ri]):
             ta = lj_type[ka]
-            if ta != last_type:  # LJ parameters of this type against the block, gathered once
-                for b in range(n_block):
+            with_lj = type_has_lj[ta]
+            if with_lj and ta != last_type:  # LJ parameters of this type against the block
+                for b in range(np.uint64(0), np.uint64(n_block)):
                     brmin[b] = rmin_tab[ta, bt[b]]
                     beps[b] = eps_tab[ta, bt[b]]
                 last_type = ta
             _block_loop(pos[ka, 0], pos[ka, 1], pos[ka, 2], charges[ka], is_heavy[ka],
-                        type_has_lj[ta], bx, by, bz, bq, bheavy, brmin, beps, consts,
+                        with_lj, bx, by, bz, bq, bheavy, brmin, beps, consts,
                         cutoff2, acc_coul, acc_lj, acc_count, acc_heavy)
         # Sums per partner (its atoms are consecutive in the block).
         m = 0
@@ -340,7 +342,7 @@ def _rows_chunk(k_lo, k_hi, pos, charges, lj_type, rmin_tab, eps_tab, type_has_l
             l = 0.0
             n = 0.0
             mh = np.inf
-            for b in range(m, m + size):
+            for b in range(np.uint64(m), np.uint64(m + size)):
                 c += acc_coul[b]
                 l += acc_lj[b]
                 n += acc_count[b]
