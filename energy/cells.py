@@ -119,7 +119,7 @@ def _scan_run(s_lo, s_hi, i, shx, shy, shz, base, cell_x, cell_y, cell_z, cell_r
             lim = base + cell_radius[s]
             j = cell_residue[s]
             row[pos] = j
-            pos += (dx * dx + dy * dy + dz * dz < lim * lim) & (j > i)
+            pos += np.uint64((dx * dx + dy * dy + dz * dz < lim * lim) & (j > i))
     else:
         for s in range(np.uint64(s_lo), np.uint64(s_hi)):
             dx = cell_x[s] + shx
@@ -193,12 +193,12 @@ def _search_rows(centers, radii, cutoff, periodic, h, orthorhombic, cell, dims, 
         exact_shift = not (cov_x or cov_y or cov_z)
         ci0, ci1, ci2 = centers[i, 0], centers[i, 1], centers[i, 2]
         found = 0
-        pos = 0
+        pos = np.uint64(0)
         # Row I is gathered in its own buffer (one slot of slack for the branch-free write).
         row = np.empty(row_start[i + 1] - row_start[i] + 1 if fill else 0, np.intp)
         if fill:
             row[0] = i
-            pos = 1
+            pos = np.uint64(1)
         for a in range(nx):
             cx, wx, ox = _axis_cell(a, idx[i, 0], sx_, dims[0], periodic, cov_x)
             if cx < 0:
@@ -275,14 +275,15 @@ def _search_rows(centers, radii, cutoff, periodic, h, orthorhombic, cell, dims, 
                                   orthorhombic):
                             if fill:
                                 row[pos] = cell_residue[s]
-                                pos += 1
+                                pos += np.uint64(1)
                             else:
                                 found += 1
         if fill:
-            _radix_sort(row[1:pos])
+            n_row = np.int64(pos)
+            _radix_sort(row[1:n_row])
             first = row_start[i]
-            out_j[first:first + pos] = row[:pos]
-            out_i[first:first + pos] = i
+            out_j[first:first + n_row] = row[:n_row]
+            out_i[first:first + n_row] = i
         else:
             counts[i] = found
     return counts
