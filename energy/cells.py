@@ -300,6 +300,10 @@ class CellRows(NamedTuple):
     spatial_order: np.ndarray
 
 
+#: dtype of the residue indices of every residue-pair table (pair_i, pair_j): 4 bytes, not 8,
+#: on columns of millions of rows whose pages are written for the first time on every evaluation.
+PAIR_INDEX = np.int32
+
 #: prange iterations handed to a thread at a time (numba's dynamic chunking): rows differ in
 #: cost (a large residue has many partners), so static halves would not balance.
 ROWS_PER_GRAB = 64
@@ -322,7 +326,7 @@ def search_rows(centers, radii, cutoff: float, cell_matrix=None) -> CellRows:
     """
     n = len(centers)
     if n == 0:
-        return CellRows(np.zeros(0, np.intp), np.zeros(0, np.intp), np.zeros(1, np.int64),
+        return CellRows(np.zeros(0, PAIR_INDEX), np.zeros(0, PAIR_INDEX), np.zeros(1, np.int64),
                         np.zeros(0, np.intp))
     centers = np.ascontiguousarray(centers, np.float64)
     radii = np.ascontiguousarray(radii, np.float64)
@@ -365,8 +369,8 @@ def search_rows(centers, radii, cutoff: float, cell_matrix=None) -> CellRows:
         counts = _search_rows(*args, np.zeros(1, np.int64), none, none, False)
         row_start = np.zeros(n + 1, np.int64)
         np.cumsum(counts + 1, out=row_start[1:])
-        pair_i = np.empty(row_start[-1], np.intp)
-        pair_j = np.empty(row_start[-1], np.intp)
+        pair_i = np.empty(row_start[-1], PAIR_INDEX)
+        pair_j = np.empty(row_start[-1], PAIR_INDEX)
         _search_rows(*args, row_start, pair_i, pair_j, True)
     return CellRows(pair_i, pair_j, row_start, cell_residue)
 
@@ -396,8 +400,8 @@ def upper_triangle_rows(lo, hi, n, row_start):
         row_start[i] = m
         m += n - i
     row_start[hi] = m
-    pair_i = np.empty(m, np.intp)
-    pair_j = np.empty(m, np.intp)
+    pair_i = np.empty(m, PAIR_INDEX)
+    pair_j = np.empty(m, PAIR_INDEX)
     k = 0
     for i in range(lo, hi):
         for j in range(i, n):

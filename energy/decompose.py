@@ -186,6 +186,7 @@ def _assemble_with_new_rows(n_residues, base_i, base_j, base_values, base_min_he
                             contributions) -> ResiduePairEnergies:
     """Slow path: some contributions fall on residue pairs that were not examined (e.g. a bonded
     term spanning residues farther apart than the cutoff); add their rows, then merge."""
+    from .cells import PAIR_INDEX
     n = np.int64(n_residues)
     keys = base_i.astype(np.int64) * n + base_j
     extra = [np.asarray(pi, np.int64) * n + np.asarray(pj, np.int64) for _, pi, pj, _ in contributions]
@@ -195,7 +196,7 @@ def _assemble_with_new_rows(n_residues, base_i, base_j, base_values, base_min_he
     order = np.argsort(merged, kind="stable")
     merged = merged[order]
     grow = lambda a, fill: np.concatenate([a, np.full(len(new), fill, a.dtype)])[order]  # noqa: E731
-    new_i, new_j = (merged // n).astype(np.intp), (merged % n).astype(np.intp)
+    new_i, new_j = (merged // n).astype(PAIR_INDEX), (merged % n).astype(PAIR_INDEX)
     counts = np.bincount(new_i, minlength=n_residues)
     row_start = np.zeros(n_residues + 1, np.int64)
     np.cumsum(counts, out=row_start[1:])

@@ -112,8 +112,9 @@ def _switch(r, c):
 
 
 @numba.njit(cache=True, inline="always")
-def _lennard_jones(r2, rmin, eps):
-    s2 = rmin * rmin / r2
+def _lennard_jones(inv_r2, rmin, eps):
+    """LJ energy from 1/r^2 (the caller has 1/r already: a product, not a second division)."""
+    s2 = rmin * rmin * inv_r2
     s6 = s2 * s2 * s2
     return eps * (s6 * s6 - 2.0 * s6)
 
@@ -124,11 +125,12 @@ def _pair_energy(r2, qq, rmin, eps, c):
     the constants (indices C_*).  The pair forms are :func:`_coulomb`, :func:`_lennard_jones`
     (or exp-6) and :func:`_switch`; the vectorised row kernel uses the same three."""
     r = np.sqrt(r2)
-    coul = _coulomb(qq, r, 1.0 / r, r2, c)
+    inv_r = 1.0 / r
+    coul = _coulomb(qq, r, inv_r, r2, c)
     if eps == 0.0:
         vdw = 0.0
     elif c[C_VDW] == VDW_LJ:
-        vdw = _lennard_jones(r2, rmin, eps)
+        vdw = _lennard_jones(inv_r * inv_r, rmin, eps)
     else:
         alpha = c[C_ALPHA]
         x = r / rmin
@@ -229,11 +231,12 @@ def _block_loop(xa, ya, za, qa, heavy_a, with_lj, bx, by, bz, bq, bheavy, brmin,
         r2 = dx * dx + dy * dy + dz * dz
         inside = r2 < cutoff2
         r = np.sqrt(r2)
-        coul = _coulomb_form(qa * bq[b], r, 1.0 / r, r2, cf, w1, w2, a1, a2, c0)
+        inv_r = 1.0 / r
+        coul = _coulomb_form(qa * bq[b], r, inv_r, r2, cf, w1, w2, a1, a2, c0)
         acc_coul[b] += coul if inside else 0.0
         if with_lj:
             eps = beps[b]
-            lj = _lennard_jones(r2, brmin[b], eps) * _switch_form(r, on, inv_width)
+            lj = _lennard_jones(inv_r * inv_r, brmin[b], eps) * _switch_form(r, on, inv_width)
             acc_lj[b] += lj if (inside and eps != 0.0) else 0.0
         acc_count[b] += 1.0 if inside else 0.0
         hr2 = r2 if heavy * bheavy[b] > 0.0 else np.inf
