@@ -418,6 +418,9 @@ def locate_pairs(row_start, pair_j, qi, qj):
     for k in numba.prange(len(qi)):
         lo, hi = row_start[qi[k]], row_start[qi[k] + 1]
         target = qj[k]
+        if lo < hi and pair_j[lo] == target:  # the diagonal leads its row: most bonded queries
+            out[k] = lo
+            continue
         while lo < hi:  # binary search in the row
             mid = (lo + hi) // 2
             if pair_j[mid] < target:

@@ -31,26 +31,43 @@ def split_over_residue_pairs(atoms: np.ndarray, energies: np.ndarray, resindex: 
     -------
     (pair_i, pair_j, values) with pair_i <= pair_j, one row per (interaction, residue pair).
     """
-    if len(atoms) == 0:
-        z = np.zeros(0, np.intp)
-        return z, z, np.zeros(0)
-    res = np.sort(resindex[atoms], axis=1)
-    distinct = np.ones(res.shape, dtype=bool)
-    distinct[:, 1:] = res[:, 1:] != res[:, :-1]
-    m = distinct.sum(axis=1)
-    out_i, out_j, out_v = [], [], []
-    for n_res in np.unique(m):
-        rows = np.flatnonzero(m == n_res)
-        uniq = res[rows][distinct[rows]].reshape(len(rows), n_res)
-        e = energies[rows]
-        if n_res == 1:
-            out_i.append(uniq[:, 0]); out_j.append(uniq[:, 0]); out_v.append(e)
-            continue
-        combos = list(combinations(range(n_res), 2))
-        share = e / len(combos)
-        for a, b in combos:
-            out_i.append(uniq[:, a]); out_j.append(uniq[:, b]); out_v.append(share)
-    return np.concatenate(out_i), np.concatenate(out_j), np.concatenate(out_v)
+    return BondedAttribution.build(atoms, resindex).split(energies)
+
+
+@dataclass(frozen=True)
+class BondedAttribution:
+    """Where each interaction of one bonded table goes (topology only, so built once per system):
+    entry e takes ``share[e]`` of interaction ``source[e]``'s energy into (pair_i[e], pair_j[e])."""
+
+    pair_i: np.ndarray
+    pair_j: np.ndarray
+    source: np.ndarray
+    share: np.ndarray
+
+    @classmethod
+    def build(cls, atoms: np.ndarray, resindex: np.ndarray) -> "BondedAttribution":
+        if len(atoms) == 0:
+            z = np.zeros(0, np.intp)
+            return cls(z, z, z, np.zeros(0))
+        res = np.sort(resindex[atoms], axis=1)
+        distinct = np.ones(res.shape, dtype=bool)
+        distinct[:, 1:] = res[:, 1:] != res[:, :-1]
+        m = distinct.sum(axis=1)
+        out_i, out_j, out_src, out_share = [], [], [], []
+        for n_res in np.unique(m):
+            rows = np.flatnonzero(m == n_res)
+            uniq = res[rows][distinct[rows]].reshape(len(rows), n_res)
+            combos = [(0, 0)] if n_res == 1 else list(combinations(range(n_res), 2))
+            for a, b in combos:
+                out_i.append(uniq[:, a]); out_j.append(uniq[:, b]); out_src.append(rows)
+                out_share.append(np.full(len(rows), 1.0 / len(combos)))
+        return cls(np.ascontiguousarray(np.concatenate(out_i), np.intp),
+                   np.ascontiguousarray(np.concatenate(out_j), np.intp),
+                   np.concatenate(out_src), np.concatenate(out_share))
+
+    def split(self, energies: np.ndarray):
+        """(pair_i, pair_j, values) of these interactions' ``energies``."""
+        return self.pair_i, self.pair_j, energies[self.source] * self.share
 
 
 @dataclass(frozen=True)

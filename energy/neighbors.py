@@ -12,7 +12,7 @@ from dataclasses import dataclass
 import numba
 import numpy as np
 
-from .pbc import minimum_image_vectors
+from .pbc import box_matrix, is_orthorhombic, minimum_image
 
 
 @dataclass(frozen=True)
@@ -31,21 +31,55 @@ class ResidueAtoms:
         return cls(ptr, order)
 
 
-def residue_spheres(positions, residue_atoms: ResidueAtoms, resindex, box=None):
+def residue_spheres(positions, residue_atoms: ResidueAtoms, box=None):
     """Centre (n_res, 3) and radius (n_res,) of each residue's bounding sphere (A)."""
-    first = residue_atoms.atoms[residue_atoms.ptr[:-1]]
-    anchor = positions[first][resindex]
-    disp = minimum_image_vectors(positions - anchor, box)
-    n_res = len(first)
-    counts = np.diff(residue_atoms.ptr).astype(np.float64)
-    mean = np.zeros((n_res, 3))
-    for axis in range(3):
-        mean[:, axis] = np.bincount(resindex, weights=disp[:, axis], minlength=n_res) / counts
-    centers = positions[first] + mean
-    spread = disp - mean[resindex]
-    dist = np.sqrt(np.einsum("ij,ij->i", spread, spread))
-    radii = np.zeros(n_res)
-    np.maximum.at(radii, resindex, dist)
+    periodic = box is not None
+    h = np.ascontiguousarray(box_matrix(np.asarray(box, np.float64))) if periodic else np.eye(3)
+    return _spheres(np.ascontiguousarray(positions, np.float64), residue_atoms.ptr,
+                    residue_atoms.atoms, h, periodic, is_orthorhombic(h))
+
+
+@numba.njit(cache=True)
+def _spheres(x, ptr, atoms, h, periodic, orthorhombic):
+    """Per residue: atoms made whole around its first atom (minimum image), centre = their mean,
+    radius = the largest distance from it."""
+    n_res = len(ptr) - 1
+    centers = np.empty((n_res, 3))
+    radii = np.empty(n_res)
+    for r in range(n_res):
+        lo, hi = ptr[r], ptr[r + 1]
+        if hi == lo:
+            centers[r] = np.nan
+            radii[r] = np.nan
+            continue
+        a0 = atoms[lo]
+        mx = my = mz = 0.0
+        for k in range(lo, hi):
+            a = atoms[k]
+            dx, dy, dz = x[a, 0] - x[a0, 0], x[a, 1] - x[a0, 1], x[a, 2] - x[a0, 2]
+            if periodic:
+                dx, dy, dz = minimum_image(dx, dy, dz, h, orthorhombic)
+            mx += dx
+            my += dy
+            mz += dz
+        n = hi - lo
+        mx /= n
+        my /= n
+        mz /= n
+        far = 0.0
+        for k in range(lo, hi):
+            a = atoms[k]
+            dx, dy, dz = x[a, 0] - x[a0, 0], x[a, 1] - x[a0, 1], x[a, 2] - x[a0, 2]
+            if periodic:
+                dx, dy, dz = minimum_image(dx, dy, dz, h, orthorhombic)
+            dx -= mx
+            dy -= my
+            dz -= mz
+            far = max(far, np.sqrt(dx * dx + dy * dy + dz * dz))
+        centers[r, 0] = x[a0, 0] + mx
+        centers[r, 1] = x[a0, 1] + my
+        centers[r, 2] = x[a0, 2] + mz
+        radii[r] = far
     return centers, radii
 
 

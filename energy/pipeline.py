@@ -12,7 +12,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .cells import all_pairs_rows, locate_pairs, search_rows
-from .decompose import ResiduePairEnergies, assemble, sorted_unique, split_over_residue_pairs
+from .decompose import BondedAttribution, ResiduePairEnergies, assemble, sorted_unique
 from .errors import InputMismatchError
 from .neighbors import ResidueAtoms, residue_spheres, spatial_layout
 from .pbc import is_orthorhombic, perpendicular_widths, periodic_cell
@@ -93,6 +93,12 @@ def _exception_residue_flags(system, pair_j, row_start):
     return flags
 
 
+def _attribution(system, attr: str) -> BondedAttribution:
+    """Residue pairs that bonded table ``attr``'s interactions go to (built once per system)."""
+    return system.derived(f"attribution_{attr}",
+                          lambda s: BondedAttribution.build(getattr(s, attr).atoms, s.resindex))
+
+
 def _type_has_lj(system):
     return np.any(system.lj_eps != 0.0, axis=1)
 
@@ -126,6 +132,8 @@ def prepare_system(system: MolecularSystem) -> None:
     system.derived("exclusion_csr", _exclusions)
     system.derived("exception_residue_keys", _exception_residue_keys)
     system.derived("type_has_lj", _type_has_lj)
+    for attr in [a for tables in BONDED_TABLES.values() for a, _ in tables] + ["cmap"]:
+        _attribution(system, attr)
 
 
 def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySettings | None = None):
@@ -149,11 +157,11 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
             e = func(table, x, box)
             interactions[attr] = e
             totals[term] += float(e.sum())
-            contributions.append((term, *split_over_residue_pairs(table.atoms, e, system.resindex)))
+            contributions.append((term, *_attribution(system, attr).split(e)))
     e = cmap.cmap_energies(system.cmap, system.cmap_maps, x, box)
     interactions["cmap"] = e
     totals["cmap"] = float(e.sum())
-    contributions.append(("cmap", *split_over_residue_pairs(system.cmap.atoms, e, system.resindex)))
+    contributions.append(("cmap", *_attribution(system, "cmap").split(e)))
 
     # Exceptions (1-4 with their own parameters; 1-2, 1-3 carry zeros).
     coul_ex, lj_ex, r_ex = exception_energies(system, x, settings, box if periodic else None)
@@ -181,7 +189,7 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
         atom_of, res_start, res_end = res_atoms.atoms, res_atoms.ptr[:-1], res_atoms.ptr[1:]
         x_r = x if identity else np.ascontiguousarray(x[atom_of])
     else:
-        centers, radii = residue_spheres(x, res_atoms, system.resindex, box if periodic else None)
+        centers, radii = residue_spheres(x, res_atoms, box if periodic else None)
         pair_i, pair_j, row_start, spatial_order = search_rows(
             centers, radii, settings.cutoff_angstrom, h if periodic else None)
         # Residues laid out in the search's spatial order: a row's partners sit close in memory.
