@@ -253,6 +253,7 @@ def _rows_chunk(k_lo, k_hi, pos, charges, lj_type, rmin_tab, eps_tab, type_has_l
     """Rows ``rows[k_lo:k_hi]`` on one thread (a separate function, so that its work arrays are
     private to the calling thread)."""
     cutoff = np.sqrt(cutoff2)
+    r_max = radii.max() if len(radii) else 0.0
     # Work arrays of this chunk of rows, grown on demand: block atoms (x, y, z, charge,
     # heavy flag, LJ Rmin and depth against the current atom type) and per-atom sums.
     cap_atoms, cap_partners = 1024, 256
@@ -268,11 +269,13 @@ def _rows_chunk(k_lo, k_hi, pos, charges, lj_type, rmin_tab, eps_tab, type_has_l
             cap_partners = 2 * n_partners
             scalar = np.empty(cap_partners, np.bool_)
             shifts = np.zeros((cap_partners, 3))
+        # Can any partner of I need an image per atom pair?  (Not in a cell this wide.)
+        any_per_atom = periodic and not (2.0 * (cutoff + radii[ri] + r_max) < min_width)
         n_block = 0
         for q in range(n_partners):
             p = p0 + q
             rj = pair_j[p]
-            per_atom = periodic and not (2.0 * (cutoff + radii[ri] + radii[rj]) < min_width)
+            per_atom = any_per_atom and not (2.0 * (cutoff + radii[ri] + radii[rj]) < min_width)
             scalar[q] = (not vectorised) or rj == ri or pair_has_excl[p] or per_atom
             if periodic and not per_atom:
                 shifts[q, 0], shifts[q, 1], shifts[q, 2] = _image_shift(ri, rj, centers, h,
