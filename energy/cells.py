@@ -106,20 +106,26 @@ def _cell_in_reach(e, center_cell, shells, n_cells, periodic, col, gxy2, width, 
 
 @numba.njit(cache=True, inline="always")
 def _scan_run(s_lo, s_hi, i, shx, shy, shz, base, cell_x, cell_y, cell_z, cell_radius, cell_residue,
-              fill, row, found, pos):
+              fill, row, tail, found, pos):
     """Residues ``s_lo:s_hi`` (cell order) that are partners J > I of residue I: counted, or
-    written to ``row`` branch-free (every candidate written, the position advanced on a hit).
-    Unsigned indices spare the negative-index wrap-around on every load (so the count loop
-    vectorises with plain loads)."""
+    written to ``row``.  The fill tests the whole run first, into the scratch ``row[tail:]``
+    (a loop that vectorises), then writes every candidate and advances on a hit (branch-free).
+    Unsigned indices spare the negative-index wrap-around on every load (so the loops vectorise
+    with plain loads)."""
     if fill:
-        for s in range(np.uint64(s_lo), np.uint64(s_hi)):
+        lo = np.uint64(s_lo)
+        n = np.uint64(s_hi - s_lo)
+        for t in range(np.uint64(0), n):
+            s = lo + t
             dx = cell_x[s] + shx
             dy = cell_y[s] + shy
             dz = cell_z[s] + shz
             lim = base + cell_radius[s]
-            j = cell_residue[s]
-            row[pos] = j
-            pos += np.uint64((dx * dx + dy * dy + dz * dz < lim * lim) & (j > i))
+            hit = (dx * dx + dy * dy + dz * dz < lim * lim) & (cell_residue[s] > i)
+            row[tail + t] = 1 if hit else 0
+        for t in range(np.uint64(0), n):
+            row[pos] = cell_residue[lo + t]
+            pos += np.uint64(row[tail + t])
     else:
         for s in range(np.uint64(s_lo), np.uint64(s_hi)):
             dx = cell_x[s] + shx
@@ -169,7 +175,7 @@ def _radix_sort(a):
 @numba.njit(parallel=True, cache=True, error_model="numpy")
 def _search_rows(centers, radii, cutoff, periodic, h, orthorhombic, cell, dims, idx, start,
                  cell_xyz, cell_radius, cell_residue, cell_max_radius, column_max_radius, r_max,
-                 row_order, row_start,
+                 max_run, row_order, row_start,
                  out_i, out_j, fill):
     """Partners J > I of every residue I, row by row in parallel (each row owned by one thread).
 
@@ -194,8 +200,10 @@ def _search_rows(centers, radii, cutoff, periodic, h, orthorhombic, cell, dims, 
         ci0, ci1, ci2 = centers[i, 0], centers[i, 1], centers[i, 2]
         found = 0
         pos = np.uint64(0)
-        # Row I is gathered in its own buffer (one slot of slack for the branch-free write).
-        row = np.empty(row_start[i + 1] - row_start[i] + 1 if fill else 0, np.intp)
+        # Row I is gathered in its own buffer: the row, one slot of slack for the branch-free
+        # write, then scratch for the hits of one run (at most ``max_run`` residues).
+        tail = np.uint64(row_start[i + 1] - row_start[i] + 1 if fill else 0)
+        row = np.empty(tail + np.uint64(max_run if fill else 0), np.intp)
         if fill:
             row[0] = i
             pos = np.uint64(1)
@@ -254,7 +262,7 @@ def _search_rows(centers, radii, cutoff, periodic, h, orthorhombic, cell, dims, 
                         found, pos = _scan_run(start[col + c_first], start[col + c_first + q - p],
                                                i, shx, shy, shz, cutoff + ri, cell_xyz[0],
                                                cell_xyz[1], cell_xyz[2], cell_radius,
-                                               cell_residue, fill, row, found, pos)
+                                               cell_residue, fill, row, tail, found, pos)
                     continue
                 for e in range(e_lo, e_hi):
                     cz, wz, oz = _axis_cell(e, idx[i, 2], sz_, dims[2], periodic, cov_z)
@@ -363,7 +371,9 @@ def search_rows(centers, radii, cutoff: float, cell_matrix=None) -> CellRows:
     r_max = float(radii.max())
     args = (centers, radii, cutoff, periodic, h, orthorhombic, cell, dims, idx, start, cell_xyz,
             cell_radius, cell_residue, cell_max_radius,
-            cell_max_radius.reshape(dims[0] * dims[1], dims[2]).max(axis=1), r_max, cell_residue)
+            cell_max_radius.reshape(dims[0] * dims[1], dims[2]).max(axis=1), r_max,
+            int((start[dims[2]::dims[2]] - start[:-1:dims[2]]).max()),  # longest column
+            cell_residue)
     none = np.zeros(0, np.intp)
     with numba.parallel_chunksize(ROWS_PER_GRAB):
         counts = _search_rows(*args, np.zeros(1, np.int64), none, none, False)
