@@ -3,12 +3,14 @@
 Residue centres are binned into a grid of cells of side about ``(cutoff + 2 r_small) / 2``,
 where ``r_small`` is a typical (90th percentile) residue radius, and copied in cell order so the
 inner loop streams through memory.  Row I (the partners J > I of residue I) is owned by one
-thread: it visits the cells within ``cutoff + r_I + r_max`` and skips a cell when even its
-largest residue cannot reach (so water rows look at ~125 cells and a large residue's partners are
-never missed); inside a cell only residues J > I are read (a binary search, cells keep residue
-order).  The test is exact on the spheres: |c_I - c_J| < cutoff + r_I + r_J (minimum image in any
-periodic cell, orthorhombic or triclinic).  Two passes, count then fill, so the output is written
-once in place: rows sorted by (I, J), I <= J, every (I, I) included.
+thread: it visits the grid columns within ``cutoff + r_I + r_max`` (skipping a column, and
+trimming a column's ends, when even its largest residue cannot reach), and scans the cells of a
+column that are in reach as one contiguous run of the cell order (at most three runs where the
+column wraps around a periodic cell), keeping residues J > I.  The test is exact on the
+spheres: |c_I - c_J| < cutoff + r_I + r_J (minimum image in any periodic cell, orthorhombic or
+triclinic).  Two passes, count then fill, so the output is written once in place: rows sorted by
+(I, J), I <= J, every (I, I) included.  Rows are taken in the cell order, which is also handed
+back (``spatial_order``) so that the kernel can lay atoms out and take rows the same way.
 """
 from __future__ import annotations
 
