@@ -171,7 +171,7 @@ def assemble(n_residues: int, base_i: np.ndarray, base_j: np.ndarray, row_start:
     are dropped, unless they are few (copying then costs more than keeping them; they hold zeros
     and never reach the reports, which list nonzero entries).
     """
-    from .cells import accumulate, locate_pairs, zeros_in_parallel
+    from .csr import accumulate, locate_pairs, zeros_in_parallel
     located = [locate_pairs(row_start, base_j, np.ascontiguousarray(pi, np.intp),
                             np.ascontiguousarray(pj, np.intp)) for _, pi, pj, _ in contributions]
     if any((loc < 0).any() for loc in located):
@@ -203,7 +203,7 @@ def _assemble_with_new_rows(n_residues, base_i, base_j, base_values, base_min_he
                             contributions) -> ResiduePairEnergies:
     """Slow path: some contributions fall on residue pairs that were not examined (e.g. a bonded
     term spanning residues farther apart than the cutoff); add their rows, then merge."""
-    from .cells import PAIR_INDEX
+    from .csr import PAIR_INDEX
     n = np.int64(n_residues)
     keys = base_i.astype(np.int64) * n + base_j
     extra = [np.asarray(pi, np.int64) * n + np.asarray(pj, np.int64) for _, pi, pj, _ in contributions]

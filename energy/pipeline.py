@@ -11,7 +11,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .cells import all_pairs_rows, locate_pairs, search_rows
+from .cells import search_rows
+from .csr import all_pairs_rows, locate_pairs
 from .decompose import BondedAttribution, ResiduePairEnergies, assemble, sorted_unique
 from .errors import InputMismatchError
 from .neighbors import ResidueAtoms, residue_spheres, spatial_layout

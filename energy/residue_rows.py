@@ -20,9 +20,9 @@ from dataclasses import dataclass
 import numba
 import numpy as np
 
-from .cells import interleaved_rows, locate_pairs, upper_triangle_rows
+from .csr import interleaved_rows, locate_pairs, upper_triangle_rows
 from .errors import SettingsError
-from .terms.nonbonded import residue_rows_kernel
+from .terms.row_kernel import residue_rows_kernel
 
 #: Residue pairs per kernel call (whole rows; one progress step each).
 BLOCK_PAIRS = 2_000_000
@@ -36,7 +36,7 @@ MAX_LISTED_PAIRS = 60_000_000
 
 @dataclass(frozen=True)
 class KernelInputs:
-    """Everything :func:`energy.terms.nonbonded.residue_rows_kernel` takes besides the rows."""
+    """Everything :func:`energy.terms.row_kernel.residue_rows_kernel` takes besides the rows."""
 
     positions: np.ndarray      # (n_atoms, 3), each residue's atoms together (kernel layout)
     charges: np.ndarray
