@@ -140,6 +140,34 @@ def _scan_run(s_lo, s_hi, i, shx, shy, shz, base, cell_x, cell_y, cell_z, cell_r
     return found, pos
 
 
+@numba.njit(cache=True, inline="always")
+def _scan_run_min_image(s_lo, s_hi, i, ci0, ci1, ci2, lx, ly, lz, base, cell_x, cell_y, cell_z,
+                        cell_radius, cell_residue, fill, row, tail, found, pos):
+    """:func:`_scan_run` in an orthorhombic cell (edges lx, ly, lz) too narrow for one image per
+    run: each candidate takes its own minimum image (the rounding of energy.pbc, vectorised)."""
+    lo = np.uint64(s_lo)
+    n = np.uint64(s_hi - s_lo)
+    for t in range(np.uint64(0), n):
+        s = lo + t
+        dx = cell_x[s] - ci0
+        dy = cell_y[s] - ci1
+        dz = cell_z[s] - ci2
+        dx -= lx * np.rint(dx / lx)
+        dy -= ly * np.rint(dy / ly)
+        dz -= lz * np.rint(dz / lz)
+        lim = base + cell_radius[s]
+        hit = (dx * dx + dy * dy + dz * dz < lim * lim) & (cell_residue[s] > i)
+        if fill:
+            row[tail + t] = 1 if hit else 0
+        else:
+            found += 1 if hit else 0
+    if fill:
+        for t in range(np.uint64(0), n):
+            row[pos] = cell_residue[lo + t]
+            pos += np.uint64(row[tail + t])
+    return found, pos
+
+
 @numba.njit(cache=True)
 def _radix_sort(a):
     """Sort the non-negative integers ``a`` in place: LSD radix sort, 8 bits a pass, over the span
@@ -232,9 +260,19 @@ def _search_rows(centers, radii, cutoff, periodic, h, orthorhombic, cell, dims, 
                     z_reach = min(sz_, 1 + int(np.sqrt(left) / cell[2]))
                     e_lo, e_hi = sz_ - z_reach, sz_ + z_reach + 1
                 col = (cx * dims[1] + cy) * dims[2]
-                if exact_shift:
+                if cov_z and periodic and orthorhombic:
+                    # A cell narrow for the reach: the whole column is one run, and each candidate
+                    # takes its own minimum image.
+                    found, pos = _scan_run_min_image(start[col], start[col + dims[2]], i, ci0, ci1,
+                                                     ci2, h[0, 0], h[1, 1], h[2, 2], cutoff + ri,
+                                                     cell_xyz[0], cell_xyz[1], cell_xyz[2],
+                                                     cell_radius, cell_residue, fill, row, tail,
+                                                     found, pos)
+                    continue
+                if exact_shift or (periodic and orthorhombic):
                     # The column's cells in reach form at most three runs (below, inside, above the
-                    # lattice along z), each contiguous in cell order: scan each run in one loop.
+                    # lattice along z), each contiguous in cell order: scan each run in one loop
+                    # (with the run's image shift, or per candidate where x or y is covered).
                     reach_col = cutoff + ri + column_max_radius[cx * dims[1] + cy]
                     if gxy2 > reach_col * reach_col:
                         continue
@@ -262,10 +300,18 @@ def _search_rows(centers, radii, cutoff, periodic, h, orthorhombic, cell, dims, 
                         shx = wx * h[0, 0] + wy * h[1, 0] + wz * h[2, 0] - ci0
                         shy = wy * h[1, 1] + wz * h[2, 1] - ci1
                         shz = wz * h[2, 2] - ci2
-                        found, pos = _scan_run(start[col + c_first], start[col + c_first + q - p],
-                                               i, shx, shy, shz, cutoff + ri, cell_xyz[0],
-                                               cell_xyz[1], cell_xyz[2], cell_radius,
-                                               cell_residue, fill, row, tail, found, pos)
+                        s_lo, s_hi = start[col + c_first], start[col + c_first + q - p]
+                        if exact_shift:
+                            found, pos = _scan_run(s_lo, s_hi, i, shx, shy, shz, cutoff + ri,
+                                                   cell_xyz[0], cell_xyz[1], cell_xyz[2],
+                                                   cell_radius, cell_residue, fill, row, tail,
+                                                   found, pos)
+                        else:
+                            found, pos = _scan_run_min_image(s_lo, s_hi, i, ci0, ci1, ci2, h[0, 0],
+                                                             h[1, 1], h[2, 2], cutoff + ri,
+                                                             cell_xyz[0], cell_xyz[1], cell_xyz[2],
+                                                             cell_radius, cell_residue, fill, row,
+                                                             tail, found, pos)
                     continue
                 for e in range(e_lo, e_hi):
                     cz, wz, oz = _axis_cell(e, idx[i, 2], sz_, dims[2], periodic, cov_z)

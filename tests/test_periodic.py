@@ -18,11 +18,13 @@ from tiny import random_system
 
 # A rhombic dodecahedron (a = b = c, alpha = beta = 60, gamma = 90 degrees, as written by common
 # simulation set-ups, e.g. the CRYST1 of MDAnalysisTests' adk_open.pdb), a monoclinic cell and a
-# plain cube.
+# plain cube, and a slab (a cuboid long along z: the search's grid covers x and y whole but not
+# z, a case of its own in energy.cells).
 CELLS = {
     "dodecahedron": np.array([32.0, 32.0, 32.0, 60.0, 60.0, 90.0]),
     "monoclinic": np.array([30.0, 28.0, 33.0, 90.0, 104.0, 90.0]),
     "cube": np.array([28.0, 28.0, 28.0, 90.0, 90.0, 90.0]),
+    "slab": np.array([28.0, 28.0, 90.0, 90.0, 90.0, 90.0]),
 }
 
 
