@@ -54,11 +54,19 @@ def prepare_kernels(settings: EnergySettings | None = None) -> None:
                                               switch_angstrom=8.0))
         compute(system, Frame(frame.positions), EnergySettings(cutoff_angstrom=10.0))
     if "all" in wanted and "statistics" not in _prepared:  # trajectory statistics kernels
+        import dataclasses
+
         from .pair_statistics import PairStatistics
+        from .terms.nonbonded import KernelConstants, pair_energies
         pairs = (plain or compute(system, frame, EnergySettings())).residue_pairs
+        # numba compiles a separate variant for read-only arrays: the results hold read-only
+        # columns, tables built elsewhere (and the atom-pair listings of the window) writable.
+        writable = dataclasses.replace(pairs, values={t: v.copy() for t, v in pairs.values.items()})
         stats, more = PairStatistics(system.n_residues, 0.0), PairStatistics(system.n_residues, 0.0)
         stats.add(0, pairs)
-        more.add(1, pairs)
+        more.add(1, writable)
         stats.merge(more)
+        ones = np.ones(1)
+        pair_energies(ones, ones, ones, ones, KernelConstants.from_settings(EnergySettings()).values)
         todo = todo | {"statistics"}
     _prepared |= todo
