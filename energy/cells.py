@@ -108,53 +108,27 @@ def _cell_in_reach(e, center_cell, shells, n_cells, periodic, col, gxy2, width, 
 
 
 @numba.njit(cache=True, inline="always")
-def _scan_run(s_lo, s_hi, i, shx, shy, shz, base, cell_x, cell_y, cell_z, cell_radius, cell_residue,
-              fill, row, tail, found, pos):
+def _scan_run(s_lo, s_hi, i, shx, shy, shz, min_image, lx, ly, lz, base, cell_x, cell_y, cell_z,
+              cell_radius, cell_residue, fill, row, tail, found, pos):
     """Residues ``s_lo:s_hi`` (cell order) that are partners J > I of residue I: counted, or
-    written to ``row``.  The fill tests the whole run first, into the scratch ``row[tail:]``
-    (a loop that vectorises), then writes every candidate and advances on a hit (branch-free).
-    Unsigned indices spare the negative-index wrap-around on every load (so the loops vectorise
-    with plain loads)."""
-    if fill:
-        lo = np.uint64(s_lo)
-        n = np.uint64(s_hi - s_lo)
-        for t in range(np.uint64(0), n):
-            s = lo + t
-            dx = cell_x[s] + shx
-            dy = cell_y[s] + shy
-            dz = cell_z[s] + shz
-            lim = base + cell_radius[s]
-            hit = (dx * dx + dy * dy + dz * dz < lim * lim) & (cell_residue[s] > i)
-            row[tail + t] = 1 if hit else 0
-        for t in range(np.uint64(0), n):
-            row[pos] = cell_residue[lo + t]
-            pos += np.uint64(row[tail + t])
-    else:
-        for s in range(np.uint64(s_lo), np.uint64(s_hi)):
-            dx = cell_x[s] + shx
-            dy = cell_y[s] + shy
-            dz = cell_z[s] + shz
-            lim = base + cell_radius[s]
-            hit = (dx * dx + dy * dy + dz * dz < lim * lim) & (cell_residue[s] > i)
-            found += 1 if hit else 0
-    return found, pos
-
-
-@numba.njit(cache=True, inline="always")
-def _scan_run_min_image(s_lo, s_hi, i, ci0, ci1, ci2, lx, ly, lz, base, cell_x, cell_y, cell_z,
-                        cell_radius, cell_residue, fill, row, tail, found, pos):
-    """:func:`_scan_run` in an orthorhombic cell (edges lx, ly, lz) too narrow for one image per
-    run: each candidate takes its own minimum image (the rounding of energy.pbc, vectorised)."""
+    written to ``row``.  Each candidate is moved by (shx, shy, shz) (the run's image shift minus
+    the centre of I) or, with ``min_image`` (an orthorhombic cell, edges lx, ly, lz, too narrow
+    for one image per run), by the centre of I and then to its own minimum image (the rounding of
+    energy.pbc).  The fill tests the whole run first, into the scratch ``row[tail:]`` (a loop
+    that vectorises), then writes every candidate and advances on a hit (branch-free).  Unsigned
+    indices spare the negative-index wrap-around on every load (so the loops vectorise with
+    plain loads)."""
     lo = np.uint64(s_lo)
     n = np.uint64(s_hi - s_lo)
     for t in range(np.uint64(0), n):
         s = lo + t
-        dx = cell_x[s] - ci0
-        dy = cell_y[s] - ci1
-        dz = cell_z[s] - ci2
-        dx -= lx * np.rint(dx / lx)
-        dy -= ly * np.rint(dy / ly)
-        dz -= lz * np.rint(dz / lz)
+        dx = cell_x[s] + shx
+        dy = cell_y[s] + shy
+        dz = cell_z[s] + shz
+        if min_image:
+            dx -= lx * np.rint(dx / lx)
+            dy -= ly * np.rint(dy / ly)
+            dz -= lz * np.rint(dz / lz)
         lim = base + cell_radius[s]
         hit = (dx * dx + dy * dy + dz * dz < lim * lim) & (cell_residue[s] > i)
         if fill:
@@ -263,11 +237,10 @@ def _search_rows(centers, radii, cutoff, periodic, h, orthorhombic, cell, dims, 
                 if cov_z and periodic and orthorhombic:
                     # A cell narrow for the reach: the whole column is one run, and each candidate
                     # takes its own minimum image.
-                    found, pos = _scan_run_min_image(start[col], start[col + dims[2]], i, ci0, ci1,
-                                                     ci2, h[0, 0], h[1, 1], h[2, 2], cutoff + ri,
-                                                     cell_xyz[0], cell_xyz[1], cell_xyz[2],
-                                                     cell_radius, cell_residue, fill, row, tail,
-                                                     found, pos)
+                    found, pos = _scan_run(start[col], start[col + dims[2]], i, -ci0, -ci1, -ci2,
+                                           True, h[0, 0], h[1, 1], h[2, 2], cutoff + ri,
+                                           cell_xyz[0], cell_xyz[1], cell_xyz[2], cell_radius,
+                                           cell_residue, fill, row, tail, found, pos)
                     continue
                 if exact_shift or (periodic and orthorhombic):
                     # The column's cells in reach form at most three runs (below, inside, above the
@@ -300,18 +273,13 @@ def _search_rows(centers, radii, cutoff, periodic, h, orthorhombic, cell, dims, 
                         shx = wx * h[0, 0] + wy * h[1, 0] + wz * h[2, 0] - ci0
                         shy = wy * h[1, 1] + wz * h[2, 1] - ci1
                         shz = wz * h[2, 2] - ci2
-                        s_lo, s_hi = start[col + c_first], start[col + c_first + q - p]
-                        if exact_shift:
-                            found, pos = _scan_run(s_lo, s_hi, i, shx, shy, shz, cutoff + ri,
-                                                   cell_xyz[0], cell_xyz[1], cell_xyz[2],
-                                                   cell_radius, cell_residue, fill, row, tail,
-                                                   found, pos)
-                        else:
-                            found, pos = _scan_run_min_image(s_lo, s_hi, i, ci0, ci1, ci2, h[0, 0],
-                                                             h[1, 1], h[2, 2], cutoff + ri,
-                                                             cell_xyz[0], cell_xyz[1], cell_xyz[2],
-                                                             cell_radius, cell_residue, fill, row,
-                                                             tail, found, pos)
+                        if not exact_shift:  # x or y covered: each candidate's own image
+                            shx, shy, shz = -ci0, -ci1, -ci2
+                        found, pos = _scan_run(start[col + c_first], start[col + c_first + q - p],
+                                               i, shx, shy, shz, not exact_shift, h[0, 0],
+                                               h[1, 1], h[2, 2], cutoff + ri, cell_xyz[0],
+                                               cell_xyz[1], cell_xyz[2], cell_radius,
+                                               cell_residue, fill, row, tail, found, pos)
                     continue
                 for e in range(e_lo, e_hi):
                     cz, wz, oz = _axis_cell(e, idx[i, 2], sz_, dims[2], periodic, cov_z)

@@ -109,12 +109,11 @@ def _block_loop(xa, ya, za, qa, heavy_a, with_lj, bx, by, bz, bq, bheavy, brmin,
 def _rows_chunk(k_lo, k_hi, pos, charges, lj_type, rmin_tab, eps_tab, type_has_lj, is_heavy,
                 atom_of, res_start, res_end, rows, row_start, pair_j, pair_has_excl, excl_ptr,
                 excl_idx,
-                centers, radii, h, orthorhombic, min_width, periodic, consts, cutoff2, vectorised,
-                out_coul, out_lj, out_count, out_min_heavy):
+                centers, radii, r_max, h, orthorhombic, min_width, periodic, consts, cutoff2,
+                vectorised, out_coul, out_lj, out_count, out_min_heavy):
     """Rows ``rows[k_lo:k_hi]`` on one thread (a separate function, so that its work arrays are
-    private to the calling thread)."""
+    private to the calling thread); ``r_max`` is the largest residue radius."""
     cutoff = np.sqrt(cutoff2)
-    r_max = radii.max() if len(radii) else 0.0
     # Work arrays of this chunk of rows, grown on demand: block atoms (x, y, z, charge,
     # heavy flag, LJ Rmin and depth against the current atom type) and per-atom sums.
     cap_atoms, cap_partners = 1024, 256
@@ -251,10 +250,11 @@ def residue_rows_kernel(pos, charges, lj_type, rmin_tab, eps_tab, type_has_lj, i
     :func:`_residue_pair_scalar`.  Both use the same pair forms.
     """
     n_chunks = min(len(rows), 64)
+    r_max = radii.max() if len(radii) else 0.0
     for chunk in numba.prange(n_chunks):
         _rows_chunk(chunk * len(rows) // n_chunks, (chunk + 1) * len(rows) // n_chunks, pos,
                     charges, lj_type, rmin_tab, eps_tab, type_has_lj, is_heavy, atom_of, res_start,
                     res_end,
-                    rows, row_start, pair_j, pair_has_excl, excl_ptr, excl_idx, centers, radii, h,
-                    orthorhombic, min_width, periodic, consts, cutoff2, vectorised, out_coul,
+                    rows, row_start, pair_j, pair_has_excl, excl_ptr, excl_idx, centers, radii,
+                    r_max, h, orthorhombic, min_width, periodic, consts, cutoff2, vectorised, out_coul,
                     out_lj, out_count, out_min_heavy)
