@@ -4,7 +4,7 @@ VENV := .venv
 PY := $(VENV)/bin/python
 STAMP := $(VENV)/.installed
 
-.PHONY: run test bench clean screenshots
+.PHONY: run test lint bench clean screenshots
 
 $(PY):
 	$(PYTHON) -m venv $(VENV)
@@ -19,7 +19,13 @@ $(STAMP): pyproject.toml | $(PY)
 run: $(STAMP)
 	@$(VENV)/bin/tessera; status=$$?; [ $$status -eq 3 ] || exit $$status
 
-test: $(STAMP)
+# The habits that check themselves: ruff (style, pyflakes, import order) and the import-linter
+# contracts in pyproject.toml (energy imports no app/Qt/matplotlib/argparse; no cycles).
+lint: $(STAMP)
+	$(VENV)/bin/ruff check .
+	$(VENV)/bin/lint-imports --no-cache
+
+test: lint
 	QT_QPA_PLATFORM=offscreen $(PY) -m pytest -q
 
 bench: $(STAMP)

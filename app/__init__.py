@@ -1,6 +1,2 @@
-"""Tessera's desktop window: thin Qt views over the models of :mod:`energy`.
-
-Nothing in here does energy arithmetic; the computation runs in :mod:`energy` inside a
-background worker (:mod:`app.workers`).  Every view reads and writes one shared
-:class:`app.selection.SelectionModel`.
-"""
+"""Tessera's two front ends: the command line (:mod:`app.cli`) and the desktop window
+(:mod:`app.gui`).  Both call the library :mod:`energy`; neither does energy arithmetic."""

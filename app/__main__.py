@@ -1,5 +1,4 @@
-import sys
+"""``python -m app``: the ``tessera`` command."""
+from app.cli.main import console_main
 
-from .main import run_app
-
-sys.exit(run_app(sys.argv[1:]))
+console_main()

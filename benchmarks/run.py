@@ -114,7 +114,7 @@ def tessera_command() -> list[str]:
     exe = os.path.join(os.path.dirname(sys.executable), "tessera")
     if os.path.exists(exe):
         return [exe]
-    return [sys.executable, "-m", "energy.cli"]
+    return [sys.executable, "-m", "app.cli.main"]
 
 
 def run_tessera(pdb: str, setting: str, out_json: str) -> dict:
@@ -384,7 +384,8 @@ def target_verdict(rows, failures=()) -> dict:
     text = (f"{TARGET['system']} ({row['atoms']} atoms), {TARGET['setting']}: ratio "
             f"{row['ratio']:.1f}x OpenMM (target <= {TARGET['max_ratio']:g}x): "
             f"{'met' if ok_time else 'NOT met'}; peak RSS {row['tessera_peak_rss_mib']:.0f} MiB "
-            f"(target < {TARGET['max_rss_mib']:.0f} MiB = {TARGET['max_rss_mib'] / 1024:g} GiB): {'met' if ok_mem else 'NOT met'}. "
+            f"(target < {TARGET['max_rss_mib']:.0f} MiB = {TARGET['max_rss_mib'] / 1024:g} GiB): "
+            f"{'met' if ok_mem else 'NOT met'}. "
             f"Overall: {'MET' if ok_time and ok_mem else 'NOT MET'}.")
     return {"measured": True, "time_met": ok_time, "memory_met": ok_mem, "met": ok_time and ok_mem,
             "text": text}

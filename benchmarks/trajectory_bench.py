@@ -41,7 +41,7 @@ NOISE_ANGSTROM = 0.05
 
 
 def scenario_case():
-    from energy.settings import EnergySettings
+    from energy.model.settings import EnergySettings
     pdb = os.path.join(REPO, "samples", "scenario", "complex_clash.pdb")
     dcd = os.path.join(REPO, "samples", "scenario", "relax.dcd")
     return {"name": "scenario", "structure": pdb, "coords": dcd, "frames": "::1",
@@ -51,9 +51,9 @@ def scenario_case():
 def water_case(n_frames: int):
     import MDAnalysis as mda
     import numpy as np
-
     import systems
-    from energy.settings import EnergySettings
+
+    from energy.model.settings import EnergySettings
     pdb, info = systems.ensure("water_25k")
     folder = os.path.join(RESULTS, "trajectories")
     os.makedirs(folder, exist_ok=True)
@@ -76,8 +76,8 @@ def water_case(n_frames: int):
 
 
 def measure(case, mode: str) -> dict:
-    from energy.trajectory import TrajectoryRequest, TrajectoryScan
-    from energy.trajectory_parallel import ParallelTrajectoryScan
+    from energy.analysis.trajectory import TrajectoryRequest, TrajectoryScan
+    from energy.analysis.trajectory_parallel import ParallelTrajectoryScan
     request = TrajectoryRequest(case["structure"], case["coords"], settings=case["settings"])
     t0 = time.perf_counter()
     if mode == "serial":
@@ -107,7 +107,7 @@ def measure(case, mode: str) -> dict:
 
 
 def warm_up(case):
-    from energy.trajectory import TrajectoryRequest, TrajectoryScan
+    from energy.analysis.trajectory import TrajectoryRequest, TrajectoryScan
     TrajectoryScan(TrajectoryRequest(case["structure"], case["coords"], settings=case["settings"]),
                    "0:2").run()
 

@@ -3,14 +3,31 @@ atom and decompose it per residue pair.  No Qt here.
 
 Public API (see DEVELOPERS.md):
     load_system(...)            -> (MolecularSystem, Frame)      energy.io.loaders
-    compute(system, frame, settings) -> EnergyResult              energy.pipeline
-    EnergySettings, MolecularSystem, Frame, TERMS
+    compute(system, frame, settings) -> EnergyResult              energy.decomposition.pipeline
+    EnergySettings, MolecularSystem, Frame, TERMS (the term registry: energy.terms.registry)
+    prepare_kernels(settings)   load the compiled kernels once per process
 """
-from .errors import (EnergyError, InputMismatchError, MissingParametersError, SelectionError,
-                     SettingsError, StructureFileError, UnknownResidueError)
-from .settings import EnergySettings
-from .system import TERMS, Frame, MolecularSystem, ResidueTable, TermTable
+from energy.errors import (
+    EnergyError,
+    InputMismatchError,
+    MissingParametersError,
+    SelectionError,
+    SettingsError,
+    StructureFileError,
+    UnknownResidueError,
+)
+from energy.model.settings import EnergySettings
+from energy.model.system import Frame, MolecularSystem, ResidueTable, TermTable
+from energy.terms.registry import TERMS
 
 __all__ = ["EnergyError", "InputMismatchError", "MissingParametersError", "SelectionError",
            "SettingsError", "StructureFileError", "UnknownResidueError", "EnergySettings",
-           "TERMS", "Frame", "MolecularSystem", "ResidueTable", "TermTable"]
+           "TERMS", "Frame", "prepare_kernels", "MolecularSystem", "ResidueTable", "TermTable"]
+
+
+def prepare_kernels(settings: EnergySettings | None = None) -> None:
+    """Load (or, the first time, compile) the engine's compiled kernels for ``settings``.
+
+    A wrapper so that ``import energy`` itself stays light: the kernels pull in numba."""
+    from energy.warmup import prepare_kernels as _prepare
+    _prepare(settings)

@@ -9,8 +9,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from .settings import EnergySettings
-from .system import Frame, MolecularSystem, ResidueTable, TermTable
+from energy.model.settings import EnergySettings
+from energy.model.system import Frame, MolecularSystem, ResidueTable, TermTable
 
 _prepared: set = set()
 
@@ -42,7 +42,7 @@ def prepare_kernels(settings: EnergySettings | None = None) -> None:
     all of them (used once after installation to fill the cache).
     """
     global _prepared
-    from .pipeline import compute
+    from energy.decomposition.pipeline import compute
     system, frame = _toy_system()
     wanted = {"all"} if settings is None else {"cutoff" if settings.cutoff_angstrom else "none"}
     todo = ({"none", "cutoff"} if "all" in wanted else wanted) - _prepared
@@ -56,8 +56,8 @@ def prepare_kernels(settings: EnergySettings | None = None) -> None:
     if "all" in wanted and "statistics" not in _prepared:  # trajectory statistics kernels
         import dataclasses
 
-        from .pair_statistics import PairStatistics
-        from .terms.nonbonded import KernelConstants, pair_energies
+        from energy.analysis.pair_statistics import PairStatistics
+        from energy.terms.nonbonded import KernelConstants, pair_energies
         pairs = (plain or compute(system, frame, EnergySettings())).residue_pairs
         # numba compiles a separate variant for read-only arrays: the results hold read-only
         # columns, tables built elsewhere (and the atom-pair listings of the window) writable.

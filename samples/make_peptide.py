@@ -20,8 +20,7 @@ import numpy as np
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 
-from energy.io.charmm_params import (CharmmParameters, canonical_angle, canonical_cmap,  # noqa: E402
-                                     canonical_pair, canonical_quad)
+from energy.io.charmm_params import CharmmParameters, canonical_angle, canonical_cmap, canonical_pair, canonical_quad  # noqa: E402
 from energy.io.charmm_write import write_parameters, write_psf  # noqa: E402
 
 OUT = ROOT / "samples" / "peptide"

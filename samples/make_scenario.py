@@ -326,22 +326,22 @@ def assign_sequence(xyz_a, xyz_b, phi_a):
     mid_b = N_B / 2.0
 
     # buried hydrophobic pair: closest B-core / A-core CB pair near the interface middle
-    cands = sorted(((dmat[i, j] + 0.15 * abs(i - mid_b), i, j) for i in b_core for j in a_face
-                    if cls["A"][j][0] == "core" and 4.5 < dmat[i, j] < 6.5))
+    cands = sorted((dmat[i, j] + 0.15 * abs(i - mid_b), i, j) for i in b_core for j in a_face
+                    if cls["A"][j][0] == "core" and 4.5 < dmat[i, j] < 6.5)
     _, hb, ha = cands[0]
     seq["B"][hb], seq["A"][ha] = "I", "L"
 
     # salt bridge: B rim/core Lys to an A rim Glu, >= 9 residues along B from the pair
-    cands = sorted(((abs(dmat[i, j] - 6.5), i, j) for i in b_rim + b_core for j in a_face
+    cands = sorted((abs(dmat[i, j] - 6.5), i, j) for i in b_rim + b_core for j in a_face
                     if abs(i - hb) >= 9 and 5.0 < dmat[i, j] < 8.0 and j != ha
-                    and np.linalg.norm(cb["A"][j] - cb["A"][ha]) > 9.0))
+                    and np.linalg.norm(cb["A"][j] - cb["A"][ha]) > 9.0)
     _, sb, sa = cands[0]
     seq["B"][sb], seq["A"][sa] = "K", "E"
 
     # Trp: B interface position on the other side of the hydrophobic pair from the salt bridge
     side = -np.sign(sb - hb)
-    cands = sorted(((abs(i - (hb + side * 7)), i) for i in b_rim + b_core
-                    if side * (i - hb) >= 4 and i not in (sb,)))
+    cands = sorted((abs(i - (hb + side * 7)), i) for i in b_rim + b_core
+                    if side * (i - hb) >= 4 and i not in (sb,))
     _, wb = cands[0]
     seq["B"][wb] = "W"
     return seq, cls, {"hydrophobic": (hb, ha), "salt_bridge": (sb, sa), "trp": wb}
@@ -453,7 +453,6 @@ def heavy_indices(topology):
 def set_salt_bridge(topology, pos, rk, re_):
     """Grid-search Lys chi1-3 and Glu chi1-3 for an NZ...OE contact without clashes."""
     heavy = heavy_indices(topology)
-    k_sc, e_sc = rk.sidechain, re_.sidechain
     env = np.setdiff1d(heavy, np.concatenate([rk.index, re_.index]))
     nz = rk.atoms["NZ"]
     oe = [re_.atoms["OE1"], re_.atoms["OE2"]]

@@ -25,7 +25,7 @@ from PySide6.QtCore import QEventLoop, QSettings, Qt, QTimer  # noqa: E402
 from PySide6.QtWidgets import QApplication  # noqa: E402
 
 import app  # noqa: E402,F401  (applies the PySide6 workaround)
-from app.document import LoadSpec  # noqa: E402
+from app.state.document import LoadSpec  # noqa: E402
 
 SCENARIO = ROOT / "samples" / "scenario"
 
@@ -51,7 +51,7 @@ def main(out_dir: str) -> int:
     QSettings.setPath(QSettings.Format.IniFormat, QSettings.Scope.UserScope, tempfile.mkdtemp())
     qapp.setOrganizationName("TesseraScreens"); qapp.setApplicationName("TesseraScreens")
     qapp.setStyle("Fusion")
-    from app.main_window import MainWindow
+    from app.gui.main_window import MainWindow
     w = MainWindow()
     w.resize(1600, 1000)
     w.show()

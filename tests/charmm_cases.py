@@ -7,8 +7,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from energy.io.charmm_params import (CharmmParameters, canonical_angle, canonical_cmap,
-                                     canonical_pair, canonical_quad)
+from energy.io.charmm_params import CharmmParameters, canonical_angle, canonical_cmap, canonical_pair, canonical_quad
 
 KCAL_PER_KJ = 1.0 / 4.184  # thermochemical calorie (exact by definition)
 

@@ -3,13 +3,12 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-
-from energy.pipeline import compute
-from energy.settings import EnergySettings
-from energy.system import Frame
-from energy.units import COULOMB_CONSTANT
-
 from tiny import make_system
+
+from energy.decomposition.pipeline import compute
+from energy.model.settings import EnergySettings
+from energy.model.system import Frame
+from energy.units import COULOMB_CONSTANT
 
 
 def _two_atoms(r, q=(0.0, 0.0), rmin_half=(1.0, 1.0), eps=(0.0, 0.0)):

@@ -9,14 +9,13 @@ from __future__ import annotations
 import MDAnalysis as mda
 import numpy as np
 import pytest
-from openmm import app
-
-from energy.io.builtin import DEFAULT_FORCE_FIELD, load_builtin
-from energy.pipeline import compute
-from energy.settings import EnergySettings
-
 from data import ADK_OPEN_PDB, OPENMM_TEST_PDB
+from openmm import app
 from openmm_reference import assert_close, openmm_force_energies
+
+from energy.decomposition.pipeline import compute
+from energy.io.builtin import DEFAULT_FORCE_FIELD, load_builtin
+from energy.model.settings import EnergySettings
 
 
 def _openmm_system(topology, method, cutoff_nm=None, switch_nm=None, rf_dielectric=78.5):

@@ -11,7 +11,8 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from hypothesis import HealthCheck, given, settings, strategies as st
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from energy.errors import InputMismatchError, MissingParametersError, StructureFileError
 from energy.io.charmm_params import canonical_cmap, canonical_quad, read_charmm_parameters

@@ -11,15 +11,16 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-
 from charmm_cases import invent_parameters, openmm_energies
-from energy import pipeline
+
+from energy.decomposition import pipeline
 from energy.io.charmm_params import read_charmm_parameters
 from energy.io.charmm_system import build_charmm_system, load_psf_system, read_frame
 from energy.io.charmm_write import write_parameters
 from energy.io.psf import read_psf
-from energy.settings import EnergySettings
-from energy.system import TERMS, Frame
+from energy.model.settings import EnergySettings
+from energy.model.system import Frame
+from energy.terms.registry import TERMS
 
 ROOT = Path(__file__).resolve().parents[1]
 PEPTIDE = ROOT / "samples" / "peptide"

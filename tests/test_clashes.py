@@ -18,13 +18,13 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-
-from energy.clash_report import clash_csv, clash_document, clash_table
-from energy.clashes import ClashOptions, atom_radii, excluded_and_14, find_clashes, lj_energy
-from energy.errors import SettingsError
-from energy.system import Frame
-from energy.vdw_radii import BONDI_RADII, bondi_radius
 from tiny import make_system, random_system
+
+from energy.analysis.clashes import ClashOptions, atom_radii, excluded_and_14, find_clashes, lj_energy
+from energy.analysis.vdw_radii import BONDI_RADII, bondi_radius
+from energy.errors import SettingsError
+from energy.model.system import Frame
+from energy.output.clash_report import clash_csv, clash_document, clash_table
 
 ROOT = Path(__file__).resolve().parents[1]
 SCENARIO = ROOT / "samples" / "scenario"
@@ -338,7 +338,7 @@ def test_outputs_json_csv_and_table():
 # the bundled scenario
 # ---------------------------------------------------------------------------------------------
 
-@functools.lru_cache(maxsize=None)
+@functools.cache
 def openmm_clash_pair(pdb):
     """Independent of Tessera: the chain-A residue with the largest LJ to chain B's Trp, from
     OpenMM's Amber14 NonbondedForce sigma/epsilon (Lorentz-Berthelot, inter-chain so no
@@ -405,7 +405,7 @@ def test_scenario_fixed_variant_has_no_heavy_atom_clash(scenario_systems):
 
 
 def test_cli_clashes_writes_json_and_csv(tmp_path, capsys):
-    from energy.cli import main
+    from app.cli.main import main
     out_json, out_csv = tmp_path / "c.json", tmp_path / "c.csv"
     rc = main(["clashes", str(SCENARIO / "complex_clash.pdb"), "--json", str(out_json),
                "--csv", str(out_csv), "--top", "3"])
@@ -430,23 +430,23 @@ def test_cli_clashes_writes_json_and_csv(tmp_path, capsys):
     (["--json", "/nonexistent-folder/x.json"], "output folder does not exist"),
 ])
 def test_cli_errors_are_one_line(argv, needle, capsys):
-    from energy.cli import main
+    from app.cli.main import main
     rc = main(["clashes", str(SCENARIO / "complex_clash.pdb"), *argv])
     err = capsys.readouterr().err
     assert rc == 2 and needle in err and err.count("\n") == 1
 
 
 def test_cli_rejects_negative_lj_threshold(capsys):
-    from energy.cli import main
+    from app.cli.main import main
     with pytest.raises(SystemExit):
         main(["clashes", str(SCENARIO / "complex_clash.pdb"), "--lj-above", "-3"])
     assert ">= 0" in capsys.readouterr().err
 
 
 def test_scenario_pair_lj_agrees_with_the_engine_pair_curve(scenario_systems):
-    """The clash list's LJ column is the engine's own pair LJ (energy.pairs.pair_curve, default
+    """The clash list's LJ column is the engine's own pair LJ (energy.decomposition.atom_pairs.pair_curve, default
     settings: LJ 12-6, no cutoff) at the pair's distance, for ordinary and 1-4 pairs."""
-    from energy.pairs import pair_curve
+    from energy.decomposition.atom_pairs import pair_curve
     loaded = scenario_systems["clash"]
     rep = find_clashes(loaded.system, loaded.frame, ClashOptions(include_hydrogens=True, include_14=True))
     assert rep.is_14.any() and (~rep.is_14).any()
@@ -464,8 +464,8 @@ def test_scenario_pair_lj_agrees_with_the_engine_pair_curve(scenario_systems):
 def test_exp6_column_by_hand_at_the_minimum_and_in_the_overlap():
     """Exp-6 with the LJ minimum: E(Rmin) = eps/(a-6) (6 - a) = -eps (analytic, docs/physics.md).
     Deep inside the wall exp-6 is far softer than LJ 12-6."""
-    from energy.clashes import exp6_energy
-    from energy.settings import EXP6_ALPHA_MATCHING_LJ as a
+    from energy.analysis.clashes import exp6_energy
+    from energy.model.settings import EXP6_ALPHA_MATCHING_LJ as a
     rmin, eps = 3.7, 0.15
     assert exp6_energy([rmin], [rmin], [eps])[0] == pytest.approx(-eps, rel=1e-12)
     r = 2.4
@@ -489,8 +489,8 @@ def test_exp6_column_by_hand_at_the_minimum_and_in_the_overlap():
 
 def test_scenario_exp6_column_agrees_with_the_engine_exp6_curve(scenario_systems):
     """The exp-6 column is the engine's exp-6 pair form (pair_curve with vdw='exp6')."""
-    from energy.pairs import pair_curve
-    from energy.settings import EnergySettings
+    from energy.decomposition.atom_pairs import pair_curve
+    from energy.model.settings import EnergySettings
     loaded = scenario_systems["clash"]
     rep = find_clashes(loaded.system, loaded.frame, ClashOptions(include_hydrogens=True))
     exp6 = EnergySettings(vdw="exp6")
@@ -506,7 +506,7 @@ def test_scenario_exp6_column_agrees_with_the_engine_exp6_curve(scenario_systems
 
 
 def test_cli_exp6_alpha_option(tmp_path):
-    from energy.cli import main
+    from app.cli.main import main
     out = {}
     for alpha in ("13.772", "10"):
         path = tmp_path / f"c{alpha}.json"

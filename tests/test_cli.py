@@ -9,14 +9,13 @@ import sys
 
 import numpy as np
 import pytest
-
-from energy.cli import main
-from energy.io.loaders import load_system
-from energy.pipeline import compute
-from energy.settings import EnergySettings
-from energy.system import TERMS
-
 from data import REPO
+
+from app.cli.main import main
+from energy.decomposition.pipeline import compute
+from energy.io.loaders import load_system
+from energy.model.settings import EnergySettings
+from energy.terms.registry import TERMS
 
 PEPTIDE = os.path.join(REPO, "samples", "peptide")
 PSF = os.path.join(PEPTIDE, "probe_peptide.psf")
@@ -67,7 +66,7 @@ def test_csv_tables_read_back_to_the_json_numbers(tmp_path):
 
 
 def _run_cli(*args, cwd=None):
-    proc = subprocess.run([sys.executable, "-m", "energy.cli", *args], capture_output=True, text=True, cwd=cwd)
+    proc = subprocess.run([sys.executable, "-m", "app.cli.main", *args], capture_output=True, text=True, cwd=cwd)
     return proc.returncode, proc.stdout, proc.stderr
 
 
@@ -97,7 +96,8 @@ def test_garbage_pdb(tmp_path):
 def test_unknown_residue_is_named(tmp_path):
     # An invented ligand (three heavy atoms, residue LIG) that no Amber 14 template matches.
     lines = [l for l in open(PDB).read().splitlines() if l.startswith(("ATOM", "HETATM"))]
-    lig = [f"HETATM{9001 + k:5d}  {name:<3} LIG B 901    {20.0 + k:8.3f}{20.0:8.3f}{20.0:8.3f}  1.00  0.00           {el:>2}"
+    lig = [f"HETATM{9001 + k:5d}  {name:<3} LIG B 901    {20.0 + k:8.3f}{20.0:8.3f}{20.0:8.3f}"
+           f"  1.00  0.00           {el:>2}"
            for k, (name, el) in enumerate([("C1", "C"), ("O1", "O"), ("S1", "S")])]
     bad = tmp_path / "ligand.pdb"
     bad.write_text("\n".join(lines + lig + ["END"]) + "\n")
@@ -151,7 +151,7 @@ def test_summary_on_stdout():
 
 def test_window_without_a_display_says_so_in_one_line():
     env = {k: v for k, v in os.environ.items() if k not in ("DISPLAY", "WAYLAND_DISPLAY", "QT_QPA_PLATFORM")}
-    proc = subprocess.run([sys.executable, "-m", "energy.cli"], capture_output=True, text=True, env=env)
+    proc = subprocess.run([sys.executable, "-m", "app.cli.main"], capture_output=True, text=True, env=env)
     assert proc.returncode == 3
     lines = proc.stderr.strip().splitlines()
     assert len(lines) == 1 and "no display" in lines[0] and "tessera scan" in lines[0]

@@ -1,4 +1,4 @@
-"""energy.compare and `tessera compare`: residue matching, second-minus-first tables, CLI files."""
+"""energy.analysis.compare and `tessera compare`: residue matching, second-minus-first tables, CLI files."""
 import csv
 import json
 import subprocess
@@ -8,9 +8,11 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from energy.compare import compare_results, difference_rows, match_residues
-from energy.decompose import ResiduePairEnergies
-from energy.system import TERMS, ResidueTable
+from energy.analysis.compare import compare_results, match_residues
+from energy.decomposition.residue_pairs import ResiduePairEnergies
+from energy.model.system import ResidueTable
+from energy.output.comparison import difference_rows
+from energy.terms.registry import TERMS
 
 ROOT = Path(__file__).resolve().parents[1]
 CLASH = ROOT / "samples" / "scenario" / "complex_clash.pdb"
@@ -71,8 +73,8 @@ def test_difference_is_second_minus_first_over_matched_residues():
 
 @pytest.fixture(scope="module")
 def scenario_results():
+    from energy.decomposition.pipeline import compute
     from energy.io.loaders import load_system
-    from energy.pipeline import compute
     out = []
     for path in (CLASH, FIXED):
         loaded = load_system(str(path))
@@ -95,7 +97,7 @@ def test_scenario_fix_removes_the_clash(scenario_results):
 
 def test_compare_command_writes_json_and_csv(tmp_path):
     out = tmp_path / "cmp.json"
-    proc = subprocess.run([sys.executable, "-m", "energy.cli", "compare", str(CLASH), str(FIXED),
+    proc = subprocess.run([sys.executable, "-m", "app.cli.main", "compare", str(CLASH), str(FIXED),
                            "--json", str(out), "--csv-dir", str(tmp_path / "csv"), "--top", "3"],
                           capture_output=True, text=True, cwd=ROOT, timeout=300)
     assert proc.returncode == 0, proc.stderr
@@ -112,7 +114,7 @@ def test_compare_command_writes_json_and_csv(tmp_path):
 
 
 def test_compare_command_reports_a_bad_file_in_one_line(tmp_path):
-    proc = subprocess.run([sys.executable, "-m", "energy.cli", "compare", str(CLASH), str(tmp_path / "none.pdb")],
+    proc = subprocess.run([sys.executable, "-m", "app.cli.main", "compare", str(CLASH), str(tmp_path / "none.pdb")],
                           capture_output=True, text=True, cwd=ROOT, timeout=300)
     assert proc.returncode == 2
     assert proc.stderr.count("\n") == 1 and "file not found" in proc.stderr

@@ -6,15 +6,15 @@ import itertools
 
 import numpy as np
 import pytest
-
-from energy.decompose import split_over_residue_pairs
-from energy.pairs import atom_pair_energies, interaction_energy
-from energy.pipeline import compute
-from energy.settings import EnergySettings
-from energy.system import TERMS, Frame
-from energy.units import COULOMB_CONSTANT
-
 from tiny import random_system
+
+from energy.decomposition.atom_pairs import atom_pair_energies, interaction_energy
+from energy.decomposition.pipeline import compute
+from energy.decomposition.residue_pairs import split_over_residue_pairs
+from energy.model.settings import EnergySettings
+from energy.model.system import Frame
+from energy.terms.registry import TERMS
+from energy.units import COULOMB_CONSTANT
 
 
 def brute_force_residue_matrix(system, frame, cutoff=None, box=None):
@@ -117,6 +117,7 @@ def test_interaction_between_chains_equals_the_sum_of_inter_chain_entries():
 @pytest.fixture(scope="module")
 def adk_result():
     from data import ADK_OPEN_PDB
+
     from energy.io.builtin import load_builtin
     system, frame, _, _ = load_builtin(ADK_OPEN_PDB)
     # adk_open.pdb carries a triclinic (rhombic dodecahedral) cell: minimum image in it.

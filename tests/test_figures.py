@@ -1,4 +1,4 @@
-"""energy.figures: map PNG/SVG and the PDF report (and that energy stays free of Qt)."""
+"""app.figures: map PNG/SVG and the PDF report (and that energy stays free of Qt)."""
 import subprocess
 import sys
 import xml.etree.ElementTree as ET
@@ -7,7 +7,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from energy import figures
+from app import figures
 
 ROOT = Path(__file__).resolve().parents[1]
 CLASH = ROOT / "samples" / "scenario" / "complex_clash.pdb"
@@ -15,8 +15,8 @@ CLASH = ROOT / "samples" / "scenario" / "complex_clash.pdb"
 
 @pytest.fixture(scope="module")
 def scenario():
+    from energy.decomposition.pipeline import compute
     from energy.io.loaders import load_system
-    from energy.pipeline import compute
     loaded = load_system(str(CLASH))
     return loaded, compute(loaded.system, loaded.frame)
 
@@ -67,6 +67,6 @@ def test_failed_write_leaves_nothing(tmp_path):
 
 
 def test_energy_figures_and_compare_import_no_qt():
-    code = ("import sys, energy.figures, energy.compare, energy.compare_cli; "
+    code = ("import sys, app.figures, energy.analysis.compare, app.cli.compare; "
             "assert not any(m.startswith(('PySide6', 'pyqtgraph')) for m in sys.modules)")
     subprocess.run([sys.executable, "-c", code], check=True, cwd=ROOT)

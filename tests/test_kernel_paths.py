@@ -7,13 +7,12 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-
-from energy import pipeline
-from energy.pipeline import compute
-from energy.settings import EnergySettings
-from energy.system import Frame
-
 from tiny import random_system
+
+from energy.decomposition import pipeline
+from energy.decomposition.pipeline import compute
+from energy.model.settings import EnergySettings
+from energy.model.system import Frame
 
 SETTINGS = {
     "no cutoff": EnergySettings(),
@@ -52,7 +51,7 @@ def test_simd_path_matches_atom_pair_path(name, periodic, monkeypatch):
 
 def test_all_pairs_in_blocks_keeps_totals_and_lists_every_large_pair(monkeypatch):
     # Block mode (no cutoff, large system) made to trigger on a small invented system.
-    from energy import residue_rows
+    from energy._kernels import residue_rows
     from energy.errors import SettingsError
     system, frame = random_system(np.random.default_rng(7), n_residues=60, atoms_per_residue=(1, 6),
                                   box=60.0, n_exceptions=30)

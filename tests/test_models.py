@@ -3,14 +3,13 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from tiny import make_system
 
-from energy.pipeline import compute
-from energy.settings import EXP6_ALPHA_MATCHING_LJ, EnergySettings
-from energy.system import Frame
+from energy.decomposition.pipeline import compute
+from energy.model.settings import EXP6_ALPHA_MATCHING_LJ, EnergySettings
+from energy.model.system import Frame
 from energy.terms.nonbonded import exp6_turnover
 from energy.units import COULOMB_CONSTANT
-
-from tiny import make_system
 
 RMIN_HALF, EPS = (1.9, 1.7), (0.12, 0.08)
 RMIN, DEPTH = sum(RMIN_HALF), np.sqrt(EPS[0] * EPS[1])

@@ -5,9 +5,9 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from energy.decompose import ResiduePairEnergies
-from energy.pair_statistics import COLUMNS, PairStatistics
-from energy.system import TERMS
+from energy.analysis.pair_statistics import COLUMNS, PairStatistics
+from energy.decomposition.residue_pairs import ResiduePairEnergies
+from energy.terms.registry import TERMS
 
 N_RES = 30
 

@@ -6,20 +6,19 @@ import itertools
 
 import numpy as np
 import pytest
-
-from energy.cells import candidate_pairs_cells
-from energy.pbc import box_matrix
-from energy.pipeline import compute
-from energy.settings import EnergySettings
-from energy.system import Frame
-from energy.units import COULOMB_CONSTANT
-
 from tiny import random_system
+
+from energy._kernels.cells import candidate_pairs_cells
+from energy._kernels.pbc import box_matrix
+from energy.decomposition.pipeline import compute
+from energy.model.settings import EnergySettings
+from energy.model.system import Frame
+from energy.units import COULOMB_CONSTANT
 
 # A rhombic dodecahedron (a = b = c, alpha = beta = 60, gamma = 90 degrees, as written by common
 # simulation set-ups, e.g. the CRYST1 of MDAnalysisTests' adk_open.pdb), a monoclinic cell and a
 # plain cube, and a slab (a cuboid long along z: the search's grid covers x and y whole but not
-# z, a case of its own in energy.cells).
+# z, a case of its own in energy._kernels.cells).
 CELLS = {
     "dodecahedron": np.array([32.0, 32.0, 32.0, 60.0, 60.0, 90.0]),
     "monoclinic": np.array([30.0, 28.0, 33.0, 90.0, 104.0, 90.0]),

@@ -3,15 +3,16 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from hypothesis import given, settings, strategies as st
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from scipy.spatial.transform import Rotation
-
-from energy.decompose import split_over_residue_pairs
-from energy.pipeline import compute
-from energy.settings import EnergySettings
-from energy.system import TERMS, Frame
-
 from tiny import random_system
+
+from energy.decomposition.pipeline import compute
+from energy.decomposition.residue_pairs import split_over_residue_pairs
+from energy.model.settings import EnergySettings
+from energy.model.system import Frame
+from energy.terms.registry import TERMS
 
 seeds = st.integers(min_value=0, max_value=2**31 - 1)
 

@@ -6,7 +6,7 @@ import json
 
 import numpy as np
 
-from energy import report
+from energy.output import report
 
 
 def test_streamed_pair_rows_read_back_exactly(monkeypatch):

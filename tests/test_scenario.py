@@ -11,11 +11,10 @@ import os
 
 import numpy as np
 import pytest
-
-from energy.io.loaders import load_system
-from energy.pipeline import compute
-
 from data import SCENARIO_CLASH_PDB, SCENARIO_DIR, SCENARIO_FIXED_PDB
+
+from energy.decomposition.pipeline import compute
+from energy.io.loaders import load_system
 
 FACTS = json.load(open(os.path.join(SCENARIO_DIR, "scenario.json")))
 

@@ -5,11 +5,12 @@ References, named beside each check:
   on the scenario PDB's own topology, with positions taken frame by frame from relax.dcd as read
   here by MDAnalysis (Coulomb and LJ split as in tests/openmm_reference.py).  Interaction
   energies of two atom sets come from OpenMM too: E(P+Q) - E(P) - E(Q), each the NonbondedForce
-  of a System holding only those atoms (their parameters and the exceptions among them).  Agreement rule of the project: 1e-4
+  of a System holding only those atoms (their parameters and the exceptions among them).
+  Agreement rule of the project: 1e-4
   relative or 1e-3 kcal/mol absolute, per term.
 * Minimum heavy-atom distances: MDAnalysis.lib.distances.distance_array.
 * Mean / standard deviation / persistence over frames: numpy.mean / numpy.std / a count over the
-  dense per-frame matrices of independent single-frame evaluations (energy.pipeline.compute).
+  dense per-frame matrices of independent single-frame evaluations (energy.decomposition.pipeline.compute).
 * Frame ranges: Python's own slice semantics.
 """
 from __future__ import annotations
@@ -28,20 +29,24 @@ import MDAnalysis as mda
 import numpy as np
 import openmm
 import pytest
+from data import REPO, SCENARIO_CLASH_PDB, SCENARIO_DIR
 from MDAnalysis.lib.distances import distance_array
 from openmm import app
+from openmm_reference import KCAL, assert_close, zero_charges
 
-from energy.cli import build_parser, main
-from openmm_reference import zero_charges
+from app.cli import trajectory as trajectory_cli
+from app.cli.main import build_parser, main
+from energy.analysis.trajectory import (
+    COLUMNS,
+    TrajectoryError,
+    TrajectoryRequest,
+    TrajectoryScan,
+    parse_frames,
+    parse_pair,
+)
+from energy.decomposition.pipeline import compute
 from energy.io.builtin import DEFAULT_FORCE_FIELD
-from energy.pipeline import compute
-from energy.system import TERMS, Frame
-from energy.trajectory import (COLUMNS, TrajectoryError, TrajectoryRequest, TrajectoryScan,
-                               parse_frames, parse_pair)
-from energy import trajectory_cli
-
-from data import REPO, SCENARIO_CLASH_PDB, SCENARIO_DIR
-from openmm_reference import KCAL, assert_close
+from energy.terms.registry import TERMS
 
 DCD = os.path.join(SCENARIO_DIR, "relax.dcd")
 
@@ -301,7 +306,7 @@ def test_interrupt_keeps_the_frames_done_complete_and_readable(tmp_path, scan0, 
     exactly those 5 frames, equal to a complete run of the same 5 frames."""
     folder = tmp_path / "cut"
     folder.mkdir()
-    argv = ["scan", SCENARIO_CLASH_PDB, DCD, "--frames", "::3", "--pairs", "%d-%d" % residues["clash"],
+    argv = ["scan", SCENARIO_CLASH_PDB, DCD, "--frames", "::3", "--pairs", "{}-{}".format(*residues["clash"]),
             "--json", str(folder / "t.json"), "--csv-dir", str(folder / "csv"), "--quiet"]
 
     def stop_after_five(done, total):
@@ -353,7 +358,7 @@ def test_sigint_stops_a_parallel_run_cleanly(tmp_path, scan0):
                     w.write(u.atoms)
     folder = tmp_path / "out"
     folder.mkdir()
-    cmd = [sys.executable, "-m", "energy.cli", "scan", SCENARIO_CLASH_PDB, str(long_dcd),
+    cmd = [sys.executable, "-m", "app.cli.main", "scan", SCENARIO_CLASH_PDB, str(long_dcd),
            "--frames", "::1", "--workers", "2", "--json", str(folder / "t.json"),
            "--csv-dir", str(folder / "csv")]
     proc = subprocess.Popen(cmd, cwd=REPO, stdout=subprocess.PIPE, stderr=subprocess.PIPE)
@@ -405,13 +410,14 @@ def test_psf_route_trajectory_agrees_with_openmm_charmm_reader(tmp_path):
     (tests/charmm_cases.invent_parameters), 10 A cutoff and reaction field, the last frame (97;
     frame 0 is in tests/test_charmm_vs_openmm.py): every term vs OpenMM's own CHARMM reader
     (CharmmPsfFile + CharmmParameterSet) on that frame as MDAnalysis reads it."""
-    from MDAnalysisTests.datafiles import DCD as ADK_DCD, PSF as ADK_PSF
-
     from charmm_cases import invent_parameters, openmm_energies
+    from MDAnalysisTests.datafiles import DCD as ADK_DCD
+    from MDAnalysisTests.datafiles import PSF as ADK_PSF
+
     from energy.io.charmm_system import read_frame
     from energy.io.charmm_write import write_parameters
     from energy.io.psf import read_psf
-    from energy.settings import EnergySettings
+    from energy.model.settings import EnergySettings
 
     psf = read_psf(ADK_PSF)
     first = read_frame(ADK_DCD, psf.n_atoms, psf.names, frame=0)

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from energy.system import Frame, MolecularSystem, ResidueTable, TermTable
+from energy.model.system import Frame, MolecularSystem, ResidueTable, TermTable
 
 
 def make_system(charges, rmin_half, eps, resindex, chains=None, exceptions=None,

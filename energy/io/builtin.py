@@ -15,9 +15,9 @@ import re
 
 import numpy as np
 
-from ..errors import StructureFileError, UnknownResidueError
-from ..system import Frame, MolecularSystem, ResidueTable, TermTable
-from ..units import ANGSTROM_PER_NM, KJ_PER_KCAL
+from energy.errors import StructureFileError, UnknownResidueError
+from energy.model.system import Frame, MolecularSystem, ResidueTable, TermTable
+from energy.units import ANGSTROM_PER_NM, KJ_PER_KCAL
 
 DEFAULT_FORCE_FIELD = ("amber14-all.xml", "amber14/tip3p.xml")
 RMIN_PER_SIGMA = 2.0 ** (1.0 / 6.0)

@@ -19,7 +19,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..errors import StructureFileError
+from energy.errors import StructureFileError
 
 #: Section keyword prefixes (first four letters, upper case) -> section name.
 SECTION_KEYWORDS = {"ATOM": "ATOMS", "BOND": "BONDS", "ANGL": "ANGLES", "THET": "ANGLES",

@@ -1,4 +1,4 @@
-"""Build a :class:`~energy.system.MolecularSystem` from a PSF and CHARMM-style parameters.
+"""Build a :class:`~energy.model.system.MolecularSystem` from a PSF and CHARMM-style parameters.
 
 Lookup rules (the same as OpenMM's ``CharmmPsfFile.loadParameters``, the test reference):
 bonds, angles and CMAP need an exact type match (either direction); dihedrals and impropers try
@@ -13,11 +13,10 @@ from itertools import combinations
 
 import numpy as np
 
-from ..errors import MissingParametersError, StructureFileError
-from ..system import MolecularSystem, ResidueTable, TermTable
-from .coordinates import read_frame  # noqa: F401  (re-exported: the PSF route reads frames here)
-from .charmm_params import (CharmmParameters, canonical_angle, canonical_cmap, canonical_pair,
-                            canonical_quad)
+from energy.errors import MissingParametersError, StructureFileError
+from energy.io.charmm_params import CharmmParameters, canonical_angle, canonical_cmap, canonical_pair, canonical_quad
+from energy.io.coordinates import read_frame  # noqa: F401  (re-exported: the PSF route reads frames here)
+from energy.model.system import MolecularSystem, ResidueTable, TermTable
 
 #: (element, mass amu) used to guess elements from masses (common practice: nearest mass).
 _ELEMENT_MASSES = (("H", 1.008), ("LI", 6.94), ("C", 12.011), ("N", 14.007), ("O", 15.999),
@@ -288,8 +287,8 @@ def load_psf_system(psf_path, param_paths, coords_path, frame: int = 0):
     -------
     (MolecularSystem, Frame)
     """
-    from .charmm_params import read_charmm_parameters
-    from .psf import read_psf
+    from energy.io.charmm_params import read_charmm_parameters
+    from energy.io.psf import read_psf
 
     psf = read_psf(psf_path)
     params = read_charmm_parameters(param_paths)

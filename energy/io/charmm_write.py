@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .charmm_params import SECTION_KEYWORDS, CharmmParameters
+from energy.io.charmm_params import SECTION_KEYWORDS, CharmmParameters
 
 #: Index sections: (PSF key, title, atoms per entry, entries per line).
 _INDEX_LAYOUT = (("bonds", "NBOND: bonds", 2, 4), ("angles", "NTHETA: angles", 3, 3),

@@ -6,12 +6,21 @@ import warnings
 
 import numpy as np
 
-from ..errors import InputMismatchError, StructureFileError
-from ..system import Frame
+from energy.errors import InputMismatchError, StructureFileError
+from energy.model.system import Frame
 
 #: Coordinate formats without atom names: read positions only (the topology gives the atoms).
-TRAJECTORY_SUFFIXES = {"dcd", "xtc", "trr", "nc", "ncdf", "netcdf", "trj", "mdcrd", "crdbox",
-                       "xyz", "lammpsdump", "h5md"}
+#: The one list of trajectory formats: the window's file dialogs and frame bar read it too.
+TRAJECTORY_SUFFIXES = frozenset({"dcd", "xtc", "trr", "nc", "ncdf", "netcdf", "trj", "mdcrd",
+                                 "crdbox", "xyz", "lammpsdump", "h5md"})
+
+
+def is_trajectory_path(path) -> bool:
+    """True if ``path``'s suffix is one of :data:`TRAJECTORY_SUFFIXES` (several frames)."""
+    if not path:
+        return False
+    name = os.path.basename(os.fspath(path))
+    return "." in name and name.rsplit(".", 1)[-1].lower() in TRAJECTORY_SUFFIXES
 
 
 def open_coordinates(path, n_atoms: int, names, topology_kind: str = "topology", what: str = "coordinates"):

@@ -11,8 +11,8 @@ import os
 import time
 from dataclasses import dataclass, field
 
-from ..errors import StructureFileError
-from ..system import Frame, MolecularSystem
+from energy.errors import StructureFileError
+from energy.model.system import Frame, MolecularSystem
 
 STRUCTURE_SUFFIXES = (".pdb", ".ent", ".cif", ".mmcif", ".pdbx")
 
@@ -47,9 +47,9 @@ def load_system(structure, coords=None, params=(), frame: int = 0, add_hydrogens
     suffix = os.path.splitext(structure)[1].lower()
     t0 = time.perf_counter()
     if suffix == ".psf":
-        from .charmm_params import read_charmm_parameters
-        from .charmm_system import build_charmm_system, read_frame
-        from .psf import read_psf
+        from energy.io.charmm_params import read_charmm_parameters
+        from energy.io.charmm_system import build_charmm_system, read_frame
+        from energy.io.psf import read_psf
         if not params:
             raise StructureFileError(structure, "a PSF needs its parameter files: add --params FILE "
                                      "(several allowed, CHARMM-style .prm/.par/.str)")
@@ -65,7 +65,7 @@ def load_system(structure, coords=None, params=(), frame: int = 0, add_hydrogens
         t_coords = time.perf_counter()
         timings = {"read": (t_read - t0) + (t_coords - t_param), "parameterise": t_param - t_read}
     elif suffix in STRUCTURE_SUFFIXES:
-        from .builtin import DEFAULT_FORCE_FIELD, load_builtin
+        from energy.io.builtin import DEFAULT_FORCE_FIELD, load_builtin
         if params:
             raise StructureFileError(params[0], "parameter files go with a PSF topology; a PDB/mmCIF "
                                      "alone is parameterised by the built-in force field")
@@ -74,7 +74,7 @@ def load_system(structure, coords=None, params=(), frame: int = 0, add_hydrogens
         t_param = time.perf_counter()
         timings = {"read": read_s, "parameterise": (t_param - t0) - read_s}
         if coords is not None or frame:
-            from .charmm_system import read_frame
+            from energy.io.charmm_system import read_frame
             t1 = time.perf_counter()
             fr = read_frame(coords or structure, system.n_atoms, system.names, frame)
             timings["read"] += time.perf_counter() - t1

@@ -12,7 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..errors import StructureFileError
+from energy.errors import StructureFileError
 
 #: Section name -> number of atom indices per entry, for the index sections we keep.
 INDEX_SECTIONS = {"NBOND": 2, "NTHETA": 3, "NPHI": 4, "NIMPHI": 4, "NCRTERM": 8}

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..errors import SelectionError
+from energy.errors import SelectionError
 
 
 def universe_for(system, frame):

@@ -6,10 +6,14 @@ psi-psi0 wrapped to [-pi, pi); periodic improper K(1+cos(n*psi-delta)).
 """
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 import numpy as np
 
-from ..geometry import bond_angles, bond_lengths, dihedral_angles, wrap_angle
-from ..system import TermTable
+from energy._kernels.geometry import bond_angles, bond_lengths, dihedral_angles, wrap_angle
+
+if TYPE_CHECKING:
+    from energy.model.system import TermTable
 
 
 def bond_energies(table: TermTable, x, box=None) -> np.ndarray:

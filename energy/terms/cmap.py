@@ -9,10 +9,14 @@ interpolation"); OpenMM's CMAPTorsionForce uses the same scheme, which the tests
 from __future__ import annotations
 
 from functools import lru_cache
+from typing import TYPE_CHECKING
 
 import numpy as np
-from ..geometry import dihedral_angles
-from ..system import TermTable
+
+from energy._kernels.geometry import dihedral_angles
+
+if TYPE_CHECKING:
+    from energy.model.system import TermTable
 
 
 def _periodic_derivative(grid: np.ndarray, axis: int, step: float) -> np.ndarray:

@@ -32,7 +32,7 @@ def tmp_qsettings(tmp_path, monkeypatch):
 @pytest.fixture
 def error_boxes(monkeypatch):
     """Record every error dialog instead of blocking on it."""
-    from app.dialogs import errors
+    from app.gui.dialogs import errors
     shown = []
     monkeypatch.setattr(errors.QMessageBox, "exec", lambda self: shown.append(self.text()) or 0)
     return shown
@@ -41,9 +41,9 @@ def error_boxes(monkeypatch):
 @pytest.fixture(scope="session")
 def scenario_snapshot():
     """The clash scenario loaded and computed once (default settings) for view-level tests."""
-    from app.document import LoadSpec, Snapshot
+    from app.state.document import LoadSpec, Snapshot
+    from energy.decomposition.pipeline import compute
     from energy.io.loaders import load_system
-    from energy.pipeline import compute
     assert SCENARIO_CLASH.exists(), f"missing sample {SCENARIO_CLASH}"
     loaded = load_system(str(SCENARIO_CLASH))
     return Snapshot(LoadSpec(str(SCENARIO_CLASH)), loaded, compute(loaded.system, loaded.frame))
@@ -51,7 +51,7 @@ def scenario_snapshot():
 
 @pytest.fixture
 def window(qtbot, error_boxes):
-    from app.main_window import MainWindow
+    from app.gui.main_window import MainWindow
     w = MainWindow()
     qtbot.addWidget(w)
     w.resize(1500, 940)
@@ -63,7 +63,7 @@ def window(qtbot, error_boxes):
 @pytest.fixture
 def opened(qtbot, window):
     """The window with the clash scenario loaded through the real worker."""
-    from app.document import LoadSpec
+    from app.state.document import LoadSpec
     with qtbot.waitSignal(window.computeFinished, timeout=30000):
         window.open_spec(LoadSpec(str(SCENARIO_CLASH)))
     return window

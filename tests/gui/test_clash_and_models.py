@@ -1,7 +1,7 @@
 """Clash check panel, map rings, vdW model and electrostatics settings, model comparison.
 
 Sample: the clash scenario (samples/scenario, invented demo data; the clash residue names are read
-from scenario.json).  Expected clash lists come from energy.clashes called directly; the
+from scenario.json).  Expected clash lists come from energy.analysis.clashes called directly; the
 electrostatics models are checked against a hand computation of each formula over the atom pairs
 (docs/physics.md), written here with numpy and the CODATA-based Coulomb constant.
 """
@@ -9,16 +9,15 @@ import json
 
 import numpy as np
 import pytest
+from conftest import SCENARIO_DIR, SCENARIO_FIXED
 from PySide6.QtCore import Qt
 
-from app.document import LoadSpec
-from energy.clashes import ClashOptions, find_clashes
-from energy.pairs import pair_curve
-from energy.pipeline import compute
-from energy.settings import EnergySettings
+from app.state.document import LoadSpec
+from energy.analysis.clashes import ClashOptions, find_clashes
+from energy.decomposition.atom_pairs import pair_curve
+from energy.decomposition.pipeline import compute
+from energy.model.settings import EnergySettings
 from energy.units import COULOMB_CONSTANT
-
-from conftest import SCENARIO_DIR, SCENARIO_FIXED
 
 META = json.loads((SCENARIO_DIR / "scenario.json").read_text())
 

@@ -10,7 +10,7 @@ import pytest
 from PySide6.QtCore import QElapsedTimer, QTimer
 from PySide6.QtGui import QImage
 
-from app.document import LoadSpec
+from app.state.document import LoadSpec
 
 ROOT = Path(__file__).resolve().parents[2]
 FIXED = ROOT / "samples" / "scenario" / "complex_fixed.pdb"
@@ -119,8 +119,8 @@ def test_compare_mode_shows_second_minus_first(qtbot, opened):
 
 
 def test_interface_energy_of_groups(qtbot, opened):
+    from energy.decomposition.atom_pairs import interaction_energy
     from energy.io.selection import select_atoms
-    from energy.pairs import interaction_energy
     snap = opened.snapshot
     with qtbot.waitSignal(opened.groupsComputed, timeout=20000) as blocker:
         opened.roster.set_groups_text("segid A", "segid B")
@@ -134,7 +134,7 @@ def test_interface_energy_of_groups(qtbot, opened):
 
 
 def test_recent_files_and_layout_persist(qtbot, opened):
-    from app.main_window import MainWindow
+    from app.gui.main_window import MainWindow
     opened.close()
     again = MainWindow()
     qtbot.addWidget(again)
@@ -148,6 +148,7 @@ def water_box():
     """A larger system: OpenMM's own test.pdb (a solvated peptide, 8,867 atoms, 2,798 residues,
     shipped with OpenMM in openmm/app/data/), through the built-in force field."""
     import openmm
+
     from energy.io.loaders import load_system
     path = Path(openmm.__file__).parent / "app" / "data" / "test.pdb"
     return LoadSpec(str(path)), load_system(str(path))
@@ -158,7 +159,8 @@ def test_event_loop_stays_responsive_while_computing(qtbot, window, water_box):
     parameterised with the built-in force field and computed with an 18 A cutoff (well over
     0.5 s of work; the computation alone now takes about 0.3 s, too short to sample)."""
     import gc
-    from energy.settings import EnergySettings
+
+    from energy.model.settings import EnergySettings
     window.energy_settings = EnergySettings(cutoff_angstrom=18.0)
     gc.collect()   # the earlier tests' windows: their garbage is not this computation's pause
     gaps, clock = [], QElapsedTimer()

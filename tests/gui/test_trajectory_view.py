@@ -3,20 +3,19 @@
 Sample: samples/scenario/complex_clash.pdb + relax.dcd (invented demo data made by
 samples/make_scenario.py; the planted clash relaxing).  The frame count and the clash residue
 pair are read from samples/scenario/scenario.json, not hard-coded.  Expected values come from the
-engine called directly (energy.pipeline.compute on frames read with energy.io), independently of
+engine called directly (energy.decomposition.pipeline.compute on frames read with energy.io), independently of
 the viewer's per-frame store and of the scan's statistics.
 """
 import json
 
 import numpy as np
 import pytest
+from conftest import SCENARIO_CLASH, SCENARIO_DIR
 from PySide6.QtCore import QPoint, Qt
 
-from app.document import LoadSpec
+from app.state.document import LoadSpec
+from energy.decomposition.pipeline import compute
 from energy.io.charmm_system import read_frame
-from energy.pipeline import compute
-
-from conftest import SCENARIO_CLASH, SCENARIO_DIR
 
 TRAJECTORY = SCENARIO_DIR / "relax.dcd"
 META = json.loads((SCENARIO_DIR / "scenario.json").read_text())

@@ -3,10 +3,9 @@ import numpy as np
 import pytest
 from PySide6.QtCore import QPoint, Qt
 
-from app.models.array_table import SORT_ROLE
-from energy.pairs import residue_pair_atom_energies
-from energy.decompose import bonded_terms_for_pair
-
+from app.gui.models.array_table import SORT_ROLE
+from energy.decomposition.atom_pairs import residue_pair_atom_energies
+from energy.decomposition.residue_pairs import bonded_terms_for_pair
 
 
 def strongest_repulsive_pair(rp):
@@ -170,7 +169,7 @@ def test_clustered_order_draws_the_tree_scipy_would(opened):
 
 def test_status_bar_says_when_small_pairs_are_not_listed(qtbot, opened, monkeypatch):
     # Block mode without a cutoff (energy/residue_rows.py), made to trigger on the scenario.
-    from energy import residue_rows
+    from energy._kernels import residue_rows
     monkeypatch.setattr(residue_rows, "ALL_PAIRS_LISTED_LIMIT", 10)
     monkeypatch.setattr(residue_rows, "UNLISTED_BELOW", 0.05)
     with qtbot.waitSignal(opened.computeFinished, timeout=30000):

@@ -1,0 +1,46 @@
+"""Argument groups shared by the subcommands: the input files and the energy settings."""
+from __future__ import annotations
+
+import argparse
+
+from energy.model.settings import EXP6_ALPHA_MATCHING_LJ, EnergySettings
+
+
+def add_input_arguments(p: argparse.ArgumentParser) -> None:
+    """Arguments shared by every command that loads a system."""
+    p.add_argument("structure", help="PSF topology, or a PDB/mmCIF for the built-in force field")
+    p.add_argument("coords", nargs="?", default=None,
+                   help="coordinates (PDB, CRD, DCD, ...); required with a PSF")
+    p.add_argument("--params", action="append", default=[], metavar="FILE",
+                   help="CHARMM-style parameter or stream file (repeat for several)")
+    p.add_argument("--frame", type=int, default=0, metavar="N", help="frame of a trajectory (0-based)")
+    p.add_argument("--add-hydrogens", action="store_true",
+                   help="add missing hydrogens at pH 7 (built-in force field only)")
+
+
+def add_settings_arguments(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--cutoff", type=float, default=None, metavar="R",
+                   help="nonbonded cutoff in A (default: none, all pairs)")
+    p.add_argument("--switch", type=float, default=None, metavar="R_ON",
+                   help="start of the LJ switching function in A (needs --cutoff)")
+    p.add_argument("--electrostatics", choices=("plain", "reaction-field", "distance-dependent", "shifted"),
+                   default="plain", help="Coulomb model (reaction-field and shifted need --cutoff)")
+    p.add_argument("--vdw", choices=("lj", "exp6"), default="lj",
+                   help="repulsion-dispersion form: the force field's LJ 12-6, or exp-6 with the same "
+                        "minimum per pair")
+    p.add_argument("--exp6-alpha", type=float, default=None, metavar="A",
+                   help="exp-6 steepness (default 13.772, matching the LJ curvature at the minimum)")
+    p.add_argument("--dielectric", type=float, default=1.0,
+                   help="relative dielectric (plain), or D in eps = D*r (distance-dependent)")
+    p.add_argument("--solvent-dielectric", type=float, default=78.5,
+                   help="dielectric beyond the cutoff for the reaction field (default 78.5)")
+    p.add_argument("--no-periodic", action="store_true",
+                   help="ignore the unit cell (no minimum image)")
+
+
+def settings_from_args(args):
+    alpha = EXP6_ALPHA_MATCHING_LJ if args.exp6_alpha is None else args.exp6_alpha
+    return EnergySettings(cutoff_angstrom=args.cutoff, switch_angstrom=args.switch,
+                          electrostatics=args.electrostatics, dielectric=args.dielectric,
+                          solvent_dielectric=args.solvent_dielectric,
+                          use_periodic=not args.no_periodic, vdw=args.vdw, exp6_alpha=alpha)

@@ -1,0 +1,109 @@
+"""``tessera clashes``: the command-line face of :mod:`energy.analysis.clashes`.
+
+``energy/cli.py`` adds the subcommand and calls :func:`configure_parser` and :func:`run`; errors
+are raised as :class:`energy.errors.EnergyError` and printed there as one line.
+"""
+from __future__ import annotations
+
+import argparse
+import json
+import math
+import os
+
+from app.cli.arguments import add_input_arguments
+from energy.analysis.clashes import DEFAULT_OVERLAP, RADII_SOURCES, ClashOptions
+from energy.errors import EnergyError, SettingsError
+
+
+def _overlap_value(text: str):
+    if text.strip().lower() in ("off", "none"):
+        return None
+    try:
+        v = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a distance in A or 'off', got {text!r}") from None
+    if not math.isfinite(v):
+        raise argparse.ArgumentTypeError(f"expected a finite distance, got {text!r}")
+    return v
+
+
+def _energy_value(text: str) -> float:
+    try:
+        v = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected an energy in kcal/mol, got {text!r}") from None
+    if not (math.isfinite(v) and v >= 0):
+        raise argparse.ArgumentTypeError(f"the LJ threshold must be a number >= 0, got {text!r}")
+    return v
+
+
+def configure_parser(p: argparse.ArgumentParser) -> None:
+    add_input_arguments(p)
+    p.add_argument("--overlap", type=_overlap_value, default=DEFAULT_OVERLAP, metavar="A",
+                   help=f"flag pairs whose spheres overlap by at least A angstrom (default "
+                        f"{DEFAULT_OVERLAP}; 'off' to use only --lj-above)")
+    p.add_argument("--radii", choices=RADII_SOURCES, default="bondi",
+                   help="sphere radii: Bondi (1964) by element (default), or the force field's "
+                        "Rmin_ij of each pair")
+    p.add_argument("--include-hydrogens", action="store_true",
+                   help="search hydrogens too (default: heavy atoms only)")
+    p.add_argument("--include-14", action="store_true",
+                   help="let 1-4 pairs count (1-2 and 1-3 pairs never do)")
+    p.add_argument("--lj-above", type=_energy_value, default=None, metavar="E",
+                   help="also flag pairs whose Lennard-Jones energy exceeds E kcal/mol")
+    p.add_argument("--require-all", action="store_true",
+                   help="with --lj-above: flag only pairs meeting both criteria (default: either)")
+    p.add_argument("--no-hbond-contact", action="store_true",
+                   help="measure hydrogen-bonding pairs with the ordinary radii too")
+    p.add_argument("--periodic", action="store_true",
+                   help="minimum image in the frame's orthorhombic unit cell (default: none)")
+    p.add_argument("--exp6-alpha", type=float, default=None, metavar="A",
+                   help="steepness of the exp-6 energy reported beside the LJ energy of each clash "
+                        "(default 13.772, matching the LJ curvature at the minimum)")
+    p.add_argument("--top", type=int, default=20, metavar="N",
+                   help="rows shown on stdout (default 20; 0 for all)")
+    p.add_argument("--json", metavar="OUT", help="write every clash and the summaries as JSON")
+    p.add_argument("--csv", metavar="OUT", help="write the ranked clash list as CSV")
+    p.add_argument("--quiet", action="store_true", help="print nothing on success")
+
+
+def options_from_args(args) -> ClashOptions:
+    from energy.model.settings import EXP6_ALPHA_MATCHING_LJ
+    alpha = EXP6_ALPHA_MATCHING_LJ if getattr(args, "exp6_alpha", None) is None else args.exp6_alpha
+    return ClashOptions(exp6_alpha=alpha, overlap=args.overlap, lj_above=args.lj_above,
+                        combine="all" if args.require_all else "any", radii=args.radii,
+                        include_hydrogens=args.include_hydrogens, include_14=args.include_14,
+                        periodic=args.periodic, hbond=not args.no_hbond_contact)
+
+
+def run(args) -> int:
+    from energy.analysis.clashes import find_clashes
+    from energy.io.loaders import load_system
+    from energy.output.clash_report import clash_csv, clash_document, clash_table
+    from energy.output.files import atomic_write_text
+
+    options = options_from_args(args)
+    outs = [o for o in (args.json, args.csv) if o]
+    for out in outs:
+        if not os.path.isdir(os.path.dirname(os.path.abspath(out))):
+            raise EnergyError(f"{out}: the output folder does not exist")
+        if os.path.isdir(out):
+            raise EnergyError(f"{out}: is a folder, expected a file name")
+    if args.json and args.csv and os.path.abspath(args.json) == os.path.abspath(args.csv):
+        raise SettingsError("--json and --csv name the same file")
+    if args.top < 0:
+        raise SettingsError(f"--top must be >= 0, got {args.top}")
+    loaded = load_system(args.structure, args.coords, args.params, frame=args.frame,
+                         add_hydrogens=args.add_hydrogens)
+    report = find_clashes(loaded.system, loaded.frame, options)
+    if args.json:
+        source = {"structure": loaded.structure_path, "coords": loaded.coords_path,
+                  "params": list(loaded.param_paths), "frame": int(loaded.frame.index),
+                  "force_field": loaded.system.force_field}
+        doc = clash_document(loaded.system, report, source)
+        atomic_write_text(args.json, json.dumps(doc, indent=1, allow_nan=False) + "\n")
+    if args.csv:
+        atomic_write_text(args.csv, clash_csv(loaded.system, report))
+    if not args.quiet:
+        print(clash_table(loaded.system, report, top=args.top))
+    return 0

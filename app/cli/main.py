@@ -1,0 +1,85 @@
+"""The ``tessera`` command: one dispatcher over the subcommands.
+
+``tessera`` with no arguments (or ``tessera view FILES...``, or plain ``tessera FILES...``) opens
+the desktop window; ``tessera scan ...`` runs the headless decomposition.  Each subcommand lives
+in its own module (:mod:`app.cli.scan`, :mod:`app.cli.compare`, :mod:`app.cli.clashes`,
+:mod:`app.cli.view`), imported only when it runs, which keeps start-up short.  Expected failures
+print one line on stderr and exit with status 2; nothing is left half-written.
+"""
+from __future__ import annotations
+
+import argparse
+import importlib
+import os
+import sys
+
+from energy.errors import EnergyError
+
+#: Subcommand -> (module under app.cli, one-line help).
+SUBCOMMANDS = {
+    "scan": ("scan", "compute every term and the residue-pair decomposition"),
+    "view": ("view", "open the desktop window"),
+    "compare": ("compare", "difference map of two structures of the same system"),
+    "clashes": ("clashes", "rank overlapping atom pairs (steric clashes)"),
+}
+
+
+def _command_module(command: str):
+    return importlib.import_module(f"app.cli.{SUBCOMMANDS[command][0]}")
+
+
+def build_parser(command: str | None = None) -> argparse.ArgumentParser:
+    """The argument parser; with ``command`` given, only that subcommand's options are set up
+    (the other subcommands' modules are not imported)."""
+    parser = argparse.ArgumentParser(prog="tessera", description=(
+        "Where is the energy? Per-term, per-residue-pair force-field energies of a protein model."))
+    sub = parser.add_subparsers(dest="command")
+    for name, (_, help_text) in SUBCOMMANDS.items():
+        p = sub.add_parser(name, help=help_text)
+        if command in (None, name):
+            _command_module(name).configure_parser(p)
+    return parser
+
+
+def main(argv=None) -> int:
+    """Parse ``argv`` (default: the process's arguments), run the subcommand, return its exit
+    status: 0 on success, 2 on an expected failure (one line on stderr), 130 on Ctrl-C."""
+    from energy._kernels.runtime import tune_memory
+    tune_memory()
+    argv = list(sys.argv[1:] if argv is None else argv)
+    if not argv or (argv[0] not in SUBCOMMANDS and not argv[0].startswith("-")):
+        argv = ["view", *argv]
+    parser = build_parser(argv[0] if argv[0] in SUBCOMMANDS else None)
+    args = parser.parse_args(argv)
+    try:
+        if args.command == "view":
+            return _command_module("view").run(args.files)
+        return _command_module(args.command).run(args)
+    except EnergyError as exc:
+        print(f"tessera: error: {exc}", file=sys.stderr)
+        return 2
+    except OSError as exc:
+        name = getattr(exc, "filename", None)
+        print(f"tessera: error: {name + ': ' if name else ''}{exc.strerror or exc}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print("tessera: interrupted", file=sys.stderr)
+        return 130
+
+
+def console_main() -> None:
+    """The ``tessera`` command: :func:`main`, then exit.  After a parallel trajectory run whose
+    worker processes were stopped mid-chunk (Ctrl-C), the interpreter's normal exit can hang in
+    concurrent.futures (energy.analysis.trajectory_parallel); the outputs are written and closed
+    by then, so such a process ends with ``os._exit``."""
+    code = main()
+    parallel = sys.modules.get("energy.analysis.trajectory_parallel")
+    if parallel is not None and parallel.abandoned_workers:
+        sys.stdout.flush()
+        sys.stderr.flush()
+        os._exit(code)
+    sys.exit(code)
+
+
+if __name__ == "__main__":
+    console_main()

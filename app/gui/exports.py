@@ -1,0 +1,107 @@
+"""Exports of what the window shows (figures through :mod:`app.figures`, tables through
+:mod:`energy.output.report` / :mod:`energy.analysis.compare`).  Every file is written atomically."""
+from __future__ import annotations
+
+import io
+import os
+
+import numpy as np
+
+from app import figures
+from energy.analysis.ordering import ORDERS
+from energy.output import report
+from energy.output.comparison import difference_csv
+from energy.output.files import atomic_write_text
+from energy.units import ENERGY_UNITS
+
+#: B-factor column: 6.2 format, so values are clipped to this range (display unit).
+BFACTOR_RANGE = (-999.99, 9999.99)
+
+
+def _title(window) -> str:
+    ds = window.dataset
+    snap = window.snapshot
+    return f"{ds.title}\n{snap.result.settings.describe()}"
+
+
+def matrix_csv(labels, matrix, unit: str) -> str:
+    out = io.StringIO()
+    out.write(",".join([f"residue ({unit})", *labels]) + "\n")
+    for lab, row in zip(labels, matrix):
+        out.write(",".join([lab, *(repr(float(v)) for v in row)]) + "\n")
+    return out.getvalue()
+
+
+def pdb_with_bfactors(system, frame, per_residue, quantity: str, unit: str) -> str:
+    """PDB text with each atom's B-factor set to its residue's energy (clipped to fit)."""
+    lo, hi = BFACTOR_RANGE
+    clipped = int(np.sum((per_residue < lo) | (per_residue > hi)))
+    lines = [f"REMARK   1 TESSERA PER-RESIDUE {quantity.upper()} ENERGY IN B-FACTOR COLUMN, {unit}",
+             f"REMARK   1 VALUES CLIPPED TO [{lo}, {hi}]: {clipped} RESIDUE(S)"]
+    r = system.residues
+    x = frame.positions
+    serial = 0
+    prev_chain = None
+    for a in range(system.n_atoms):
+        k = system.resindex[a]
+        chain = (str(r.chain[k]).strip() or " ")[:1]
+        if prev_chain is not None and chain != prev_chain:
+            lines.append("TER")
+        prev_chain = chain
+        serial += 1
+        name = str(system.names[a])
+        name = f" {name:<3}" if len(name) < 4 else name[:4]
+        b = min(max(float(per_residue[k]), lo), hi)
+        el = str(system.elements[a])[:2].upper()
+        lines.append(f"ATOM  {serial % 100000:>5} {name}{' '}{str(r.resname[k])[:3]:>3} {chain}"
+                     f"{int(r.resid[k]) % 10000:>4}{(str(r.icode[k]) or ' ')[:1]}   "
+                     f"{x[a, 0]:8.3f}{x[a, 1]:8.3f}{x[a, 2]:8.3f}{1.0:6.2f}{b:6.2f}          {el:>2}")
+    lines += ["TER", "END"]
+    return "\n".join(lines) + "\n"
+
+
+def export(window, what: str, path: str) -> None:
+    ds, snap, mp = window.dataset, window.snapshot, window.map
+    if ds is None:
+        raise ValueError("nothing to export: no system is loaded")
+    folder = os.path.dirname(os.path.abspath(path))
+    if not os.path.isdir(folder):
+        raise OSError(f"the folder {folder} does not exist")
+    unit = window.unit
+    order_note = f"order: {ORDERS[mp.order_mode].lower()}"
+    if what == "map":
+        fig = figures.map_figure(mp.matrix, ds.labels[mp.order], ds.chains[mp.order], _title(window),
+                                 unit, mp.quantity, limit=mp.level, difference=ds.is_difference,
+                                 order_note=order_note)
+        figures.save_figure(fig, path)
+    elif what == "pairs":
+        text = difference_csv(ds.comparison) if ds.is_difference else report.pair_table_csv(snap.system, snap.result)
+        atomic_write_text(path, text)
+    elif what == "matrix":
+        m = ds.pairs.dense(mp.quantity) * ENERGY_UNITS[unit]
+        atomic_write_text(path, matrix_csv(list(ds.labels), m, unit))
+    elif what == "report":
+        files = [snap.spec.structure, snap.spec.coords, *snap.spec.params]
+        notes = []
+        if ds.is_difference:
+            sec = window.second.spec
+            files += ["second: " + sec.structure, sec.coords]
+            c = ds.comparison
+            notes = [f"Compared: {len(c.match)} residues matched by chain and number; mutated: "
+                     f"{', '.join(c.mutated_labels) or 'none'}; unmatched: "
+                     f"{', '.join(c.unmatched_first_labels + c.unmatched_second_labels) or 'none'}"]
+        figures.save_report(path, labels=ds.labels, chains=ds.chains, pairs=ds.pairs, totals=ds.totals,
+                            settings=snap.result.settings, files=files, title=_title(window), unit=unit,
+                            quantity=mp.quantity, percentile=mp.clip, order=mp.order,
+                            order_note=order_note, difference=ds.is_difference, notes=notes)
+    elif what == "bfactor":
+        target, per = snap, ds.pairs.per_residue(mp.quantity)
+        if ds.is_difference:  # colour the second structure by the change
+            target = window.second
+            full = np.zeros(target.system.n_residues)
+            full[ds.comparison.match.second] = per
+            per = full
+        text = pdb_with_bfactors(target.system, target.frame, per * ENERGY_UNITS[unit], mp.quantity, unit)
+        atomic_write_text(path, text)
+    else:
+        raise ValueError(f"unknown export {what!r}")

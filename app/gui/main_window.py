@@ -1,0 +1,555 @@
+"""Tessera's main window: the pair map in the centre, docks around it, one shared selection."""
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+from PySide6.QtCore import QByteArray, Qt, Signal
+from PySide6.QtGui import QAction, QKeySequence
+from PySide6.QtWidgets import QDockWidget, QFileDialog, QLabel, QMainWindow, QProgressBar, QPushButton, QToolBar
+
+from app.gui import exports
+from app.gui.controllers.checks import ChecksController
+from app.gui.controllers.trajectory import TrajectoryController
+from app.gui.dialogs.errors import show_error
+from app.gui.jobs import CallWorker, EnergyWorker, WorkerHandle
+from app.gui.models.atom_table import pair_contributions
+from app.gui.selection import SelectionModel
+from app.gui.settings import AppSettings
+from app.gui.views.atom_panel import AtomContributionsView
+from app.gui.views.clash_panel import ClashCheckView
+from app.gui.views.frame_bar import FrameBar
+from app.gui.views.model_panel import ModelComparisonView
+from app.gui.views.pair_ledger import PairLedgerView
+from app.gui.views.pair_map import PairMapView
+from app.gui.views.profile_plot import DistanceProfileView
+from app.gui.views.roster import ResidueRosterView, describe_interaction
+from app.gui.views.settings_panel import ComputeSettingsPanel
+from app.gui.views.term_bars import TermBarsView
+from app.gui.views.time_series import TimeSeriesView
+from app.state.document import Dataset, LoadSpec
+from energy.analysis.compare import compare_results
+from energy.decomposition.atom_pairs import selection_interaction
+from energy.terms.registry import map_quantities
+from energy.units import ENERGY_UNITS
+
+SCENARIO = Path(__file__).resolve().parents[1] / "samples" / "scenario" / "complex_clash.pdb"
+
+
+def _group_energy(snapshots, a: str, b: str):
+    """A-vs-B interaction of each snapshot (run in a background job)."""
+    return [selection_interaction(s.system, s.frame, s.result.settings, a, b) for s in snapshots]
+
+
+class MainWindow(QMainWindow):
+    datasetChanged = Signal()
+    computeFinished = Signal()
+    computeFailed = Signal(str)
+    busyChanged = Signal(bool)
+    groupsComputed = Signal(object)
+
+    def __init__(self, app_settings: AppSettings | None = None):
+        super().__init__()
+        self.setObjectName("TesseraMain")
+        self.setWindowTitle("Tessera")
+        self.setAcceptDrops(True)
+        self.app_settings = app_settings or AppSettings()
+        self.energy_settings = self.app_settings.energy_settings()
+        self.unit = self.app_settings.unit
+        self.selection = SelectionModel(self)
+        self.snapshot = None      # the (first) structure
+        self.second = None        # compare mode: the second structure
+        self.dataset = None
+        self.last_compute_s = None
+        self._job = None
+        self._pending = None
+        self._side_jobs = []
+
+        self.map = PairMapView(self.selection)
+        self.setCentralWidget(self.map)
+        self.ledger = PairLedgerView(self.selection)
+        self.atoms = AtomContributionsView(self.selection)
+        self.profile = DistanceProfileView(self.selection)
+        self.bars = TermBarsView()
+        self.roster = ResidueRosterView(self.selection)
+        self.settings_panel = ComputeSettingsPanel(self.energy_settings, self.unit)
+        self.clash_panel = ClashCheckView(self.selection)
+        self.model_panel = ModelComparisonView(self.selection)
+        self.time_series = TimeSeriesView()
+        self.frame_bar = FrameBar()
+        self.docks = {}
+        for key, title, widget, area in (
+                ("roster", "Residue roster", self.roster, Qt.DockWidgetArea.LeftDockWidgetArea),
+                ("settings", "Compute settings", self.settings_panel, Qt.DockWidgetArea.LeftDockWidgetArea),
+                ("atoms", "Atom contributions", self.atoms, Qt.DockWidgetArea.RightDockWidgetArea),
+                ("profile", "Distance profile", self.profile, Qt.DockWidgetArea.RightDockWidgetArea),
+                ("ledger", "Pair ledger", self.ledger, Qt.DockWidgetArea.BottomDockWidgetArea),
+                ("bars", "Term bars", self.bars, Qt.DockWidgetArea.BottomDockWidgetArea),
+                ("clashes", "Clash check", self.clash_panel, Qt.DockWidgetArea.LeftDockWidgetArea),
+                ("models", "Model comparison", self.model_panel, Qt.DockWidgetArea.BottomDockWidgetArea),
+                ("series", "Pair over time", self.time_series, Qt.DockWidgetArea.BottomDockWidgetArea)):
+            dock = QDockWidget(title, self)
+            dock.setObjectName(f"dock_{key}")
+            dock.setWidget(widget)
+            self.addDockWidget(area, dock)
+            self.docks[key] = dock
+        self.tabifyDockWidget(self.docks["roster"], self.docks["settings"])
+        self.tabifyDockWidget(self.docks["roster"], self.docks["clashes"])
+        self.docks["roster"].raise_()
+        self.splitDockWidget(self.docks["ledger"], self.docks["bars"], Qt.Orientation.Horizontal)
+        self.tabifyDockWidget(self.docks["ledger"], self.docks["models"])
+        self.tabifyDockWidget(self.docks["bars"], self.docks["series"])
+        self.docks["ledger"].raise_(); self.docks["bars"].raise_()
+        self.trajectory = TrajectoryController(self, self.frame_bar, self.time_series)
+        self.checks = ChecksController(self, self.clash_panel, self.model_panel)
+        self.resizeDocks([self.docks["roster"], self.docks["atoms"]], [300, 460], Qt.Orientation.Horizontal)
+        self.resizeDocks([self.docks["ledger"]], [250], Qt.Orientation.Vertical)
+        self.resizeDocks([self.docks["ledger"], self.docks["bars"]], [700, 560], Qt.Orientation.Horizontal)
+        self.resizeDocks([self.docks["atoms"], self.docks["profile"]], [300, 420], Qt.Orientation.Vertical)
+
+        self._build_status()
+        self._build_menus()
+        self.frame_toolbar = QToolBar("Frames"); self.frame_toolbar.setObjectName("toolbar_frames")
+        self.frame_toolbar.setMovable(False)
+        self.frame_toolbar.addWidget(self.frame_bar)
+        self.addToolBarBreak()
+        self.addToolBar(self.frame_toolbar)
+        self.frame_toolbar.setVisible(False)
+        self.selection.pairChanged.connect(self._on_pair)
+        self.roster.groupsRequested.connect(self.compute_groups)
+        self.settings_panel.settingsChanged.connect(self.set_energy_settings)
+        self.settings_panel.unitChanged.connect(self.set_unit)
+        self.map.set_clip(self.app_settings.clip_percentile)
+        self.map.clip_box.currentIndexChanged.connect(
+            lambda: setattr(self.app_settings, "clip_percentile", self.map.clip))
+        self.set_unit(self.unit)
+        self._restore_layout()
+        self._update_actions()
+
+    # -- construction ----------------------------------------------------------------------
+    def _build_status(self) -> None:
+        sb = self.statusBar()
+        self.size_label = QLabel("No system loaded"); self.size_label.setObjectName("statusSize")
+        self.time_label = QLabel(""); self.time_label.setObjectName("statusTime")
+        self.phase_label = QLabel("")
+        self.progress = QProgressBar(); self.progress.setObjectName("progress")
+        self.progress.setMaximumWidth(220); self.progress.setTextVisible(True)
+        self.cancel_button = QPushButton("Cancel"); self.cancel_button.setObjectName("cancel")
+        self.cancel_button.clicked.connect(self.cancel)
+        for w in (self.phase_label, self.progress, self.cancel_button):
+            w.setVisible(False)
+        sb.addWidget(self.size_label)
+        sb.addWidget(self.time_label)
+        sb.addPermanentWidget(self.phase_label)
+        sb.addPermanentWidget(self.progress)
+        sb.addPermanentWidget(self.cancel_button)
+
+    def _action(self, text, slot, shortcut=None, tip=""):
+        act = QAction(text, self)
+        if shortcut:
+            act.setShortcut(QKeySequence(shortcut))
+        act.setStatusTip(tip)
+        act.triggered.connect(slot)
+        return act
+
+    def _build_menus(self) -> None:
+        mb = self.menuBar()
+        f = mb.addMenu("&File")
+        self.act_open = self._action("&Open structure…", self.open_dialog, QKeySequence.StandardKey.Open,
+                                     "Open a PDB/mmCIF, or a PSF with parameters and coordinates")
+        self.act_compare = self._action("Compare &with…", lambda: self.open_dialog(compare=True),
+                                        "Ctrl+Shift+O", "Open a second structure of the same system")
+        self.act_single = self._action("Back to single structure", self.leave_compare, "Ctrl+Shift+W")
+        self.recent_menu = f.addMenu("Recent")
+        f.addAction(self.act_open); f.addMenu(self.recent_menu)
+        f.addAction(self.act_compare); f.addAction(self.act_single)
+        f.insertAction(self.act_compare, f.addSeparator())
+        ex = f.addMenu("&Export")
+        self.export_actions = [
+            self._action("Map image (PNG or SVG)…", lambda: self._export_dialog("map"), "Ctrl+E"),
+            self._action("Pair ledger (CSV)…", lambda: self._export_dialog("pairs")),
+            self._action("Full matrix (CSV)…", lambda: self._export_dialog("matrix")),
+            self._action("Report (PDF)…", lambda: self._export_dialog("report"), "Ctrl+Shift+E"),
+            self._action("Structure with residue energies as B-factors (PDB)…",
+                         lambda: self._export_dialog("bfactor"))]
+        for a in self.export_actions:
+            ex.addAction(a)
+        f.addSeparator()
+        f.addAction(self._action("&Quit", self.close, QKeySequence.StandardKey.Quit))
+        v = mb.addMenu("&View")
+        for k, (q, text) in enumerate(list(map_quantities().items())[:5], start=1):
+            v.addAction(self._action(f"Show {text}", lambda _=False, q=q: self.map.set_quantity(q), f"Ctrl+{k}"))
+        v.addSeparator()
+        v.addAction(self._action("Fit map to window", self.fit_map, "Ctrl+0"))
+        v.addSeparator()
+        for dock in self.docks.values():
+            v.addAction(dock.toggleViewAction())
+        c = mb.addMenu("&Compute")
+        self.act_recompute = self._action("&Recompute", self.recompute, "F5")
+        self.act_cancel = self._action("&Cancel computation", self.cancel, "Esc")
+        self.act_groups = self._action("Interface energy of groups A and B", self.roster._request, "Ctrl+I")
+        for a in (self.act_recompute, self.act_cancel, self.act_groups):
+            c.addAction(a)
+        tb = self.addToolBar("Main"); tb.setObjectName("toolbar_main")
+        tb.setMovable(False)
+        for a in (self.act_open, self.act_compare, self.act_recompute, self.act_cancel, self.export_actions[0]):
+            tb.addAction(a)
+        self._fill_recent()
+
+    def _fill_recent(self) -> None:
+        self.recent_menu.clear()
+        items = self.app_settings.recent()
+        for d in items:
+            spec = LoadSpec.from_dict(d)
+            self.recent_menu.addAction(self._action(spec.short_name(), lambda _=False, s=spec: self.open_spec(s),
+                                                    tip=spec.structure))
+        self.recent_menu.setEnabled(bool(items))
+
+    def _restore_layout(self) -> None:
+        geo = self.app_settings.store.value("window/geometry")
+        state = self.app_settings.store.value("window/state")
+        if isinstance(geo, QByteArray):
+            self.restoreGeometry(geo)
+        else:
+            self.resize(1500, 940)
+        if isinstance(state, QByteArray):
+            self.restoreState(state)
+
+    def closeEvent(self, ev) -> None:
+        self.app_settings.store.setValue("window/geometry", self.saveGeometry())
+        self.app_settings.store.setValue("window/state", self.saveState())
+        self._closing = True
+        self.frame_bar.stop()
+        for handle in [self._job, *self._side_jobs]:
+            if handle is not None:
+                handle.wait(5000)
+        super().closeEvent(ev)
+
+    # -- opening ---------------------------------------------------------------------------
+    def open_default(self) -> None:
+        if SCENARIO.exists():
+            self.open_spec(LoadSpec(str(SCENARIO)))
+        else:
+            self.size_label.setText("No system loaded: File > Open (Ctrl+O) or drop files here")
+
+    def open_files(self, files) -> None:
+        self.open_spec(LoadSpec.from_files(files))
+
+    def open_spec(self, spec: LoadSpec, compare: bool = False) -> None:
+        self._start([(spec, None)], "compare" if compare else "open")
+
+    def open_dialog(self, compare: bool = False) -> None:
+        from app.gui.dialogs.open_dialog import OpenStructureDialog
+        if compare and self.snapshot is None:
+            return
+        dlg = OpenStructureDialog(self, self.app_settings.last_dir, compare=compare)
+        if dlg.exec():
+            spec = dlg.spec()
+            self.app_settings.last_dir = os.path.dirname(os.path.abspath(spec.structure))
+            self.open_spec(spec, compare=compare)
+
+    def dragEnterEvent(self, ev) -> None:
+        if ev.mimeData().hasUrls() and all(u.isLocalFile() for u in ev.mimeData().urls()):
+            ev.acceptProposedAction()
+
+    def dropEvent(self, ev) -> None:
+        files = [u.toLocalFile() for u in ev.mimeData().urls()]
+        if files:
+            self.open_files(files)
+            ev.acceptProposedAction()
+
+    def leave_compare(self) -> None:
+        if self.second is not None:
+            self.second = None
+            self._show()
+
+    # -- background work --------------------------------------------------------------------
+    @property
+    def busy(self) -> bool:
+        return self._job is not None
+
+    def _start(self, jobs, kind) -> None:
+        if self._job is not None:
+            self._pending = (jobs, kind)
+            self._job.cancel()
+            return
+        worker = EnergyWorker(jobs, self.energy_settings)
+        handle = WorkerHandle(worker, self)
+        worker.progress.connect(self._on_progress)
+        worker.phase.connect(self.phase_label.setText)
+        self._job_kind = kind
+        worker.finished.connect(self._on_finished)   # bound methods: queued into the GUI thread
+        worker.failed.connect(self._on_failed)
+        handle.done.connect(self._on_thread_done)
+        self._job = handle
+        for w in (self.phase_label, self.progress, self.cancel_button):
+            w.setVisible(True)
+        self.progress.setRange(0, 0)
+        self._update_actions()
+        self.busyChanged.emit(True)
+        handle.start()
+
+    def _on_progress(self, done, total) -> None:
+        if total <= 0:
+            self.progress.setRange(0, 0)
+        else:
+            self.progress.setRange(0, total)
+            self.progress.setValue(done)
+
+    def _on_thread_done(self) -> None:
+        self._job = None
+        for w in (self.phase_label, self.progress, self.cancel_button):
+            w.setVisible(False)
+        self._update_actions()
+        self.busyChanged.emit(False)
+        if self._pending is not None:
+            jobs, kind = self._pending
+            self._pending = None
+            if kind == "recompute":
+                jobs = self._recompute_jobs()
+            if jobs:
+                self._start(jobs, kind)
+
+    def cancel(self) -> None:
+        self._pending = None
+        if self._job is not None:
+            self._job.cancel()
+            self.statusBar().showMessage("Computation cancelled; the previous result stays on screen", 5000)
+
+    def _on_finished(self, snaps) -> None:
+        kind = self._job_kind
+        self.last_compute_s = self._job.worker.elapsed if self._job is not None else None
+        if kind == "open":
+            self.snapshot, self.second = snaps[0], None
+            self.app_settings.add_recent(snaps[0].spec.as_dict())
+            self._fill_recent()
+            self.selection.set_pair(None)
+            self.trajectory.open(snaps[0])
+            self.frame_toolbar.setVisible(self.trajectory.active)
+            if self.trajectory.active:
+                self.docks["series"].raise_()
+                self.resizeDocks([self.docks["ledger"]], [330], Qt.Orientation.Vertical)
+        elif kind == "compare":
+            self.second = snaps[0]
+        else:  # recompute
+            self.snapshot = snaps[0]
+            self.second = snaps[1] if len(snaps) > 1 else None
+        self._show()
+        if kind == "recompute":
+            self.trajectory.settings_changed()
+        self.computeFinished.emit()
+
+    def show_frame_snapshot(self, snap) -> None:
+        """Put another frame of the open trajectory on screen (zoom, sort and selection kept)."""
+        self.snapshot = snap
+        self._show(keep_view=True)
+
+    def _on_failed(self, msg, details) -> None:
+        kind = self._job_kind
+        what = {"open": "Could not open the structure", "compare": "Could not open the second structure",
+                "recompute": "Could not compute"}[kind]
+        self.computeFailed.emit(msg)
+        show_error(self, what, msg, details)
+
+    def _recompute_jobs(self):
+        return [(s.spec, s.loaded) for s in (self.snapshot, self.second) if s is not None]
+
+    def recompute(self) -> None:
+        jobs = self._recompute_jobs()
+        if jobs:
+            self._start(jobs, "recompute")
+
+    def set_energy_settings(self, settings) -> None:
+        if settings == self.energy_settings:
+            return
+        self.energy_settings = settings
+        self.app_settings.set_energy_settings(settings)
+        self.settings_panel.set_settings(settings)
+        self.recompute()
+
+    def set_unit(self, unit: str) -> None:
+        self.unit = unit
+        self.app_settings.unit = unit
+        factor = ENERGY_UNITS[unit]
+        for view in (self.map, self.profile, self.bars, self.ledger.model, self.atoms.model, self.roster.model,
+                     self.clash_panel, self.model_panel, self.time_series):
+            view.set_unit(factor, unit)
+        self._update_groups_label()
+
+    # -- showing ----------------------------------------------------------------------------
+    def _show(self, keep_view: bool = False) -> None:
+        snap = self.snapshot
+        if self.second is not None:
+            comparison = compare_results(snap.system, snap.result, self.second.system, self.second.result)
+            ds = Dataset.from_comparison(comparison, snap, self.second)
+        else:
+            ds = self.trajectory.mean_dataset(snap) or Dataset.from_snapshot(snap)
+        keep = self.selection.pair
+        keep_atoms = self.selection.atom_pair
+        self.selection.set_pair(None)
+        self.dataset = ds
+        self.map.set_dataset(ds, keep_view=keep_view)
+        self.ledger.set_dataset(ds, keep_sort=keep_view)
+        self.roster.set_dataset(ds)
+        self.bars.set_values("system", ds.totals, "change, second minus first" if ds.is_difference else "")
+        self.bars.set_values("groups", None)
+        s = snap.system
+        size = f"{s.n_atoms:,} atoms, {s.n_residues:,} residues, {len(set(ds.chains))} chain(s)"
+        if ds.is_difference:
+            c = ds.comparison
+            size += (f" | compare: {len(c.match)} matched, {len(c.mutated_labels)} mutated, "
+                     f"{len(c.unmatched_first_labels)} + {len(c.unmatched_second_labels)} unmatched")
+            if c.unmatched_first_labels or c.unmatched_second_labels:
+                un = c.unmatched_first_labels[:6] + c.unmatched_second_labels[:6]
+                self.statusBar().showMessage("Unmatched residues: " + ", ".join(un), 15000)
+        unlisted = getattr(snap.result, "unlisted", None)
+        if unlisted and not ds.is_difference:
+            size += (f" | {unlisted['n_pairs']:,} residue pairs under {unlisted['below']:g} kcal/mol "
+                     "not listed (no cutoff; totals include them)")
+        self.size_label.setText(size)
+        self.time_label.setText(f"last computation {self.last_compute_s:.2f} s"
+                                if self.last_compute_s is not None else "")
+        self.setWindowTitle(f"Tessera — {ds.title}")
+        chains = sorted(set(ds.chains))
+        if len(chains) >= 2 and not self.roster.group_a.text() and not self.roster.group_b.text():
+            self.roster.set_groups_text(f"segid {chains[0]}", f"segid {chains[1]}")
+        if keep is not None and max(keep) < ds.n:
+            self.selection.set_pair(keep)
+            if keep_atoms is not None and keep_view:
+                self.selection.set_atom_pair(keep_atoms)
+        self.map.set_clashes([])
+        self.checks.run_clash_check()
+        self._group_results = None
+        self.roster.show_group_result("—")
+        if all(self.selection.groups):
+            self.compute_groups(*self.selection.groups)
+        self._update_actions()
+        self.datasetChanged.emit()
+
+    def _update_actions(self) -> None:
+        have = self.dataset is not None
+        for a in self.export_actions:
+            a.setEnabled(have)
+        self.act_compare.setEnabled(self.snapshot is not None and not self.busy)
+        self.act_single.setEnabled(self.second is not None)
+        self.act_recompute.setEnabled(have and not self.busy)
+        self.act_cancel.setEnabled(self.busy)
+
+    def fit_map(self) -> None:
+        n = self.dataset.n if self.dataset else 0
+        if n:
+            self.map.plot.setRange(xRange=(-0.5, n - 0.5), yRange=(-0.5, n - 0.5), padding=0)
+
+    def _pair_snapshot(self, pair):
+        """The snapshot and residue pair whose atoms are shown (compare: the second structure)."""
+        ds = self.dataset
+        if ds.is_difference:
+            m = ds.comparison.match
+            return self.second, (int(m.second[pair[0]]), int(m.second[pair[1]]))
+        return self.snapshot, pair
+
+    def _on_pair(self, pair) -> None:
+        pair = pair or None
+        if pair is None or self.dataset is None:
+            self.atoms.show_contributions(None, None, "Select a residue pair in the map or the ledger.")
+            self.profile.show_pair(None, None, None)
+            self.bars.set_values("pair", None)
+            return
+        ds = self.dataset
+        snap, (i, j) = self._pair_snapshot(pair)
+        contrib = pair_contributions(snap, i, j)
+        lab = snap.system.residues.label
+        where = " (second structure)" if ds.is_difference else ""
+        if self.trajectory.mode == "mean" and not ds.is_difference:
+            where = f" (atoms of frame {snap.frame.index}; map and bars: mean over frames)"
+        caption = (f"<b>{lab(i)} – {lab(j)}</b>{where}: {contrib.n_nonbonded} atom pairs, "
+                   f"{len(contrib.bonded)} bonded terms" if i != j else
+                   f"<b>Within {lab(i)}</b>{where}: {contrib.n_nonbonded} atom pairs, "
+                   f"{len(contrib.bonded)} bonded terms")
+        self.atoms.show_contributions(snap.system, contrib, caption)
+        self.profile.show_pair(snap.system, snap.result.settings, contrib)
+        k = ds.pairs.lookup(*pair)
+        values = {q: (float(ds.pairs.values[q][k]) if k is not None else 0.0) for q in ds.pairs.values}
+        values["total"] = sum(values.values())
+        self.bars.set_values("pair", values, ("change: " if ds.is_difference else "")
+                             + f"{ds.labels[pair[0]]} – {ds.labels[pair[1]]}")
+
+    # -- groups -----------------------------------------------------------------------------
+    def compute_groups(self, a: str, b: str) -> None:
+        if self.snapshot is None or not a or not b:
+            self.roster.show_group_result("Give a selection for both groups, e.g. segid A and segid B.")
+            return
+        self.selection.set_groups(a, b)
+        snaps = [s for s in (self.snapshot, self.second) if s is not None]
+        worker = CallWorker(_group_energy, snaps, a, b)
+        handle = WorkerHandle(worker, self)
+        worker.finished.connect(self._on_groups)
+        worker.failed.connect(self._on_groups_failed)
+        handle.done.connect(self._on_side_done)
+        self._side_jobs.append(handle)
+        self.roster.show_group_result("computing…")
+        handle.start()
+
+    def _on_groups_failed(self, msg, _details) -> None:
+        self.roster.show_group_result(f"<span style='color:#b2182b'>{msg}</span>")
+
+    def start_side(self, worker, on_done=None) -> WorkerHandle:
+        """Run a side worker (clash check, frame, scan, ...) in its own thread; ``on_done`` after
+        its thread has stopped.  The window waits for every side job when it closes, and starts
+        none after that (returns None)."""
+        if getattr(self, "_closing", False):
+            return None
+        handle = WorkerHandle(worker, self)
+        if on_done is not None:
+            handle.done.connect(on_done)
+        handle.done.connect(self._on_side_done)
+        self._side_jobs.append(handle)
+        handle.start()
+        return handle
+
+    def _on_side_done(self) -> None:
+        self._side_jobs = [h for h in self._side_jobs if h.thread.isRunning()]
+
+    def _on_groups(self, results) -> None:
+        self._group_results = results
+        self._update_groups_label()
+        r = results[-1] if len(results) == 1 else {
+            k: results[1][k] - results[0][k] for k in ("coulomb", "lj", "total")}
+        self.bars.set_values("groups", {"coulomb": r["coulomb"], "lj": r["lj"], "total": r["total"]},
+                             ("change: " if len(results) > 1 else "") + " vs ".join(self.selection.groups))
+        self.groupsComputed.emit(results)
+
+    def _update_groups_label(self) -> None:
+        results = getattr(self, "_group_results", None)
+        if not results:
+            return
+        f = ENERGY_UNITS[self.unit]
+        text = describe_interaction(results[0], f, self.unit)
+        if len(results) > 1:
+            text = "first " + text + "<br>second " + describe_interaction(results[1], f, self.unit)
+        self.roster.show_group_result(text)
+
+    # -- exports ----------------------------------------------------------------------------
+    def _export_dialog(self, what: str) -> None:
+        if self.dataset is None:
+            return
+        filters = {"map": "PNG image (*.png);;SVG image (*.svg)", "pairs": "CSV table (*.csv)",
+                   "matrix": "CSV table (*.csv)", "report": "PDF document (*.pdf)",
+                   "bfactor": "PDB file (*.pdb)"}
+        stem = Path(self.snapshot.spec.structure).stem
+        default = {"map": f"{stem}_map.png", "pairs": f"{stem}_pairs.csv", "matrix": f"{stem}_matrix.csv",
+                   "report": f"{stem}_report.pdf", "bfactor": f"{stem}_energies.pdb"}[what]
+        folder = self.app_settings.last_dir or os.getcwd()
+        path, _ = QFileDialog.getSaveFileName(self, "Export", os.path.join(folder, default), filters[what])
+        if path:
+            self.export(what, path)
+
+    def export(self, what: str, path: str) -> bool:
+        """Write one export; a failure shows a message and leaves no partial file."""
+        try:
+            exports.export(self, what, path)
+        except Exception as exc:  # OSError, EnergyError, ValueError from writers
+            show_error(self, "Export failed", f"{os.path.basename(path)}: {exc}")
+            return False
+        self.statusBar().showMessage(f"Wrote {path}", 6000)
+        return True

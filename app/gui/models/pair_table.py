@@ -1,0 +1,91 @@
+"""The pair ledger's model: one row per residue pair with a non-negligible entry."""
+from __future__ import annotations
+
+import numpy as np
+
+from app.gui.models.array_table import ArrayTableModel, Column
+from energy.terms.registry import BONDED_TERMS, TERMS
+
+#: A pair whose largest term is below this (kcal/mol) is left out of the ledger.
+NEGLIGIBLE_KCAL = 1e-3
+
+
+class PairTableModel(ArrayTableModel):
+    """Records are rows of the dataset's residue-pair table that pass :data:`NEGLIGIBLE_KCAL`."""
+
+    def __init__(self, parent=None):
+        super().__init__(parent)
+        self.dataset = None
+        self._pair_rows = np.zeros(0, np.intp)   # record -> row of dataset.pairs
+        self._lab_i = self._lab_j = None
+
+    def set_dataset(self, ds) -> None:
+        self.dataset = ds
+        if ds is None:
+            self.set_columns([], 0)
+            return
+        rp = ds.pairs
+        big = np.max(np.abs(np.stack([rp.values[t] for t in TERMS])), axis=0) if len(rp) else np.zeros(0)
+        rows = np.flatnonzero(big >= NEGLIGIBLE_KCAL)
+        self._pair_rows = rows
+        pi, pj = rp.pair_i[rows], rp.pair_j[rows]
+        self._lab_i, self._lab_j = ds.labels[pi], ds.labels[pj]
+        self._ch_i, self._ch_j = ds.chains[pi], ds.chains[pj]
+        lower = np.array([str(s).lower() for s in ds.labels], dtype=str)   # per residue, then indexed
+        self._lower_i, self._lower_j = lower[pi], lower[pj]
+        dist = rp.min_heavy_distance[rows]
+        col = lambda q: rp.column(q)[rows]  # noqa: E731
+        if ds.is_difference:
+            c = ds.comparison
+            cols = [Column("Residue 1", self._lab_i, sort_key=pi), Column("Residue 2", self._lab_j, sort_key=pj),
+                    Column("First", c.first_values["total"][rows], "energy", "total in the first structure"),
+                    Column("Second", c.second_values["total"][rows], "energy", "total in the second structure"),
+                    Column("Change", col("total"), "energy", "second minus first"),
+                    Column("Size", np.abs(col("total")), "energy", "|second minus first|"),
+                    Column("Δ Coulomb", col("coulomb"), "energy"), Column("Δ LJ", col("lj"), "energy"),
+                    Column("Δ Bonded", col("bonded"), "energy", "bonded terms: " + ", ".join(BONDED_TERMS)),
+                    Column("Closest", dist, "distance", "minimum heavy-atom distance, second structure")]
+        else:
+            cols = [Column("Residue 1", self._lab_i, sort_key=pi), Column("Residue 2", self._lab_j, sort_key=pj),
+                    Column("Closest", dist, "distance", "minimum heavy-atom distance"),
+                    Column("Coulomb", col("coulomb"), "energy"), Column("LJ", col("lj"), "energy"),
+                    Column("Bonded", col("bonded"), "energy", "bonded terms: " + ", ".join(BONDED_TERMS)),
+                    Column("Total", col("total"), "energy")]
+        self.set_columns(cols, len(rows))
+
+    # -- filtering ------------------------------------------------------------------------
+    def apply_filter(self, text: str = "", chain: str = "", between: tuple | None = None,
+                     hide_self: bool = False) -> None:
+        """Text in either label; one residue in ``chain``; ``between=(c1, c2)``: one residue in
+        each chain; ``hide_self``: no intra-residue rows."""
+        if self.dataset is None:
+            return
+        mask = np.ones(len(self._pair_rows), bool)
+        text = text.strip().lower()
+        if text:
+            mask &= (np.char.find(self._lower_i, text) >= 0) | (np.char.find(self._lower_j, text) >= 0)
+        if chain:
+            mask &= (self._ch_i == chain) | (self._ch_j == chain)
+        if between:
+            a, b = between
+            mask &= ((self._ch_i == a) & (self._ch_j == b)) | ((self._ch_i == b) & (self._ch_j == a))
+        if hide_self:
+            mask &= self.dataset.pairs.pair_i[self._pair_rows] != self.dataset.pairs.pair_j[self._pair_rows]
+        self.set_mask(None if mask.all() else mask)
+
+    # -- pair <-> row -------------------------------------------------------------------------
+    def pair_of_row(self, row: int):
+        k = self._pair_rows[self.record(row)]
+        rp = self.dataset.pairs
+        return int(rp.pair_i[k]), int(rp.pair_j[k])
+
+    def row_of_pair(self, pair) -> int:
+        if self.dataset is None or pair is None:
+            return -1
+        k = self.dataset.pairs.lookup(*pair)
+        if k is None:
+            return -1
+        rec = np.searchsorted(self._pair_rows, k)
+        if rec >= len(self._pair_rows) or self._pair_rows[rec] != k:
+            return -1
+        return self.row_of(int(rec))

@@ -1,0 +1,43 @@
+"""Atom contributions: every atom pair and bonded term behind the selected residue pair."""
+from __future__ import annotations
+
+from PySide6.QtWidgets import QLabel, QVBoxLayout, QWidget
+
+from app.gui.models.atom_table import AtomTableModel
+from app.gui.views.tables import record_table, show_row
+
+
+class AtomContributionsView(QWidget):
+    def __init__(self, selection, parent=None):
+        super().__init__(parent)
+        self.selection = selection
+        self.model = AtomTableModel(self)
+        self._syncing = False
+        self.caption = QLabel("Select a residue pair in the map or the ledger.")
+        self.caption.setObjectName("atomCaption")
+        self.caption.setWordWrap(True)
+        self.table = record_table("atomTable", self.model, size_from_rows=40)
+        lay = QVBoxLayout(self); lay.setContentsMargins(2, 2, 2, 2)
+        lay.addWidget(self.caption); lay.addWidget(self.table, 1)
+        self.table.selectionModel().currentRowChanged.connect(self._on_row)
+        selection.atomPairChanged.connect(self._on_atom_pair)
+
+    def show_contributions(self, system, contrib, caption: str) -> None:
+        self.model.set_contributions(system, contrib)
+        self.caption.setText(caption)
+        self.table.resizeColumnsToContents()
+
+    def _on_row(self, current, _prev) -> None:
+        if self._syncing or not current.isValid():
+            return
+        pair = self.model.atom_pair_of_row(current.row())
+        self.selection.set_atom_pair(pair)
+
+    def _on_atom_pair(self, pair) -> None:
+        pair = pair or None
+        row = self.model.row_of_atom_pair(pair)
+        self._syncing = True
+        try:
+            show_row(self.table, row)
+        finally:
+            self._syncing = False

@@ -1,0 +1,148 @@
+"""Compute settings: cutoff, switching, electrostatics, dielectric, vdW model, and display units.
+
+Changing a computation setting asks the window to recompute in the background (after a short
+pause so that typing a number does not start one computation per key); the unit only rescales.
+"""
+from __future__ import annotations
+
+from PySide6.QtCore import QTimer, Signal
+from PySide6.QtWidgets import (
+    QCheckBox,
+    QComboBox,
+    QDoubleSpinBox,
+    QFormLayout,
+    QHBoxLayout,
+    QLabel,
+    QPushButton,
+    QVBoxLayout,
+    QWidget,
+)
+
+from app.gui.settings import UNITS
+from energy.errors import SettingsError
+from energy.model.settings import EXP6_ALPHA_MATCHING_LJ, EnergySettings
+
+ELECTROSTATICS = {"plain": "Plain Coulomb, ε constant", "reaction-field": "Reaction field (needs cutoff)",
+                  "distance-dependent": "Distance-dependent, ε = D·r",
+                  "shifted": "Shifted force, zero at the cutoff (needs cutoff)"}
+VDW_MODELS = {"lj": "Lennard-Jones 12-6 (force field)", "exp6": "Exp-6, same minimum per pair"}
+
+
+class ComputeSettingsPanel(QWidget):
+    settingsChanged = Signal(object)   # EnergySettings, valid
+    unitChanged = Signal(str)
+
+    def __init__(self, settings: EnergySettings, unit: str, parent=None):
+        super().__init__(parent)
+        self._debounce = QTimer(self, singleShot=True, interval=500)
+        self._debounce.timeout.connect(self._emit)
+        self.use_cutoff = QCheckBox("Cutoff"); self.use_cutoff.setObjectName("useCutoff")
+        self.cutoff = QDoubleSpinBox(); self.cutoff.setObjectName("cutoff")
+        self.cutoff.setRange(3.0, 99.0); self.cutoff.setSingleStep(0.5); self.cutoff.setSuffix(" Å")
+        self.use_switch = QCheckBox("LJ switch from"); self.use_switch.setObjectName("useSwitch")
+        self.switch = QDoubleSpinBox(); self.switch.setRange(1.0, 98.0); self.switch.setSingleStep(0.5)
+        self.switch.setSuffix(" Å")
+        self.electrostatics = QComboBox(); self.electrostatics.setObjectName("electrostatics")
+        for key, text in ELECTROSTATICS.items():
+            self.electrostatics.addItem(text, key)
+        self.dielectric = QDoubleSpinBox(); self.dielectric.setObjectName("dielectric")
+        self.dielectric.setRange(0.1, 200.0); self.dielectric.setSingleStep(0.5); self.dielectric.setDecimals(2)
+        self.solvent = QDoubleSpinBox(); self.solvent.setRange(1.0, 200.0); self.solvent.setDecimals(1)
+        self.periodic = QCheckBox("Minimum image when a cell is known")
+        self.vdw = QComboBox(); self.vdw.setObjectName("vdwModel")
+        for key, text in VDW_MODELS.items():
+            self.vdw.addItem(text, key)
+        self.alpha = QDoubleSpinBox(); self.alpha.setObjectName("exp6Alpha")
+        self.alpha.setRange(7.5, 40.0); self.alpha.setDecimals(3); self.alpha.setSingleStep(0.5)
+        self.alpha.setToolTip(f"Exp-6 steepness; {EXP6_ALPHA_MATCHING_LJ:.3f} matches the LJ curvature "
+                              "at the minimum (docs/physics.md)")
+        self.alpha_default = QPushButton("LJ-matched"); self.alpha_default.setObjectName("exp6AlphaDefault")
+        self.alpha_default.clicked.connect(lambda: self.alpha.setValue(EXP6_ALPHA_MATCHING_LJ))
+        self.unit = QComboBox(); self.unit.setObjectName("unit")
+        for u in UNITS:
+            self.unit.addItem(u, u)
+        self.message = QLabel(""); self.message.setObjectName("settingsMessage"); self.message.setWordWrap(True)
+        self.recompute = QPushButton("Recompute now"); self.recompute.setObjectName("recompute")
+
+        form = QFormLayout()
+        form.addRow(self.use_cutoff, self.cutoff)
+        form.addRow(self.use_switch, self.switch)
+        form.addRow("Electrostatics", self.electrostatics)
+        form.addRow("Dielectric ε or D", self.dielectric)
+        form.addRow("Solvent ε (reaction field)", self.solvent)
+        form.addRow("Repulsion model", self.vdw)
+        arow = QHBoxLayout(); arow.addWidget(self.alpha, 1); arow.addWidget(self.alpha_default)
+        form.addRow("Exp-6 steepness α", arow)
+        form.addRow(self.periodic)
+        form.addRow("Energy unit", self.unit)
+        lay = QVBoxLayout(self)
+        lay.addLayout(form); lay.addWidget(self.recompute); lay.addWidget(self.message); lay.addStretch(1)
+
+        self.set_settings(settings)
+        k = self.unit.findData(unit)
+        self.unit.setCurrentIndex(max(0, k))
+        for w in (self.use_cutoff, self.use_switch, self.periodic):
+            w.toggled.connect(self._changed)
+        for w in (self.cutoff, self.switch, self.dielectric, self.solvent, self.alpha):
+            w.valueChanged.connect(self._changed)
+        self.electrostatics.currentIndexChanged.connect(self._changed)
+        self.vdw.currentIndexChanged.connect(self._changed)
+        self.unit.currentIndexChanged.connect(lambda: self.unitChanged.emit(self.unit.currentData()))
+        self.recompute.clicked.connect(self._emit)
+
+    def set_settings(self, s: EnergySettings) -> None:
+        widgets = (self.use_cutoff, self.cutoff, self.use_switch, self.switch, self.electrostatics,
+                   self.dielectric, self.solvent, self.periodic, self.vdw, self.alpha)
+        for w in widgets:
+            w.blockSignals(True)
+        self.use_cutoff.setChecked(s.cutoff_angstrom is not None)
+        self.cutoff.setValue(s.cutoff_angstrom or 12.0)
+        self.use_switch.setChecked(s.switch_angstrom is not None)
+        self.switch.setValue(s.switch_angstrom or 10.0)
+        self.electrostatics.setCurrentIndex(self.electrostatics.findData(s.electrostatics))
+        self.dielectric.setValue(s.dielectric)
+        self.solvent.setValue(s.solvent_dielectric)
+        self.periodic.setChecked(s.use_periodic)
+        self.vdw.setCurrentIndex(self.vdw.findData(s.vdw))
+        self.alpha.setValue(s.exp6_alpha)
+        for w in widgets:
+            w.blockSignals(False)
+        self._enable()
+
+    def _enable(self) -> None:
+        on = self.use_cutoff.isChecked()
+        self.cutoff.setEnabled(on); self.use_switch.setEnabled(on)
+        self.switch.setEnabled(on and self.use_switch.isChecked())
+        self.solvent.setEnabled(self.electrostatics.currentData() == "reaction-field")
+        exp6 = self.vdw.currentData() == "exp6"
+        self.alpha.setEnabled(exp6); self.alpha_default.setEnabled(exp6)
+
+    def current(self) -> EnergySettings:
+        """Raises SettingsError for an invalid combination."""
+        cut = self.cutoff.value() if self.use_cutoff.isChecked() else None
+        sw = self.switch.value() if cut is not None and self.use_switch.isChecked() else None
+        return EnergySettings(cutoff_angstrom=cut, switch_angstrom=sw,
+                              electrostatics=self.electrostatics.currentData(),
+                              dielectric=self.dielectric.value(),
+                              solvent_dielectric=self.solvent.value(),
+                              use_periodic=self.periodic.isChecked(),
+                              vdw=self.vdw.currentData(), exp6_alpha=self._alpha())
+
+    def _alpha(self) -> float:
+        """The spin box shows 3 decimals; the LJ-matched value is kept exact."""
+        a = self.alpha.value()
+        return EXP6_ALPHA_MATCHING_LJ if abs(a - EXP6_ALPHA_MATCHING_LJ) < 5e-4 else a
+
+    def _changed(self) -> None:
+        self._enable()
+        self._debounce.start()
+
+    def _emit(self) -> None:
+        self._debounce.stop()
+        try:
+            s = self.current()
+        except SettingsError as exc:
+            self.message.setText(f"<span style='color:#b2182b'>{exc}</span>")
+            return
+        self.message.setText(s.describe())
+        self.settingsChanged.emit(s)

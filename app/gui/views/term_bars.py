@@ -1,0 +1,89 @@
+"""Term bars: per-term energies of the whole system, the selected residue pair and A vs B."""
+from __future__ import annotations
+
+import numpy as np
+import pyqtgraph as pg
+
+import resources
+from energy.terms.registry import TERMS, short_label
+
+POS, NEG = (resources.json_table("colormaps.json")[k] for k in ("bar_positive", "bar_negative"))
+
+
+def compact(v: float) -> str:
+    a = abs(v)
+    if a >= 1e6:
+        return f"{v:.2e}"
+    if a >= 1e3:
+        return f"{v / 1e3:.1f}k"
+    return f"{v:.3g}" if a >= 0.01 else f"{v:.2g}"
+
+
+class TermBarsView(pg.GraphicsLayoutWidget):
+    def __init__(self, parent=None):
+        super().__init__(parent)
+        self.setBackground("w")
+        self.factor, self.unit = 1.0, "kcal/mol"
+        self.values = {"system": None, "pair": None, "groups": None}
+        self.titles = {"system": "Whole system", "pair": "Selected pair", "groups": "Group A vs B"}
+        self.plots, self.bars, self.texts = {}, {}, {}
+        for col, key in enumerate(self.values):
+            p = self.addPlot(row=0, col=col)
+            p.setMenuEnabled(False); p.hideButtons(); p.setMouseEnabled(x=False, y=False)
+            p.getAxis("left").enableAutoSIPrefix(False)
+            p.showGrid(x=True, alpha=0.15)
+            p.addLine(x=0, pen=pg.mkPen("#777"))
+            p.invertY(True)
+            p.getAxis("bottom").enableAutoSIPrefix(False)
+            self.plots[key] = p
+            self.texts[key] = []
+        self._redraw()
+
+    def set_unit(self, factor, unit) -> None:
+        self.factor, self.unit = factor, unit
+        self._redraw()
+
+    def set_values(self, key: str, values: dict | None, subtitle: str = "") -> None:
+        self.values[key] = None if values is None else (dict(values), subtitle)
+        self._redraw_one(key)
+
+    def _redraw(self) -> None:
+        for key in self.values:
+            self._redraw_one(key)
+
+    def _redraw_one(self, key) -> None:
+        p = self.plots[key]
+        if key in self.bars:
+            p.removeItem(self.bars.pop(key))
+        for t in self.texts[key]:
+            p.removeItem(t)
+        self.texts[key] = []
+        entry = self.values[key]
+        sub = "" if entry is None else entry[1]
+        p.setTitle(f"<span style='color:#222'>{self.titles[key]}</span>"
+                   + (f"<br><span style='color:#555;font-size:8pt'>{sub}</span>" if sub else ""), size="9pt")
+        p.setLabel("bottom", self.unit)
+        if entry is None:
+            p.getAxis("left").setTicks([[]])
+            return
+        vals = entry[0]
+        names = [t for t in (*TERMS, "total") if t in vals and (t in ("coulomb", "lj", "total") or vals[t] != 0)]
+        x = np.array([vals[t] for t in names]) * self.factor
+        y = np.arange(len(names))
+        brushes = [pg.mkBrush(POS if v > 0 else NEG) for v in x]
+        bars = pg.BarGraphItem(x0=np.minimum(x, 0), width=np.abs(x), y=y, height=0.65, brushes=brushes,
+                               pens=[pg.mkPen("#333")] * len(y))
+        p.addItem(bars)
+        self.bars[key] = bars
+        p.getAxis("left").setTicks([[(i, short_label(t)) for i, t in enumerate(names)]])
+        lo, hi = min(0.0, float(x.min())), max(0.0, float(x.max()))
+        span = (hi - lo) or 1.0
+        for i, v in enumerate(x):
+            anchor = (-0.05, 0.5) if v >= 0 else (1.05, 0.5)
+            t = pg.TextItem(compact(float(v)), color="#111", anchor=anchor)
+            t.setPos(v, i)
+            p.addItem(t)
+            self.texts[key].append(t)
+        p.setXRange(lo - (0.75 * span if lo < 0 else 0.05 * span),
+                    hi + (0.75 * span if hi > 0 else 0.05 * span), padding=0)
+        p.setYRange(-0.6, len(y) - 0.4, padding=0)

@@ -1,0 +1,1 @@
+"""What the application holds, without Qt: the loaded datasets and the trajectory state."""

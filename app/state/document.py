@@ -1,0 +1,119 @@
+"""Plain-Python state of the window (no Qt): what was loaded, what was computed, what is shown.
+
+:class:`LoadSpec` says which files make a system; :class:`Snapshot` is one loaded system with
+its computed result; :class:`Dataset` is what the map and the pair ledger display: residue
+labels, chains and a residue-pair table, either of one snapshot or of a comparison.
+"""
+from __future__ import annotations
+
+import os
+from dataclasses import asdict, dataclass, field
+
+import numpy as np
+
+from energy.terms.registry import TERMS
+
+
+@dataclass(frozen=True)
+class LoadSpec:
+    """Files making one system: a PDB/mmCIF alone, or a PSF + parameters + coordinates."""
+
+    structure: str
+    coords: str | None = None
+    params: tuple = ()
+    frame: int = 0
+    add_hydrogens: bool = False
+
+    def as_dict(self) -> dict:
+        d = asdict(self)
+        d["params"] = list(self.params)
+        return d
+
+    @classmethod
+    def from_dict(cls, d: dict) -> LoadSpec:
+        return cls(structure=str(d["structure"]), coords=d.get("coords") or None,
+                   params=tuple(d.get("params") or ()), frame=int(d.get("frame") or 0),
+                   add_hydrogens=bool(d.get("add_hydrogens")))
+
+    @classmethod
+    def from_files(cls, files) -> LoadSpec:
+        """Sort a list of dropped/command-line files into a spec (PSF first, params, coords)."""
+        files = [os.fspath(f) for f in files]
+        ext = lambda f: os.path.splitext(f)[1].lower()  # noqa: E731
+        psf = [f for f in files if ext(f) == ".psf"]
+        params = [f for f in files if ext(f) in (".prm", ".par", ".str", ".rtf", ".inp")]
+        rest = [f for f in files if f not in psf and f not in params]
+        if psf:
+            return cls(psf[0], rest[0] if rest else None, tuple(params))
+        if not rest:
+            return cls(files[0] if files else "", None, tuple(params))
+        return cls(rest[0], rest[1] if len(rest) > 1 else None, tuple(params))
+
+    def short_name(self) -> str:
+        name = os.path.basename(self.structure)
+        if self.coords:
+            name += f" + {os.path.basename(self.coords)}"
+        return name
+
+
+@dataclass(frozen=True)
+class Snapshot:
+    """One loaded system and its computed :class:`energy.decomposition.pipeline.EnergyResult`."""
+
+    spec: LoadSpec
+    loaded: object          # energy.io.loaders.LoadedSystem
+    result: object          # energy.decomposition.pipeline.EnergyResult
+
+    @property
+    def system(self):
+        return self.loaded.system
+
+    @property
+    def frame(self):
+        return self.loaded.frame
+
+
+@dataclass(frozen=True)
+class Dataset:
+    """What the pair map and the ledger show.
+
+    ``labels`` (n,) str, ``chains`` (n,) str, ``pairs`` a ResiduePairEnergies-like table over
+    those n residues (``pair_i``, ``pair_j``, ``values``, ``column``, ``dense``, ``per_residue``,
+    ``lookup``, ``min_heavy_distance``).  ``snapshot`` is set for one structure; ``comparison``
+    (an :class:`energy.analysis.compare.Comparison`) in compare mode.
+    """
+
+    labels: np.ndarray
+    chains: np.ndarray
+    pairs: object
+    title: str
+    snapshot: Snapshot | None = None
+    comparison: object = None
+    totals: dict = field(default_factory=dict)
+
+    @property
+    def n(self) -> int:
+        return len(self.labels)
+
+    @property
+    def is_difference(self) -> bool:
+        return self.comparison is not None
+
+    @classmethod
+    def from_snapshot(cls, snap: Snapshot) -> Dataset:
+        r = snap.system.residues
+        labels = np.array([r.label(i) for i in range(len(r))], dtype=object)
+        chains = np.array([str(c).strip() for c in r.chain], dtype=object)
+        frame = snap.frame.index
+        title = f"{snap.spec.short_name()}, frame {frame}"
+        return cls(labels, chains, snap.result.residue_pairs, title, snapshot=snap,
+                   totals=dict(snap.result.totals))
+
+    @classmethod
+    def from_comparison(cls, comparison, first: Snapshot, second: Snapshot) -> Dataset:
+        title = f"{second.spec.short_name()} minus {first.spec.short_name()}"
+        return cls(np.asarray(comparison.labels, dtype=object),
+                   np.asarray(comparison.chains, dtype=object), comparison.difference, title,
+                   snapshot=first, comparison=comparison,
+                   totals={t: comparison.totals_second[t] - comparison.totals_first[t]
+                           for t in (*TERMS, "total")})

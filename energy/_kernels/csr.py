@@ -1,0 +1,94 @@
+"""Residue-pair tables as CSR rows, and the small compiled helpers that work on them.
+
+A table lists residue pairs (I, J), I <= J, sorted by (I, J); ``row_start[I]:row_start[I+1]``
+are the pairs of row I, the diagonal (I, I) first where present.  The cell search
+(:mod:`energy._kernels.cells`) and the all-pairs builders here produce such tables; the kernel
+(:mod:`energy._kernels.residue_rows`) and the aggregation (:mod:`energy.decomposition.residue_pairs`) consume them.
+"""
+from __future__ import annotations
+
+import numba
+import numpy as np
+
+#: dtype of the residue indices of every residue-pair table (pair_i, pair_j): 4 bytes, not 8,
+#: on columns of millions of rows whose pages are written for the first time on every evaluation.
+PAIR_INDEX = np.int32
+
+def interleaved_rows(lo: int, hi: int) -> np.ndarray:
+    """Rows lo..hi-1 dealt round-robin to the threads: numba's ``prange`` hands each thread one
+    contiguous stretch of the iteration space, and rows owning the pairs J > I grow shorter
+    along the index (linearly so without a cutoff), so contiguous stretches would not balance."""
+    threads = numba.get_num_threads()
+    rows = np.arange(lo, hi, dtype=np.intp)
+    return np.concatenate([rows[t::threads] for t in range(threads)]) if threads > 1 else rows
+
+
+def all_pairs_rows(n: int):
+    """Every residue pair I <= J in (I, J) order, with CSR row starts (like candidate_pairs_cells)."""
+    row_start = np.zeros(n + 1, np.int64)
+    pair_i, pair_j = upper_triangle_rows(0, n, n, row_start)
+    return pair_i, pair_j, row_start
+
+
+@numba.njit(cache=True)
+def upper_triangle_rows(lo, hi, n, row_start):
+    """Rows lo..hi-1 of the full upper triangle I <= J < n: (pair_i, pair_j); ``row_start[lo:hi+1]``
+    is set to the offsets within these rows."""
+    m = 0
+    for i in range(lo, hi):
+        row_start[i] = m
+        m += n - i
+    row_start[hi] = m
+    pair_i = np.empty(m, PAIR_INDEX)
+    pair_j = np.empty(m, PAIR_INDEX)
+    k = 0
+    for i in range(lo, hi):
+        for j in range(i, n):
+            pair_i[k] = i
+            pair_j[k] = j
+            k += 1
+    return pair_i, pair_j
+
+
+@numba.njit(parallel=True, cache=True)
+def locate_pairs(row_start, pair_j, qi, qj):
+    """Row index of each query pair (qi <= qj) in the CSR table, or -1 if absent."""
+    out = np.empty(len(qi), np.int64)
+    for k in numba.prange(len(qi)):
+        lo, hi = row_start[qi[k]], row_start[qi[k] + 1]
+        target = qj[k]
+        if lo < hi and pair_j[lo] == target:  # the diagonal leads its row: most bonded queries
+            out[k] = lo
+            continue
+        while lo < hi:  # binary search in the row
+            mid = (lo + hi) // 2
+            if pair_j[mid] < target:
+                lo = mid + 1
+            else:
+                hi = mid
+        out[k] = lo if lo < row_start[qi[k] + 1] and pair_j[lo] == target else -1
+    return out
+
+
+@numba.njit(cache=True)
+def accumulate(target, idx, values):
+    """target[idx[k]] += values[k] for every k (serial, so sums are reproducible)."""
+    for k in range(len(idx)):
+        target[idx[k]] += values[k]
+
+
+@numba.njit(parallel=True, cache=True)
+def _fill_in_parallel(a, value, parts):
+    n = len(a)
+    for t in numba.prange(parts):
+        for k in range(t * n // parts, (t + 1) * n // parts):
+            a[k] = value
+
+
+def zeros_in_parallel(n: int) -> np.ndarray:
+    """``np.zeros(n)`` whose pages are first touched by all threads at once: a fresh column that
+    is then written all over (scattered entries on every page) costs its page faults on one
+    thread otherwise (~35 ms for 45 MB here, against ~13 ms)."""
+    a = np.empty(n)
+    _fill_in_parallel(a, 0.0, numba.get_num_threads())
+    return a

@@ -1,0 +1,1 @@
+"""The engine's data model (:class:`MolecularSystem`, :class:`Frame`) and its settings."""

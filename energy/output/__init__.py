@@ -1,0 +1,1 @@
+"""Serialisation only: JSON, CSV and text summaries of results, and atomic file writes."""

@@ -1,0 +1,43 @@
+"""The one place for atomic writes: every output file is written to a temporary file in the
+target folder and renamed into place, so a failure never leaves a half-written file."""
+from __future__ import annotations
+
+import os
+import tempfile
+from contextlib import contextmanager
+
+
+def _default_permissions(path) -> None:
+    """mkstemp creates 0600 files; give the file the permissions a plain open() would."""
+    umask = os.umask(0)
+    os.umask(umask)
+    os.chmod(path, 0o666 & ~umask)
+
+
+@contextmanager
+def atomic_open(path, mode: str = "w"):
+    """Open a temporary file beside ``path`` for writing; on success it replaces ``path``
+    atomically (with ordinary file permissions), on any failure it is removed."""
+    path = os.fspath(path)
+    fd, tmp = tempfile.mkstemp(prefix=".tessera-", suffix=".tmp",
+                               dir=os.path.dirname(os.path.abspath(path)))
+    try:
+        with os.fdopen(fd, mode, **({"newline": ""} if "b" not in mode else {})) as fh:
+            yield fh
+        _default_permissions(tmp)
+        os.replace(tmp, path)
+    except BaseException:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+        raise
+
+
+def atomic_write_text(path, text: str) -> None:
+    """Write ``text`` to ``path`` via a temporary file and an atomic rename."""
+    with atomic_open(path, "w") as fh:
+        fh.write(text)
+
+
+def atomic_write_bytes(path, data: bytes) -> None:
+    with atomic_open(path, "wb") as fh:
+        fh.write(data)

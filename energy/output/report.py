@@ -1,0 +1,218 @@
+"""Results as JSON, CSV tables and a human summary; atomic file writing.
+
+Every file is written to a temporary file in the target folder and renamed into place, so a
+failure never leaves a half-written file.
+"""
+from __future__ import annotations
+
+import csv
+import io
+import json
+import os
+
+import numpy as np
+
+from energy.output.files import atomic_open, atomic_write_text
+from energy.terms.registry import TERMS, TermNames
+
+UNITS = {"energy": "kcal/mol", "distance": "angstrom"}
+
+
+
+
+
+
+
+
+
+
+def residue_records(system) -> list[dict]:
+    r = system.residues
+    return [{"index": i, "chain": str(r.chain[i]), "resid": int(r.resid[i]), "icode": str(r.icode[i]),
+             "resname": str(r.resname[i])} for i in range(len(r))]
+
+
+def pair_columns(result, include_zero: bool = False) -> dict:
+    """Residue-pair columns (numpy arrays) for the rows with a nonzero entry: ``i``, ``j``, every
+    term, ``total`` and ``min_heavy_distance`` (A; inf where no heavy-atom pair was examined)."""
+    rp = result.residue_pairs
+    cols = {t: rp.values[t] for t in TERMS}
+    if include_zero:
+        rows = slice(None)
+    else:
+        nonzero = np.zeros(len(rp), bool)
+        for t in TERMS:
+            nonzero |= cols[t] != 0.0
+        rows = np.flatnonzero(nonzero)
+    out = {"i": rp.pair_i[rows], "j": rp.pair_j[rows]}
+    out.update({t: cols[t][rows] for t in TERMS})
+    out["total"] = rp.total[rows]
+    out["min_heavy_distance"] = rp.min_heavy_distance[rows]
+    return out
+
+
+_PAIR_KEYS = TermNames(prefix=("i", "j"), extra=("total", "min_heavy_distance"))
+_STREAM_ROWS = 20_000
+
+
+def _chunk_template(cols, sl) -> tuple[str, list]:
+    """Row template for one chunk with the columns that are +0.0 on every row written in as
+    literals (bonded terms of solvent pairs), and the keys still to substitute.  The text is the
+    same as formatting every value (repr(0.0) == "0.0"); it is just less work."""
+    parts, keys = [], []
+    for k in _PAIR_KEYS:
+        fmt = "%d" if k in ("i", "j") else ("%s" if k == "min_heavy_distance" else "%r")
+        if fmt == "%r":
+            col = cols[k][sl]
+            if not np.any(col) and not np.any(np.signbit(col)):
+                parts.append(f'"{k}": 0.0')
+                continue
+        parts.append(f'"{k}": {fmt}')
+        keys.append(k)
+    return "{" + ", ".join(parts) + "}", keys
+
+
+def _pair_json_chunks(cols):
+    n = len(cols["i"])
+    for start in range(0, n, _STREAM_ROWS):
+        sl = slice(start, start + _STREAM_ROWS)
+        template, keys = _chunk_template(cols, sl)
+        columns = []
+        for k in keys:
+            if k == "min_heavy_distance":
+                d = cols[k][sl]
+                dist = np.where(np.isfinite(d), d, np.nan).tolist()
+                columns.append(["null" if x != x else repr(x) for x in dist])
+            else:
+                columns.append(cols[k][sl].tolist())
+        yield ",\n  ".join(template % row for row in zip(*columns))
+
+
+_PAIRS_PLACEHOLDER = "@@tessera-pairs@@"
+
+
+def scan_document(loaded, result, selection=None, extra_timings=None) -> dict:
+    """The JSON document of ``tessera scan``; ``pairs`` is filled in by :func:`write_scan_json`
+    (streamed, so that millions of pairs never sit in memory as Python objects)."""
+    system = loaded.system
+    timings = {"read": loaded.timings.get("read", 0.0),
+               "parameterise": loaded.timings.get("parameterise", 0.0),
+               "compute": result.timings["compute"]}
+    timings.update({f"compute_{k}": v for k, v in result.timings.items() if k != "compute"})
+    timings.update(extra_timings or {})
+    doc = {
+        "program": "tessera",
+        "units": UNITS,
+        "inputs": {"structure": loaded.structure_path, "coordinates": loaded.coords_path or None,
+                   "parameters": list(loaded.param_paths), "frame": loaded.frame.index},
+        "force_field": system.force_field,
+        "n_atoms": system.n_atoms,
+        "n_residues": system.n_residues,
+        "settings": {**result.settings.as_dict(), "periodic": result.periodic},
+        "totals": {k: float(result.totals[k]) for k in (*TERMS, "total")},
+        "n_atom_pairs_within_cutoff": result.n_atom_pairs,
+        "unlisted_pairs": result.unlisted,
+        "residues": residue_records(system),
+        "pairs": _PAIRS_PLACEHOLDER,
+        "timings": timings,
+    }
+    if selection is not None:
+        doc["selection"] = selection
+    return doc
+
+
+def residue_table_csv(system, result) -> str:
+    rp = result.residue_pairs
+    per = {t: rp.per_residue(t) for t in TERMS}
+    per_total = rp.per_residue("total")
+    out = io.StringIO()
+    w = csv.writer(out)
+    w.writerow(["index", "chain", "resid", "icode", "resname", *TERMS, "total"])
+    r = system.residues
+    for i in range(system.n_residues):
+        w.writerow([i, r.chain[i], int(r.resid[i]), r.icode[i], r.resname[i],
+                    *(f"{per[t][i]:.6f}" for t in TERMS), f"{per_total[i]:.6f}"])
+    return out.getvalue()
+
+
+def pair_table_csv(system, result) -> str:
+    cols = pair_columns(result)
+    out = io.StringIO()
+    w = csv.writer(out)
+    w.writerow(["i", "j", "label_i", "label_j", *TERMS, "total", "min_heavy_distance"])
+    labels = [system.residues.label(i) for i in range(system.n_residues)]
+    numbers = [np.char.mod("%.6f", cols[t]) for t in (*TERMS, "total")]
+    d = cols["min_heavy_distance"]
+    dist = np.where(np.isfinite(d), np.char.mod("%.3f", np.where(np.isfinite(d), d, 0.0)), "")
+    for k, (i, j) in enumerate(zip(cols["i"].tolist(), cols["j"].tolist())):
+        w.writerow([i, j, labels[i], labels[j], *(col[k] for col in numbers), dist[k]])
+    return out.getvalue()
+
+
+def write_json(path, doc: dict) -> None:
+    atomic_write_text(path, json.dumps(doc, indent=1, allow_nan=False) + "\n")
+
+
+def write_scan_json(path, doc: dict, result) -> None:
+    """Write a :func:`scan_document` with its residue-pair rows streamed in, atomically."""
+    text = json.dumps(doc, indent=1, allow_nan=False)
+    head, tail = text.split(json.dumps(_PAIRS_PLACEHOLDER), 1)
+    with atomic_open(path, "w") as fh:
+        fh.write(head + "[\n  ")
+        first = True
+        for chunk in _pair_json_chunks(pair_columns(result)):
+            if not first:
+                fh.write(",\n  ")
+            fh.write(chunk)
+            first = False
+        fh.write("\n ]" + tail + "\n")
+
+
+def write_csv_dir(folder, system, result) -> list[str]:
+    folder = os.fspath(folder)
+    os.makedirs(folder, exist_ok=True)
+    paths = [os.path.join(folder, "residues.csv"), os.path.join(folder, "residue_pairs.csv")]
+    atomic_write_text(paths[0], residue_table_csv(system, result))
+    atomic_write_text(paths[1], pair_table_csv(system, result))
+    return paths
+
+
+def summary_text(loaded, result, top: int = 8, selection=None) -> str:
+    """Human summary: system, per-term totals, strongest repulsive and attractive residue pairs."""
+    system = loaded.system
+    lines = [f"{loaded.structure_path}: {system.n_atoms} atoms, {system.n_residues} residues; "
+             f"{system.force_field}",
+             f"settings: {result.settings.describe()}"
+             + ("; periodic (minimum image)" if result.periodic else ""),
+             "", "per-term totals (kcal/mol):"]
+    for t in (*TERMS, "total"):
+        lines.append(f"  {t:<13}{result.totals[t]:>16.4f}")
+    rp = result.residue_pairs
+    inter = rp.pair_i != rp.pair_j
+    total = rp.total
+    idx = np.flatnonzero(inter)
+    if len(idx):
+        order = idx[np.argsort(total[idx])]
+        label = system.residues.label
+        lines += ["", "most repulsive residue pairs (kcal/mol; bonded neighbours included):"]
+        for k in order[::-1][:top]:
+            if total[k] <= 0:
+                break
+            lines.append(f"  {label(rp.pair_i[k]):>14} - {label(rp.pair_j[k]):<14}{total[k]:>14.3f}")
+        lines += ["", "most attractive residue pairs (kcal/mol):"]
+        for k in order[:top]:
+            if total[k] >= 0:
+                break
+            lines.append(f"  {label(rp.pair_i[k]):>14} - {label(rp.pair_j[k]):<14}{total[k]:>14.3f}")
+    if selection is not None:
+        lines += ["", f"interaction {selection['a']!r} vs {selection['b']!r}: "
+                  f"Coulomb {selection['coulomb']:.4f}, LJ {selection['lj']:.4f}, "
+                  f"total {selection['total']:.4f} kcal/mol ({selection['n_pairs']} atom pairs)"]
+    if result.unlisted:
+        u = result.unlisted
+        lines += ["", f"{u['n_pairs']:,} residue pairs below {u['below']:g} kcal/mol are not listed "
+                  f"(no cutoff, large system); they add Coulomb {u['coulomb']:.4f} and LJ "
+                  f"{u['lj']:.4f} kcal/mol, included in the totals"]
+    lines += ["", "timings (s): " + ", ".join(f"{k} {v:.3f}" for k, v in
+                                           {**loaded.timings, "compute": result.timings['compute']}.items())]
+    return "\n".join(lines)
