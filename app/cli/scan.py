@@ -14,10 +14,12 @@ from app.cli.arguments import (
 )
 from energy import prepare_kernels
 from energy.decomposition.atom_pairs import selection_interaction
+from energy.decomposition.blocks import block_residue_pairs, has_solvent
 from energy.decomposition.pipeline import compute, prepare_system
 from energy.errors import EnergyError
 from energy.io.loaders import load_system
 from energy.output import report
+from energy.output.blocked import block_records, solute_rows
 from energy.output.result_file import write_scan_result
 
 
@@ -33,6 +35,9 @@ def configure_parser(p: argparse.ArgumentParser) -> None:
                    help="write the result file (HDF5: every residue pair; reopen with tessera view; "
                         "layout in docs/result-file.md)")
     p.add_argument("--top", type=int, default=8, help="pairs shown in the summary (default 8)")
+    p.add_argument("--every-residue", action="store_true",
+                   help="list every water and ion as its own residue (default: solvent as blocks, "
+                        "'Water (N)' and 'Ions (N)', in the summary, CSV and JSON)")
     p.add_argument("--quiet", action="store_true", help="no summary or progress on stdout/stderr")
     traj = p.add_argument_group("trajectories")
     traj.add_argument("--frames", metavar="START:STOP:STEP", default=None,
@@ -76,18 +81,27 @@ def run(args) -> int:
         selection = selection_interaction(loaded.system, loaded.frame, settings, args.select_a,
                                           args.select_b)
         extra["selection"] = time.perf_counter() - t0
+    classes = loaded.system.residue_classes
+    blocked = None
+    if has_solvent(classes) and not args.every_residue:
+        labels = [loaded.system.residues.label(k) for k in range(loaded.system.n_residues)]
+        blocked = block_residue_pairs(result.residue_pairs, classes, labels)
     if args.json:
         # timings.write is measured up to the start of writing (the file cannot hold its own
         # write time); the streamed write itself follows.
         t0 = time.perf_counter()
         doc = report.scan_document(loaded, result, selection, extra)
+        rows = None
+        if blocked is not None:
+            doc["blocks"], doc["block_pairs"] = block_records(blocked, classes)
+            rows = solute_rows(result.residue_pairs, classes)
         doc["timings"]["write"] = time.perf_counter() - t0
-        report.write_scan_json(args.json, doc, result)
-        warn_if_large_json(len(result.residue_pairs), args.out)
+        report.write_scan_json(args.json, doc, result, rows)
+        warn_if_large_json(len(result.residue_pairs) if rows is None else len(rows), args.out)
     if args.out:
         write_scan_result(args.out, loaded, result)
     if args.csv_dir:
-        report.write_csv_dir(args.csv_dir, loaded.system, result)
+        report.write_csv_dir(args.csv_dir, loaded.system, result, blocked)
     if not args.quiet:
-        print(report.summary_text(loaded, result, args.top, selection))
+        print(report.summary_text(loaded, result, args.top, selection, blocked))
     return 0

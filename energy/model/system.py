@@ -13,6 +13,8 @@ from dataclasses import dataclass, field, fields
 
 import numpy as np
 
+from energy.model.residue_classes import residue_classes
+
 #: The bonded tables every system has: name -> (atoms per row, parameter columns).  Terms added
 #: through the registry bring their own tables in ``MolecularSystem.other_tables``.
 TABLE_SHAPES = {
@@ -214,6 +216,12 @@ class MolecularSystem:
         if key not in cache:
             cache[key] = build(self)
         return cache[key]
+
+    @property
+    def residue_classes(self) -> np.ndarray:
+        """(n_residues,) str: each residue's class (:data:`energy.model.residue_classes.CLASSES`),
+        from its name, or its segment for a name the class table does not know (computed once)."""
+        return self.derived("residue_classes", lambda s: residue_classes(s.residues))
 
     @property
     def is_heavy(self) -> np.ndarray:

@@ -12,6 +12,7 @@ import os
 
 import numpy as np
 
+from energy.output.blocked import blocked_pair_csv
 from energy.output.files import atomic_open, atomic_write_text
 from energy.terms.registry import TERMS, TermNames
 
@@ -28,7 +29,9 @@ UNITS = {"energy": "kcal/mol", "distance": "angstrom"}
 
 def residue_records(system) -> list[dict]:
     r = system.residues
+    classes = system.residue_classes
     return [{"index": i, "chain": str(r.chain[i]), "resid": int(r.resid[i]), "icode": str(r.icode[i]),
+             "class": str(classes[i]),
              "resname": str(r.resname[i])} for i in range(len(r))]
 
 
@@ -48,7 +51,7 @@ def residue_pair_columns(rp, include_zero: bool = False) -> dict:
         for t in TERMS:
             nonzero |= cols[t] != 0.0
         rows = np.flatnonzero(nonzero)
-    out = {"i": rp.pair_i[rows], "j": rp.pair_j[rows]}
+    out = {"i": rp.pair_i[rows], "j": rp.pair_j[rows], "row": np.arange(len(rp))[rows]}
     out.update({t: cols[t][rows] for t in TERMS})
     out["total"] = rp.total[rows]
     out["min_heavy_distance"] = rp.min_heavy_distance[rows]
@@ -131,10 +134,11 @@ def residue_table_csv(system, result) -> str:
     per_total = rp.per_residue("total")
     out = io.StringIO()
     w = csv.writer(out)
-    w.writerow(["index", "chain", "resid", "icode", "resname", *TERMS, "total"])
+    w.writerow(["index", "chain", "resid", "icode", "resname", "class", *TERMS, "total"])
     r = system.residues
+    classes = system.residue_classes
     for i in range(system.n_residues):
-        w.writerow([i, r.chain[i], int(r.resid[i]), r.icode[i], r.resname[i],
+        w.writerow([i, r.chain[i], int(r.resid[i]), r.icode[i], r.resname[i], classes[i],
                     *(f"{per[t][i]:.6f}" for t in TERMS), f"{per_total[i]:.6f}"])
     return out.getvalue()
 
@@ -180,14 +184,19 @@ def write_json(path, doc: dict) -> None:
     atomic_write_text(path, json.dumps(doc, indent=1, allow_nan=False) + "\n")
 
 
-def write_scan_json(path, doc: dict, result) -> None:
-    """Write a :func:`scan_document` with its residue-pair rows streamed in, atomically."""
+def write_scan_json(path, doc: dict, result, rows=None) -> None:
+    """Write a :func:`scan_document` with its residue-pair rows streamed in, atomically
+    (only the rows ``rows`` of the table when given, e.g. the solute rows of a blocked run)."""
     text = json.dumps(doc, indent=1, allow_nan=False)
     head, tail = text.split(json.dumps(_PAIRS_PLACEHOLDER), 1)
     with atomic_open(path, "w") as fh:
         fh.write(head + "[\n  ")
         first = True
-        for chunk in _pair_json_chunks(pair_columns(result)):
+        cols = pair_columns(result)
+        if rows is not None:
+            keep = np.isin(cols["row"], rows)
+            cols = {k: v[keep] for k, v in cols.items()}
+        for chunk in _pair_json_chunks(cols):
             if not first:
                 fh.write(",\n  ")
             fh.write(chunk)
@@ -195,17 +204,22 @@ def write_scan_json(path, doc: dict, result) -> None:
         fh.write("\n ]" + tail + "\n")
 
 
-def write_csv_dir(folder, system, result) -> list[str]:
+def write_csv_dir(folder, system, result, blocked=None) -> list[str]:
+    """Write ``residues.csv`` and ``residue_pairs.csv`` into ``folder`` (created if needed); with
+    ``blocked`` (solvent as blocks) the pair table lists solute pairs and block entries
+    (:func:`energy.output.blocked.blocked_pair_csv`).  Returns the two paths."""
     folder = os.fspath(folder)
     os.makedirs(folder, exist_ok=True)
     paths = [os.path.join(folder, "residues.csv"), os.path.join(folder, "residue_pairs.csv")]
     atomic_write_text(paths[0], residue_table_csv(system, result))
-    atomic_write_text(paths[1], pair_table_csv(system, result))
+    atomic_write_text(paths[1], pair_table_csv(system, result) if blocked is None else blocked_pair_csv(blocked))
     return paths
 
 
-def summary_text(loaded, result, top: int = 8, selection=None) -> str:
-    """Human summary: system, per-term totals, strongest repulsive and attractive residue pairs."""
+def summary_text(loaded, result, top: int = 8, selection=None, blocked=None) -> str:
+    """Human summary: system, per-term totals, strongest repulsive and attractive residue pairs
+    (of the solute and solvent blocks when ``blocked``, an
+    :class:`energy.decomposition.blocks.BlockedPairs`, is given)."""
     system = loaded.system
     lines = [f"{loaded.structure_path}: {system.n_atoms} atoms, {system.n_residues} residues; "
              f"{system.force_field}",
@@ -214,13 +228,16 @@ def summary_text(loaded, result, top: int = 8, selection=None) -> str:
              "", "per-term totals (kcal/mol):"]
     for t in (*TERMS, "total"):
         lines.append(f"  {t:<13}{result.totals[t]:>16.4f}")
-    rp = result.residue_pairs
+    rp = result.residue_pairs if blocked is None else blocked.pairs
     inter = rp.pair_i != rp.pair_j
     total = rp.total
     idx = np.flatnonzero(inter)
+    if blocked is not None:
+        lines += ["", "solvent as blocks: " + ", ".join(blocked.labels[blocked.n_solute:])
+                  + " (--every-residue lists every residue)"]
     if len(idx):
         order = idx[np.argsort(total[idx])]
-        label = system.residues.label
+        label = system.residues.label if blocked is None else (lambda k: blocked.labels[k])
         lines += ["", "most repulsive residue pairs (kcal/mol; bonded neighbours included):"]
         for k in order[::-1][:top]:
             if total[k] <= 0:

@@ -25,6 +25,7 @@ from energy.analysis.compare import Comparison, ResidueMatch
 from energy.decomposition.residue_pairs import ResiduePairEnergies
 from energy.errors import EnergyError
 from energy.model.settings import EnergySettings
+from energy.model.residue_classes import residue_classes
 from energy.model.system import ResidueTable
 from energy.output.files import temporary_path
 from energy.terms.registry import COLUMNS, TERMS
@@ -158,6 +159,7 @@ def _write_header(fh, kind: str, inputs, settings: EnergySettings | None) -> Non
 
 def _write_residues(group, residues: ResidueTable) -> None:
     g = group.create_group("residues")
+    _column(g, "class", residue_classes(residues))
     _column(g, "chain", _strings(residues.chain))
     _column(g, "resid", np.asarray(residues.resid, np.int64))
     _column(g, "icode", _strings(residues.icode))

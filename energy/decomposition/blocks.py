@@ -1,0 +1,109 @@
+"""Solvent blocks: water and ions aggregated into one entry each.
+
+In a solvated snapshot most residues are waters and ions.  :func:`block_residue_pairs` turns a
+residue-pair table into one over the *solute* residues (in their order) followed by one block
+per solvent class present: ``Water (4,611)``, ``Ions (19)``.  A block's pair with a solute
+residue is the sum over all the block's residues; its diagonal holds the solvent-solvent energy
+(within and between its residues); the water-ion pair holds their mutual energy.  Every
+original entry lands in exactly one blocked entry, so the blocked table sums to the same totals
+(up to floating-point summation order), and so do its per-residue sums.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from energy._kernels.pair_key import ordered_pair_keys, split_keys
+from energy.decomposition.residue_pairs import ResiduePairEnergies
+from energy.model.residue_classes import SOLVENT_CLASSES
+from energy.terms.registry import TERMS
+
+#: Label of each solvent block (the count of residues is appended).
+BLOCK_NAMES = {"water": "Water", "ion": "Ions"}
+
+
+@dataclass(frozen=True)
+class BlockedPairs:
+    """A residue-pair table over solute residues and solvent blocks.
+
+    ``pairs``: :class:`ResiduePairEnergies` over ``n = len(labels)`` rows; ``labels`` (n,) str
+    (solute residue labels, then ``Water (N)``...); ``members`` (n,) object: for each row the
+    original residue indices it stands for ((1,) for a solute residue); ``residue_to_row``
+    (n_residues,) intp: the row of every original residue; ``n_blocks``: solvent blocks at the
+    end of the rows.
+    """
+
+    pairs: ResiduePairEnergies
+    labels: np.ndarray
+    members: np.ndarray
+    residue_to_row: np.ndarray
+    n_blocks: int
+
+    @property
+    def n_solute(self) -> int:
+        return len(self.labels) - self.n_blocks
+
+
+def has_solvent(classes: np.ndarray) -> bool:
+    """True if any residue's class is a solvent class (water, ion).
+
+    Parameters
+    ----------
+    classes : (n_residues,) str array
+        Residue classes (``MolecularSystem.residue_classes``).
+
+    Returns
+    -------
+    bool
+    """
+    return bool(np.isin(np.asarray(classes, dtype=object), SOLVENT_CLASSES).any())
+
+
+def block_residue_pairs(rp: ResiduePairEnergies, classes: np.ndarray, labels) -> BlockedPairs:
+    """Aggregate the solvent residues of ``rp`` into one block per solvent class.
+
+    Parameters
+    ----------
+    rp : ResiduePairEnergies
+        The full table over ``n_residues`` residues (kcal/mol; A for distances).
+    classes : (n_residues,) str array
+        Class of every residue (``MolecularSystem.residue_classes``).
+    labels : (n_residues,) sequence of str
+        Residue labels (``A:LYS12``...).
+
+    Returns
+    -------
+    BlockedPairs
+        Rows: the solute residues in their original order, then ``Water (N)`` and ``Ions (N)``
+        (only the classes present).  Each blocked value is the sum of the original entries
+        mapped onto it; ``min_heavy_distance`` is the smallest over them.
+    """
+    classes = np.asarray(classes, dtype=object)
+    n = rp.n_residues
+    solute = np.flatnonzero(~np.isin(classes, SOLVENT_CLASSES))
+    row = np.empty(n, np.intp)
+    row[solute] = np.arange(len(solute))
+    out_labels = [str(labels[k]) for k in solute]
+    members = [np.array([k]) for k in solute]
+    for cls in SOLVENT_CLASSES:
+        idx = np.flatnonzero(classes == cls)
+        if len(idx):
+            row[idx] = len(out_labels)
+            out_labels.append(f"{BLOCK_NAMES[cls]} ({len(idx):,})")
+            members.append(idx)
+    m = len(out_labels)
+    keys = ordered_pair_keys(row[rp.pair_i], row[rp.pair_j], m)
+    uniq, inverse = np.unique(keys, return_inverse=True)
+    values = {}
+    for t in TERMS:
+        v = np.bincount(inverse, weights=rp.values[t], minlength=len(uniq))
+        v.flags.writeable = False
+        values[t] = v
+    dist = np.full(len(uniq), np.inf)
+    np.minimum.at(dist, inverse, rp.min_heavy_distance)
+    pair_i, pair_j = split_keys(uniq, m)
+    blocked = ResiduePairEnergies(m, pair_i, pair_j, values, dist)
+    member_array = np.empty(m, dtype=object)
+    member_array[:] = members
+    return BlockedPairs(blocked, np.array(out_labels, dtype=object), member_array, row, m - len(solute))
