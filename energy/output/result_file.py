@@ -24,8 +24,8 @@ import numpy as np
 from energy.analysis.compare import Comparison, ResidueMatch
 from energy.decomposition.residue_pairs import ResiduePairEnergies
 from energy.errors import EnergyError
-from energy.model.settings import EnergySettings
 from energy.model.residue_classes import residue_classes
+from energy.model.settings import EnergySettings
 from energy.model.system import ResidueTable
 from energy.output.files import temporary_path
 from energy.terms.registry import COLUMNS, TERMS
