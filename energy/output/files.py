@@ -18,18 +18,9 @@ def _default_permissions(path) -> None:
 def atomic_open(path, mode: str = "w"):
     """Open a temporary file beside ``path`` for writing; on success it replaces ``path``
     atomically (with ordinary file permissions), on any failure it is removed."""
-    path = os.fspath(path)
-    fd, tmp = tempfile.mkstemp(prefix=".tessera-", suffix=".tmp",
-                               dir=os.path.dirname(os.path.abspath(path)))
-    try:
-        with os.fdopen(fd, mode, **({"newline": ""} if "b" not in mode else {})) as fh:
+    with temporary_path(path) as tmp:
+        with open(tmp, mode, **({"newline": ""} if "b" not in mode else {})) as fh:
             yield fh
-        _default_permissions(tmp)
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
 
 
 def atomic_write_text(path, text: str) -> None:
