@@ -29,7 +29,28 @@ def exception_energies(system, positions, settings: EnergySettings, box=None):
     """Coulomb, vdW and distance of every exception pair, each (n_exceptions,); kcal/mol, A.
 
     Exception pairs use plain (or distance-dependent) Coulomb and the chosen vdW form with their
-    own parameters, with no cutoff and no switching (docs/physics.md)."""
+    own parameters, with no cutoff and no switching (docs/physics.md).
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        ``exception_pairs``, ``exception_qq`` (e^2), ``exception_rmin`` (A) and ``exception_eps``
+        (kcal/mol) are read.
+    positions : (n_atoms, 3) float64
+        Atom positions, A.
+    settings : EnergySettings
+        Dielectric, electrostatics model (distance-dependent or plain) and vdW model.
+    box : (6,) float or None, optional
+        Unit cell ``[a, b, c, alpha, beta, gamma]`` (A, degrees) for the minimum image of each
+        pair, or None (default).
+
+    Returns
+    -------
+    coulomb, vdw : (n_exceptions,) float64
+        Energy of each exception pair, kcal/mol.
+    distance : (n_exceptions,) float64
+        Distance of each exception pair, A.
+    """
     pairs = system.exception_pairs
     if len(pairs) == 0:
         z = np.zeros(0)
