@@ -2,8 +2,15 @@
 from __future__ import annotations
 
 import argparse
+import os
+import sys
 
+from energy.errors import EnergyError
 from energy.model.settings import EXP6_ALPHA_MATCHING_LJ, EnergySettings
+
+#: Residue pairs above which ``--json`` warns that the file gets large (about 200 bytes a pair in
+#: JSON) and points to ``--out``.
+LARGE_JSON_PAIRS = 1_000_000
 
 
 def add_input_arguments(p: argparse.ArgumentParser) -> None:
@@ -44,3 +51,23 @@ def settings_from_args(args):
                           electrostatics=args.electrostatics, dielectric=args.dielectric,
                           solvent_dielectric=args.solvent_dielectric,
                           use_periodic=not args.no_periodic, vdw=args.vdw, exp6_alpha=alpha)
+
+
+def add_result_file_argument(p: argparse.ArgumentParser) -> None:
+    """``--out RESULT.h5``: the result file of a command."""
+    p.add_argument("--out", metavar="RESULT.h5",
+                   help="write the result file (HDF5; reopen with tessera view; layout in docs/result-file.md)")
+
+
+def check_output_folders(*paths) -> None:
+    """Fail before any work when an output file's folder does not exist."""
+    for path in paths:
+        if path and not os.path.isdir(os.path.dirname(os.path.abspath(path))):
+            raise EnergyError(f"{path}: the output folder does not exist")
+
+
+def warn_if_large_json(n_pairs: int, out) -> None:
+    """One line on stderr when a JSON file got large and no result file was asked for."""
+    if n_pairs > LARGE_JSON_PAIRS and not out:
+        print(f"tessera: note: the JSON holds {n_pairs:,} residue pairs (~{n_pairs * 200 / 1e6:.0f} MB); "
+              "--out RESULT.h5 writes them compressed and the window reopens it", file=sys.stderr)

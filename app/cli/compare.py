@@ -9,7 +9,7 @@ from __future__ import annotations
 import argparse
 import os
 
-from app.cli.arguments import add_settings_arguments, settings_from_args
+from app.cli.arguments import add_result_file_argument, add_settings_arguments, check_output_folders, settings_from_args
 from energy.errors import EnergyError
 
 
@@ -31,6 +31,7 @@ def configure_parser(p: argparse.ArgumentParser) -> None:
                    help="write pair_changes.csv and residue_changes.csv")
     p.add_argument("--top", type=int, default=10, help="changes shown in the summary (default 10)")
     p.add_argument("--quiet", action="store_true", help="no summary on stdout")
+    add_result_file_argument(p)
 
 
 
@@ -42,6 +43,7 @@ def run(args) -> int:
     from energy.output import report
     from energy.output.comparison import comparison_document, difference_csv, residue_difference_csv, summary_text
     from energy.output.files import atomic_write_text
+    from energy.output.result_file import write_comparison_result
 
     coords = list(args.coords)
     if len(coords) > 2:
@@ -49,8 +51,7 @@ def run(args) -> int:
     c1 = coords[0] if coords else None
     c2 = coords[1] if len(coords) == 2 else c1
     settings = settings_from_args(args)
-    if args.json and not os.path.isdir(os.path.dirname(os.path.abspath(args.json))):
-        raise EnergyError(f"{args.json}: the output folder does not exist")
+    check_output_folders(args.json, args.out)
     frame2 = args.frame if args.second_frame is None else args.second_frame
     is_psf = lambda f: f.lower().endswith(".psf")  # noqa: E731
     first = load_system(args.first, c1, args.params if is_psf(args.first) else (), frame=args.frame,
@@ -68,6 +69,8 @@ def run(args) -> int:
               "parameters": list(args.params)}
     if args.json:
         report.write_json(args.json, comparison_document(comparison, inputs, settings))
+    if args.out:
+        write_comparison_result(args.out, (first, r1), (second, r2), comparison, settings)
     if args.csv_dir:
         os.makedirs(args.csv_dir, exist_ok=True)
         atomic_write_text(os.path.join(args.csv_dir, "pair_changes.csv"),

@@ -3,16 +3,22 @@
 from __future__ import annotations
 
 import argparse
-import os
 import time
 
-from app.cli.arguments import add_input_arguments, add_settings_arguments, settings_from_args
+from app.cli.arguments import (
+    add_input_arguments,
+    add_settings_arguments,
+    check_output_folders,
+    settings_from_args,
+    warn_if_large_json,
+)
 from energy import prepare_kernels
 from energy.decomposition.atom_pairs import selection_interaction
 from energy.decomposition.pipeline import compute, prepare_system
 from energy.errors import EnergyError
 from energy.io.loaders import load_system
 from energy.output import report
+from energy.output.result_file import write_scan_result
 
 
 def configure_parser(p: argparse.ArgumentParser) -> None:
@@ -23,6 +29,9 @@ def configure_parser(p: argparse.ArgumentParser) -> None:
     p.add_argument("--select-b", metavar="SEL", help="MDAnalysis selection B")
     p.add_argument("--json", metavar="OUT.json", help="write the full result as JSON")
     p.add_argument("--csv-dir", metavar="DIR", help="write residues.csv and residue_pairs.csv")
+    p.add_argument("--out", metavar="RESULT.h5",
+                   help="write the result file (HDF5: every residue pair; reopen with tessera view; "
+                        "layout in docs/result-file.md)")
     p.add_argument("--top", type=int, default=8, help="pairs shown in the summary (default 8)")
     p.add_argument("--quiet", action="store_true", help="no summary or progress on stdout/stderr")
     traj = p.add_argument_group("trajectories")
@@ -50,8 +59,7 @@ def run(args) -> int:
     if (args.select_a is None) != (args.select_b is None):
         raise EnergyError("give both --select-a and --select-b, or neither")
     settings = settings_from_args(args)
-    if args.json and not os.path.isdir(os.path.dirname(os.path.abspath(args.json))):
-        raise EnergyError(f"{args.json}: the output folder does not exist")
+    check_output_folders(args.json, args.out)
     t0 = time.perf_counter()
     prepare_kernels(settings)
     prepare_seconds = time.perf_counter() - t0
@@ -75,6 +83,9 @@ def run(args) -> int:
         doc = report.scan_document(loaded, result, selection, extra)
         doc["timings"]["write"] = time.perf_counter() - t0
         report.write_scan_json(args.json, doc, result)
+        warn_if_large_json(len(result.residue_pairs), args.out)
+    if args.out:
+        write_scan_result(args.out, loaded, result)
     if args.csv_dir:
         report.write_csv_dir(args.csv_dir, loaded.system, result)
     if not args.quiet:

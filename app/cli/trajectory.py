@@ -22,7 +22,7 @@ import sys
 import threading
 import time
 
-from app.cli.arguments import settings_from_args
+from app.cli.arguments import check_output_folders, settings_from_args
 from app.cli.progress import ProgressBar
 from energy.analysis.trajectory import (
     TrajectoryError,
@@ -112,9 +112,9 @@ def run(args, progress=None) -> int:
     """
     from energy.output.files import atomic_write_text
     from energy.output.report import write_json
+    from energy.output.result_file import write_trajectory_result
     t_start = time.perf_counter()
-    if args.json and not os.path.isdir(os.path.dirname(os.path.abspath(args.json))):
-        raise EnergyError(f"{args.json}: the output folder does not exist")
+    check_output_folders(args.json, getattr(args, "out", None))
     request = request_from_args(args)
     scan, execution = make_scan(request, args.frames, getattr(args, "workers", 1),
                                 getattr(args, "scheduler", None))
@@ -137,6 +137,8 @@ def run(args, progress=None) -> int:
                                                           interrupted, timings))
             if tables is not None:
                 atomic_write_text(os.path.join(args.csv_dir, STATS_CSV), stats_table_csv(result))
+            if getattr(args, "out", None):
+                write_trajectory_result(args.out, result)
         return result
 
     steps = scan.steps()

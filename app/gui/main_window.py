@@ -8,6 +8,7 @@ from PySide6.QtCore import QByteArray, Qt, Signal
 from PySide6.QtGui import QAction, QKeySequence
 from PySide6.QtWidgets import QDockWidget, QFileDialog, QLabel, QMainWindow, QProgressBar, QPushButton, QToolBar
 
+import resources
 from app.gui import exports
 from app.gui.controllers.checks import ChecksController
 from app.gui.controllers.trajectory import TrajectoryController
@@ -32,8 +33,6 @@ from energy.analysis.compare import compare_results
 from energy.decomposition.atom_pairs import selection_interaction
 from energy.terms.registry import map_quantities
 from energy.units import ENERGY_UNITS
-
-SCENARIO = Path(__file__).resolve().parents[1] / "samples" / "scenario" / "complex_clash.pdb"
 
 
 def _group_energy(snapshots, a: str, b: str):
@@ -229,8 +228,9 @@ class MainWindow(QMainWindow):
 
     # -- opening ---------------------------------------------------------------------------
     def open_default(self) -> None:
-        if SCENARIO.exists():
-            self.open_spec(LoadSpec(str(SCENARIO)))
+        demo = resources.demo_structure()
+        if demo is not None:
+            self.open_spec(LoadSpec(str(demo)))
         else:
             self.size_label.setText("No system loaded: File > Open (Ctrl+O) or drop files here")
 

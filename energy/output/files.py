@@ -74,3 +74,31 @@ def atomic_write_bytes(path, data: bytes) -> None:
     """
     with atomic_open(path, "wb") as fh:
         fh.write(data)
+
+
+@contextmanager
+def temporary_path(path):
+    """A temporary file name beside ``path`` for a writer that opens files by name (HDF5); on
+    success the file replaces ``path`` atomically, on any failure it is removed.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The final file.
+
+    Yields
+    ------
+    str
+        The temporary file's path (already created, empty).
+    """
+    path = os.fspath(path)
+    fd, tmp = tempfile.mkstemp(prefix=".tessera-", suffix=".tmp", dir=os.path.dirname(os.path.abspath(path)))
+    os.close(fd)
+    try:
+        yield tmp
+        _default_permissions(tmp)
+        os.replace(tmp, path)
+    except BaseException:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+        raise

@@ -1,6 +1,7 @@
 """The main window on the clash scenario: map, ledger, atom contributions, profile, ordering."""
 import numpy as np
 import pytest
+from conftest import SCENARIO_CLASH
 from PySide6.QtCore import QPoint, Qt
 
 from app.gui.models.array_table import SORT_ROLE
@@ -177,3 +178,15 @@ def test_status_bar_says_when_small_pairs_are_not_listed(qtbot, opened, monkeypa
     unlisted = opened.snapshot.result.unlisted
     assert unlisted["n_pairs"] > 0
     assert f"{unlisted['n_pairs']:,} residue pairs under 0.05 kcal/mol not listed" in opened.size_label.text()
+
+
+def test_window_opens_the_demo_scenario_when_started_without_files(qtbot, window):
+    """`tessera` alone opens the bundled demo (samples/scenario/complex_clash.pdb, located through
+    resources.demo_structure): the map shows its residues."""
+    import resources
+    demo = resources.demo_structure()
+    assert demo is not None and demo.samefile(SCENARIO_CLASH)
+    with qtbot.waitSignal(window.computeFinished, timeout=30000):
+        window.open_default()
+    assert window.snapshot.spec.structure == str(demo)
+    assert window.dataset.n == window.snapshot.system.n_residues > 100
