@@ -27,14 +27,42 @@ UNITS = {"energy": "kcal/mol", "distance": "angstrom"}
 
 
 def residue_records(system) -> list[dict]:
+    """The residue table as JSON-ready records.
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system.
+
+    Returns
+    -------
+    list of dict
+        One per residue: ``index`` (0-based), ``chain``, ``resid`` (int), ``icode``, ``resname``.
+    """
     r = system.residues
     return [{"index": i, "chain": str(r.chain[i]), "resid": int(r.resid[i]), "icode": str(r.icode[i]),
              "resname": str(r.resname[i])} for i in range(len(r))]
 
 
 def pair_columns(result, include_zero: bool = False) -> dict:
-    """Residue-pair columns (numpy arrays) for the rows with a nonzero entry: ``i``, ``j``, every
-    term, ``total`` and ``min_heavy_distance`` (A; inf where no heavy-atom pair was examined)."""
+    """Residue-pair columns (numpy arrays) for the rows with a nonzero entry.
+
+    ``i``, ``j``, every term, ``total`` and ``min_heavy_distance`` (A; inf where no heavy-atom pair
+    was examined).
+
+    Parameters
+    ----------
+    result : EnergyResult
+        An evaluation (its ``residue_pairs``).
+    include_zero : bool, optional
+        Keep the rows whose every term is 0 too (default False).
+
+    Returns
+    -------
+    dict of str to (n_rows,) ndarray
+        ``i``, ``j`` (integer residue indices, i <= j), each term and ``total`` (float64, kcal/mol),
+        ``min_heavy_distance`` (float64, A).
+    """
     rp = result.residue_pairs
     cols = {t: rp.values[t] for t in TERMS}
     if include_zero:
@@ -92,8 +120,28 @@ _PAIRS_PLACEHOLDER = "@@tessera-pairs@@"
 
 
 def scan_document(loaded, result, selection=None, extra_timings=None) -> dict:
-    """The JSON document of ``tessera scan``; ``pairs`` is filled in by :func:`write_scan_json`
-    (streamed, so that millions of pairs never sit in memory as Python objects)."""
+    """The JSON document of ``tessera scan``.
+
+    ``pairs`` is filled in by :func:`write_scan_json` (streamed, so that millions of pairs never
+    sit in memory as Python objects); here it holds a placeholder.
+
+    Parameters
+    ----------
+    loaded : LoadedSystem
+        The loaded system (:func:`energy.io.loaders.load_system`): system, frame, paths, timings.
+    result : EnergyResult
+        Its evaluation.
+    selection : dict or None, optional
+        The A-vs-B interaction (:func:`energy.decomposition.atom_pairs.selection_interaction`).
+    extra_timings : dict or None, optional
+        More wall times to record, s.
+
+    Returns
+    -------
+    dict
+        ``units`` (kcal/mol, angstrom), inputs, settings, ``totals`` (kcal/mol), ``residues``,
+        ``pairs`` (placeholder), ``timings`` (s), ``selection`` when given.
+    """
     system = loaded.system
     timings = {"read": loaded.timings.get("read", 0.0),
                "parameterise": loaded.timings.get("parameterise", 0.0),
@@ -122,6 +170,21 @@ def scan_document(loaded, result, selection=None, extra_timings=None) -> dict:
 
 
 def residue_table_csv(system, result) -> str:
+    """Per-residue totals as CSV text.
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system (residue labels).
+    result : EnergyResult
+        Its evaluation.
+
+    Returns
+    -------
+    str
+        Columns ``index``, ``chain``, ``resid``, ``icode``, ``resname``, each term and ``total``
+        (kcal/mol, six decimals; half of each off-diagonal pair entry, all of the diagonal).
+    """
     rp = result.residue_pairs
     per = {t: rp.per_residue(t) for t in TERMS}
     per_total = rp.per_residue("total")
@@ -136,6 +199,21 @@ def residue_table_csv(system, result) -> str:
 
 
 def pair_table_csv(system, result) -> str:
+    """The residue pairs with a nonzero entry (:func:`pair_columns`) as CSV text.
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system (residue labels).
+    result : EnergyResult
+        Its evaluation.
+
+    Returns
+    -------
+    str
+        Columns ``i``, ``j``, ``label_i``, ``label_j``, each term and ``total`` (kcal/mol, six
+        decimals) and ``min_heavy_distance`` (A, three decimals; empty where none was examined).
+    """
     cols = pair_columns(result)
     out = io.StringIO()
     w = csv.writer(out)
@@ -150,11 +228,30 @@ def pair_table_csv(system, result) -> str:
 
 
 def write_json(path, doc: dict) -> None:
+    """Write ``doc`` as indented JSON to ``path``, atomically (NaN and inf are refused).
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The file to write.
+    doc : dict
+        A JSON-ready document.
+    """
     atomic_write_text(path, json.dumps(doc, indent=1, allow_nan=False) + "\n")
 
 
 def write_scan_json(path, doc: dict, result) -> None:
-    """Write a :func:`scan_document` with its residue-pair rows streamed in, atomically."""
+    """Write a :func:`scan_document` with its residue-pair rows streamed in, atomically.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The file to write.
+    doc : dict
+        The document of :func:`scan_document` (with its ``pairs`` placeholder).
+    result : EnergyResult
+        The evaluation whose pairs (:func:`pair_columns`) are streamed in.
+    """
     text = json.dumps(doc, indent=1, allow_nan=False)
     head, tail = text.split(json.dumps(_PAIRS_PLACEHOLDER), 1)
     with atomic_open(path, "w") as fh:
@@ -169,6 +266,22 @@ def write_scan_json(path, doc: dict, result) -> None:
 
 
 def write_csv_dir(folder, system, result) -> list[str]:
+    """Write ``residues.csv`` and ``residue_pairs.csv`` into ``folder`` (created if needed).
+
+    Parameters
+    ----------
+    folder : str or os.PathLike
+        Output folder.
+    system : MolecularSystem
+        The system (residue labels).
+    result : EnergyResult
+        Its evaluation.
+
+    Returns
+    -------
+    list of str
+        The two paths written.
+    """
     folder = os.fspath(folder)
     os.makedirs(folder, exist_ok=True)
     paths = [os.path.join(folder, "residues.csv"), os.path.join(folder, "residue_pairs.csv")]
@@ -178,7 +291,24 @@ def write_csv_dir(folder, system, result) -> list[str]:
 
 
 def summary_text(loaded, result, top: int = 8, selection=None) -> str:
-    """Human summary: system, per-term totals, strongest repulsive and attractive residue pairs."""
+    """Human summary: system, per-term totals, strongest repulsive and attractive residue pairs.
+
+    Parameters
+    ----------
+    loaded : LoadedSystem
+        The loaded system (:func:`energy.io.loaders.load_system`): system, frame, paths, timings.
+    result : EnergyResult
+        Its evaluation.
+    top : int, optional
+        Residue pairs listed in each direction (default 8).
+    selection : dict or None, optional
+        The A-vs-B interaction to report (:func:`energy.decomposition.atom_pairs.selection_interaction`).
+
+    Returns
+    -------
+    str
+        The summary (kcal/mol, s), lines joined by newlines.
+    """
     system = loaded.system
     lines = [f"{loaded.structure_path}: {system.n_atoms} atoms, {system.n_residues} residues; "
              f"{system.force_field}",
