@@ -106,6 +106,12 @@ def test_cli_trajectory_result_matches_its_statistics(tmp_path):
     for t in (*TERMS, "total"):
         np.testing.assert_array_equal(stored.frames[t], doc["per_frame_totals"][t])
     assert "24-90" in stored.statistics["pair_series"]
+    # the window's dataset of a stored trajectory: the mean over the frames, as the JSON has it
+    from app.state.document import Dataset
+    ds = Dataset.from_stored(stored)
+    mean = {(p["i"], p["j"]): p["mean"]["total"] for p in doc["pairs"]}
+    (i, j), expected = next(iter(mean.items()))
+    assert ds.pairs.column("total")[ds.pairs.lookup(i, j)] == pytest.approx(expected, rel=1e-12, abs=1e-12)
 
 
 def test_layout_reads_with_plain_h5py_without_tessera(tiny_scan, tmp_path):

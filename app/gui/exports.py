@@ -18,10 +18,16 @@ from energy.units import ENERGY_UNITS
 BFACTOR_RANGE = (-999.99, 9999.99)
 
 
+def _settings(window):
+    """The settings of what is on screen (a computed snapshot, or a result file)."""
+    if window.snapshot is not None:
+        return window.snapshot.result.settings
+    return window.dataset.stored.settings
+
+
 def _title(window) -> str:
-    ds = window.dataset
-    snap = window.snapshot
-    return f"{ds.title}\n{snap.result.settings.describe()}"
+    settings = _settings(window)
+    return f"{window.dataset.title}\n{settings.describe() if settings is not None else ''}"
 
 
 def matrix_csv(labels, matrix, unit: str) -> str:
@@ -75,15 +81,23 @@ def export(window, what: str, path: str) -> None:
                                  order_note=order_note)
         figures.save_figure(fig, path)
     elif what == "pairs":
-        text = difference_csv(ds.comparison) if ds.is_difference else report.pair_table_csv(snap.system, snap.result)
+        if ds.is_difference:
+            text = difference_csv(ds.comparison)
+        elif snap is not None:
+            text = report.pair_table_csv(snap.system, snap.result)
+        else:
+            text = report.pair_rows_csv(ds.labels, ds.pairs)
         atomic_write_text(path, text)
     elif what == "matrix":
         m = ds.pairs.dense(mp.quantity) * ENERGY_UNITS[unit]
         atomic_write_text(path, matrix_csv(list(ds.labels), m, unit))
     elif what == "report":
-        files = [snap.spec.structure, snap.spec.coords, *snap.spec.params]
+        if snap is not None:
+            files = [snap.spec.structure, snap.spec.coords, *snap.spec.params]
+        else:
+            files = [f"{r.role}: {r.path}" for r in ds.stored.inputs] + [f"result file: {ds.stored.path}"]
         notes = []
-        if ds.is_difference:
+        if ds.is_difference and window.second is not None:
             sec = window.second.spec
             files += ["second: " + sec.structure, sec.coords]
             c = ds.comparison
@@ -91,10 +105,12 @@ def export(window, what: str, path: str) -> None:
                      f"{', '.join(c.mutated_labels) or 'none'}; unmatched: "
                      f"{', '.join(c.unmatched_first_labels + c.unmatched_second_labels) or 'none'}"]
         figures.save_report(path, labels=ds.labels, chains=ds.chains, pairs=ds.pairs, totals=ds.totals,
-                            settings=snap.result.settings, files=files, title=_title(window), unit=unit,
+                            settings=_settings(window), files=files, title=_title(window), unit=unit,
                             quantity=mp.quantity, percentile=mp.clip, order=mp.order,
                             order_note=order_note, difference=ds.is_difference, notes=notes)
     elif what == "bfactor":
+        if snap is None:
+            raise ValueError("the B-factor structure needs the atoms: recompute the result from its inputs first")
         target, per = snap, ds.pairs.per_residue(mp.quantity)
         if ds.is_difference:  # colour the second structure by the change
             target = window.second

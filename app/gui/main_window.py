@@ -29,6 +29,7 @@ from app.gui.views.settings_panel import ComputeSettingsPanel
 from app.gui.views.term_bars import TermBarsView
 from app.gui.views.time_series import TimeSeriesView
 from app.state.document import Dataset, LoadSpec
+from energy import results
 from energy.analysis.compare import compare_results
 from energy.decomposition.atom_pairs import selection_interaction
 from energy.terms.registry import map_quantities
@@ -38,6 +39,10 @@ from energy.units import ENERGY_UNITS
 def _group_energy(snapshots, a: str, b: str):
     """A-vs-B interaction of each snapshot (run in a background job)."""
     return [selection_interaction(s.system, s.frame, s.result.settings, a, b) for s in snapshots]
+
+
+#: Suffixes of result files (opened without recomputation; docs/result-file.md).
+RESULT_SUFFIXES = (".h5", ".hdf5")
 
 
 class MainWindow(QMainWindow):
@@ -61,6 +66,7 @@ class MainWindow(QMainWindow):
         self.dataset = None
         self.last_compute_s = None
         self.comparison = None    # compare mode: energy.analysis.compare.Comparison of the two
+        self.stored = None        # a result file on screen (energy.output.result_file.StoredResult)
         self._comparison_pair = None
         self.jobs = JobQueue(lambda: self.energy_settings, self._recompute_jobs, self)
         self.jobs.progress.connect(self._on_progress)
@@ -164,9 +170,15 @@ class MainWindow(QMainWindow):
         self.act_compare = self._action("Compare &with…", lambda: self.open_dialog(compare=True),
                                         "Ctrl+Shift+O", "Open a second structure of the same system")
         self.act_single = self._action("Back to single structure", self.leave_compare, "Ctrl+Shift+W")
+        self.act_open_result = self._action("Open &result file…", self.open_result_dialog, "Ctrl+Alt+O",
+                                            "Open a saved result (.h5): map and tables without recomputing")
+        self.act_save_result = self._action("&Save result file…", self.save_result_dialog,
+                                            QKeySequence.StandardKey.Save,
+                                            "Save what is on screen as a result file (.h5)")
         self.recent_menu = f.addMenu("Recent")
         f.addAction(self.act_open); f.addMenu(self.recent_menu)
         f.addAction(self.act_compare); f.addAction(self.act_single)
+        f.addSeparator(); f.addAction(self.act_open_result); f.addAction(self.act_save_result)
         f.insertAction(self.act_compare, f.addSeparator())
         ex = f.addMenu("&Export")
         self.export_actions = [
@@ -235,7 +247,61 @@ class MainWindow(QMainWindow):
             self.size_label.setText("No system loaded: File > Open (Ctrl+O) or drop files here")
 
     def open_files(self, files) -> None:
+        files = [os.fspath(f) for f in files]
+        if len(files) == 1 and files[0].lower().endswith(RESULT_SUFFIXES):
+            self.open_result(files[0])
+            return
         self.open_spec(LoadSpec.from_files(files))
+
+    # -- result files (docs/result-file.md) -------------------------------------------------
+    def open_result(self, path: str) -> None:
+        """Show a result file: map, ledger and term bars with no recomputation (read in a
+        background job; a bad file gives one error dialog and keeps what is on screen)."""
+        worker = CallWorker(results.load, path)
+        worker.finished.connect(self._on_stored)
+        worker.failed.connect(lambda msg, details: show_error(self, "Could not open the result file", msg, details))
+        self.start_side(worker)
+
+    def _on_stored(self, stored) -> None:
+        self.snapshot, self.second, self.comparison, self._comparison_pair = None, None, None, None
+        self.stored = stored
+        self.trajectory.open(None)
+        self.frame_toolbar.setVisible(False)
+        ds = Dataset.from_stored(stored)
+        size = f"result file: {ds.n:,} residues, {len(ds.pairs):,} residue pairs ({stored.kind})"
+        changed = stored.changed_inputs()
+        if changed:
+            size += f" | {len(changed)} input file(s) missing or changed"
+            self.statusBar().showMessage("; ".join(changed)[:400], 20000)
+        self.last_compute_s = None
+        self._display(ds, size)
+        self.computeFinished.emit()
+
+    def save_result_dialog(self) -> None:
+        if self.snapshot is None:
+            return
+        stem = Path(self.snapshot.spec.structure).stem
+        folder = self.app_settings.last_dir or os.getcwd()
+        path, _ = QFileDialog.getSaveFileName(self, "Save result", os.path.join(folder, f"{stem}_result.h5"),
+                                              "Tessera result (*.h5)")
+        if path:
+            self.save_result(path)
+
+    def save_result(self, path: str):
+        """Write what is on screen (one structure, or the comparison) as a result file in a
+        background job; returns its handle (None if nothing to save)."""
+        if self.snapshot is None:
+            return None
+        snap, second = self.snapshot, self.second
+        if second is not None:
+            comparison = self._current_comparison()
+            worker = CallWorker(results.save_comparison, path, (snap.loaded, snap.result),
+                                (second.loaded, second.result), comparison, snap.result.settings)
+        else:
+            worker = CallWorker(results.save_scan, path, snap.loaded, snap.result)
+        worker.finished.connect(lambda _=None: self.statusBar().showMessage(f"Result saved to {path}", 8000))
+        worker.failed.connect(lambda msg, details: show_error(self, "Could not save the result", msg, details))
+        return self.start_side(worker)
 
     def open_spec(self, spec: LoadSpec, compare: bool = False) -> None:
         if compare:
@@ -252,6 +318,12 @@ class MainWindow(QMainWindow):
             spec = dlg.spec()
             self.app_settings.last_dir = os.path.dirname(os.path.abspath(spec.structure))
             self.open_spec(spec, compare=compare)
+
+    def open_result_dialog(self) -> None:
+        folder = self.app_settings.last_dir or os.getcwd()
+        path, _ = QFileDialog.getOpenFileName(self, "Open result file", folder, "Tessera result (*.h5 *.hdf5)")
+        if path:
+            self.open_result(path)
 
     def dragEnterEvent(self, ev) -> None:
         if ev.mimeData().hasUrls() and all(u.isLocalFile() for u in ev.mimeData().urls()):
@@ -333,9 +405,30 @@ class MainWindow(QMainWindow):
         return [(s.spec, s.loaded) for s in (self.snapshot, self.second) if s is not None]
 
     def recompute(self) -> None:
+        if self.snapshot is None and self.stored is not None:
+            self._recompute_stored()
+            return
         jobs = self._recompute_jobs()
         if jobs:
             self.jobs.submit(jobs, "recompute")
+
+    def _recompute_stored(self) -> None:
+        """Recompute a result file from its recorded inputs (they must all be there; a changed
+        one is named, and used as it is now)."""
+        stored = self.stored
+        missing = [r for r in stored.inputs if not os.path.isfile(r.path)]
+        if missing or stored.kind != "scan":
+            why = (f"the input file {missing[0].path} is missing: open the structure again"
+                   if missing else f"a {stored.kind} result is recomputed from its structure: open it again")
+            show_error(self, "Cannot recompute this result file", why, "")
+            return
+        changed = stored.changed_inputs()
+        if changed:
+            self.statusBar().showMessage("Recomputing with the files as they are now: " + "; ".join(changed), 20000)
+        role = {r.role: r.path for r in stored.inputs}
+        params = tuple(r.path for r in stored.inputs if r.role == "parameters")
+        self.open_spec(LoadSpec(role["structure"], role.get("coordinates"), params,
+                                frame=int(stored.attrs.get("frame", 0))))
 
     def set_energy_settings(self, settings) -> None:
         if settings == self.energy_settings:
@@ -361,15 +454,7 @@ class MainWindow(QMainWindow):
             ds = Dataset.from_comparison(self._current_comparison(), snap, self.second)
         else:
             ds = self.trajectory.mean_dataset(snap) or Dataset.from_snapshot(snap)
-        keep = self.selection.pair
-        keep_atoms = self.selection.atom_pair
-        self.selection.set_pair(None)
-        self.dataset = ds
-        self.map.set_dataset(ds, keep_view=keep_view)
-        self.ledger.set_dataset(ds, keep_sort=keep_view)
-        self.roster.set_dataset(ds)
-        self.bars.set_values("system", ds.totals, "change, second minus first" if ds.is_difference else "")
-        self.bars.set_values("groups", None)
+        self.stored = None
         s = snap.system
         size = f"{s.n_atoms:,} atoms, {s.n_residues:,} residues, {len(set(ds.chains))} chain(s)"
         if ds.is_difference:
@@ -383,6 +468,19 @@ class MainWindow(QMainWindow):
         if unlisted and not ds.is_difference:
             size += (f" | {unlisted['n_pairs']:,} residue pairs under {unlisted['below']:g} kcal/mol "
                      "not listed (no cutoff; totals include them)")
+        self._display(ds, size, keep_view)
+
+    def _display(self, ds, size: str, keep_view: bool = False) -> None:
+        """Put dataset ``ds`` on every view (selection kept where it still exists)."""
+        keep = self.selection.pair
+        keep_atoms = self.selection.atom_pair
+        self.selection.set_pair(None)
+        self.dataset = ds
+        self.map.set_dataset(ds, keep_view=keep_view)
+        self.ledger.set_dataset(ds, keep_sort=keep_view)
+        self.roster.set_dataset(ds)
+        self.bars.set_values("system", ds.totals, "change, second minus first" if ds.is_difference else "")
+        self.bars.set_values("groups", None)
         self.size_label.setText(size)
         self.time_label.setText(f"last computation {self.last_compute_s:.2f} s"
                                 if self.last_compute_s is not None else "")
@@ -398,7 +496,7 @@ class MainWindow(QMainWindow):
         self.checks.run_clash_check()
         self._group_results = None
         self.roster.show_group_result("—")
-        if all(self.selection.groups):
+        if all(self.selection.groups) and self.snapshot is not None:
             self.compute_groups(*self.selection.groups)
         self._update_actions()
         self.datasetChanged.emit()
@@ -420,6 +518,7 @@ class MainWindow(QMainWindow):
             a.setEnabled(have)
         self.act_compare.setEnabled(self.snapshot is not None and not self.busy)
         self.act_single.setEnabled(self.second is not None)
+        self.act_save_result.setEnabled(self.snapshot is not None)
         self.act_recompute.setEnabled(have and not self.busy)
         self.act_cancel.setEnabled(self.busy)
 
@@ -444,6 +543,12 @@ class MainWindow(QMainWindow):
             self.bars.set_values("pair", None)
             return
         ds = self.dataset
+        if self.snapshot is None:  # a result file: the table is there, the atoms are not
+            self.atoms.show_contributions(None, None, "Atom pairs need the structure: Compute > Recompute "
+                                          "opens the result's input files, or File > Open structure.")
+            self.profile.show_pair(None, None, None)
+            self._show_pair_bars(ds, pair)
+            return
         snap, (i, j) = self._pair_snapshot(pair)
         contrib = pair_contributions(snap, i, j)
         lab = snap.system.residues.label
@@ -456,6 +561,9 @@ class MainWindow(QMainWindow):
                    f"{len(contrib.bonded)} bonded terms")
         self.atoms.show_contributions(snap.system, contrib, caption)
         self.profile.show_pair(snap.system, snap.result.settings, contrib)
+        self._show_pair_bars(ds, pair)
+
+    def _show_pair_bars(self, ds, pair) -> None:
         k = ds.pairs.lookup(*pair)
         values = {q: (float(ds.pairs.values[q][k]) if k is not None else 0.0) for q in ds.pairs.values}
         values["total"] = sum(values.values())
@@ -510,7 +618,7 @@ class MainWindow(QMainWindow):
         filters = {"map": "PNG image (*.png);;SVG image (*.svg)", "pairs": "CSV table (*.csv)",
                    "matrix": "CSV table (*.csv)", "report": "PDF document (*.pdf)",
                    "bfactor": "PDB file (*.pdb)"}
-        stem = Path(self.snapshot.spec.structure).stem
+        stem = Path(self.snapshot.spec.structure if self.snapshot is not None else self.stored.path).stem
         default = {"map": f"{stem}_map.png", "pairs": f"{stem}_pairs.csv", "matrix": f"{stem}_matrix.csv",
                    "report": f"{stem}_report.pdf", "bfactor": f"{stem}_energies.pdb"}[what]
         folder = self.app_settings.last_dir or os.getcwd()

@@ -6,6 +6,7 @@ labels, chains and a residue-pair table, either of one snapshot or of a comparis
 """
 from __future__ import annotations
 
+import json
 import os
 from dataclasses import asdict, dataclass, field
 
@@ -90,6 +91,9 @@ class Dataset:
     snapshot: Snapshot | None = None
     comparison: object = None
     totals: dict = field(default_factory=dict)
+    #: Set when the dataset comes from a result file (energy.output.result_file.StoredResult):
+    #: map, ledger and term bars need nothing else; atom drill-down needs the structure.
+    stored: object = None
 
     @property
     def n(self) -> int:
@@ -117,3 +121,36 @@ class Dataset:
                    snapshot=first, comparison=comparison,
                    totals={t: comparison.totals_second[t] - comparison.totals_first[t]
                            for t in (*TERMS, "total")})
+
+    @classmethod
+    def from_stored(cls, stored) -> Dataset:
+        """The dataset of a result file: a scan (its table), a trajectory (the mean over its
+        frames) or a comparison (second minus first)."""
+        name = os.path.basename(stored.path)
+        if stored.kind == "comparison":
+            c = stored.comparison
+            return cls(np.asarray(c.labels, dtype=object), np.asarray(c.chains, dtype=object), c.difference,
+                       f"{name} (comparison: second minus first)", comparison=c, stored=stored,
+                       totals={t: c.totals_second[t] - c.totals_first[t] for t in (*TERMS, "total")})
+        r = stored.residues
+        labels = np.array([r.label(i) for i in range(len(r))], dtype=object)
+        chains = np.array([str(c).strip() for c in r.chain], dtype=object)
+        if stored.kind == "trajectory":
+            pairs, totals = stored_trajectory_mean(stored)
+            return cls(labels, chains, pairs, f"{name} (mean over {len(stored.frames['index'])} frames)",
+                       stored=stored, totals=totals)
+        return cls(labels, chains, stored.residue_pairs, f"{name} (result file)", stored=stored,
+                   totals=dict(stored.totals))
+
+
+def stored_trajectory_mean(stored):
+    """(ResiduePairEnergies of the mean over the frames, mean per-frame totals) of a stored
+    trajectory result."""
+    from energy.decomposition.residue_pairs import ResiduePairEnergies
+    st = stored.statistics
+    columns = list(json.loads(st["columns"]))
+    values = {t: np.ascontiguousarray(st["mean"][:, columns.index(t)]) for t in TERMS}
+    pairs = ResiduePairEnergies(int(st["n_residues"]), st["i"].astype(np.intp), st["j"].astype(np.intp),
+                                values, np.asarray(st["min_distance"], float))
+    totals = {t: float(np.mean(stored.frames[t])) if len(stored.frames[t]) else 0.0 for t in (*TERMS, "total")}
+    return pairs, totals

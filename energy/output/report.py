@@ -63,7 +63,25 @@ def pair_columns(result, include_zero: bool = False) -> dict:
         ``i``, ``j`` (integer residue indices, i <= j), each term and ``total`` (float64, kcal/mol),
         ``min_heavy_distance`` (float64, A).
     """
-    rp = result.residue_pairs
+    return residue_pair_columns(result.residue_pairs, include_zero)
+
+
+def residue_pair_columns(rp, include_zero: bool = False) -> dict:
+    """:func:`pair_columns` of a residue-pair table ``rp`` (ResiduePairEnergies).
+
+    Parameters
+    ----------
+    rp : ResiduePairEnergies
+        The table.
+    include_zero : bool, optional
+        Keep the rows whose every term is 0 too (default False).
+
+    Returns
+    -------
+    dict of str to (n_rows,) ndarray
+        As :func:`pair_columns`: ``i``, ``j``, each term and ``total`` (kcal/mol),
+        ``min_heavy_distance`` (A).
+    """
     cols = {t: rp.values[t] for t in TERMS}
     if include_zero:
         rows = slice(None)
@@ -199,7 +217,7 @@ def residue_table_csv(system, result) -> str:
 
 
 def pair_table_csv(system, result) -> str:
-    """The residue pairs with a nonzero entry (:func:`pair_columns`) as CSV text.
+    """CSV text of every residue pair with an entry (see :func:`pair_rows_csv`).
 
     Parameters
     ----------
@@ -214,11 +232,33 @@ def pair_table_csv(system, result) -> str:
         Columns ``i``, ``j``, ``label_i``, ``label_j``, each term and ``total`` (kcal/mol, six
         decimals) and ``min_heavy_distance`` (A, three decimals; empty where none was examined).
     """
-    cols = pair_columns(result)
+    labels = [system.residues.label(i) for i in range(system.n_residues)]
+    return _pair_csv(labels, pair_columns(result))
+
+
+def pair_rows_csv(labels, residue_pairs) -> str:
+    """CSV text of a residue-pair table with the given residue labels (e.g. a stored result's).
+
+    Parameters
+    ----------
+    labels : sequence of str
+        (n_residues,) residue labels.
+    residue_pairs : ResiduePairEnergies
+        The table.
+
+    Returns
+    -------
+    str
+        Header ``i, j, label_i, label_j, <terms>, total, min_heavy_distance``; energies
+        kcal/mol with 6 decimals, distances A with 3 (empty where none was examined).
+    """
+    return _pair_csv(list(labels), residue_pair_columns(residue_pairs))
+
+
+def _pair_csv(labels, cols) -> str:
     out = io.StringIO()
     w = csv.writer(out)
     w.writerow(["i", "j", "label_i", "label_j", *TERMS, "total", "min_heavy_distance"])
-    labels = [system.residues.label(i) for i in range(system.n_residues)]
     numbers = [np.char.mod("%.6f", cols[t]) for t in (*TERMS, "total")]
     d = cols["min_heavy_distance"]
     dist = np.where(np.isfinite(d), np.char.mod("%.3f", np.where(np.isfinite(d), d, 0.0)), "")

@@ -193,3 +193,43 @@ def test_screenshot_is_not_blank(opened):
     assert img.width() >= 1000 and img.height() >= 600
     arr = np.array([img.pixel(x, y) for x in range(0, img.width(), 37) for y in range(0, img.height(), 29)])
     assert len(np.unique(arr)) > 50
+
+
+def test_result_file_reopens_without_recomputing_and_reports_changed_inputs(qtbot, opened, tmp_path,
+                                                                            error_boxes):
+    """File > Save result, then open it: the map and ledger show the stored table (equal to the
+    computed one) with no computation; a moved input is named; recompute from a changed input
+    says so; a bad file gives one error dialog and keeps the result on screen."""
+    import shutil
+
+    from energy import results
+    src = tmp_path / "complex.pdb"
+    shutil.copy(opened.snapshot.spec.structure, src)
+    with qtbot.waitSignal(opened.computeFinished, timeout=30000):
+        opened.open_spec(LoadSpec(str(src)))
+    computed = opened.snapshot.result.residue_pairs
+    path = tmp_path / "saved.h5"
+    handle = opened.save_result(str(path))
+    qtbot.waitUntil(lambda: not handle.thread.isRunning(), timeout=10000)
+    assert results.load(path).kind == "scan"
+
+    with qtbot.waitSignal(opened.computeFinished, timeout=10000):
+        opened.open_files([str(path)])
+    assert opened.snapshot is None and opened.stored is not None and not opened.busy
+    np.testing.assert_array_equal(opened.map.matrix, computed.dense("total"))
+    assert opened.ledger.model.rowCount() > 0
+    opened.selection.set_pair((24, 90))
+    assert "need the structure" in opened.atoms.caption.text()
+
+    src.write_text(src.read_text().replace("REMARK", "REMARK edited", 1))
+    with qtbot.waitSignal(opened.computeFinished, timeout=10000):
+        opened.open_files([str(path)])
+    assert "1 input file(s) missing or changed" in opened.size_label.text()
+    assert "has changed since the result was computed" in opened.statusBar().currentMessage()
+
+    bad = tmp_path / "bad.h5"
+    bad.write_text("not a result\n")
+    before = opened.dataset
+    opened.open_files([str(bad)])
+    qtbot.waitUntil(lambda: len(error_boxes) == 1, timeout=10000)
+    assert "not a readable HDF5 file" in error_boxes[0] and opened.dataset is before

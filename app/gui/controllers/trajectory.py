@@ -72,7 +72,7 @@ class TrajectoryController(QObject):
         self.stop_scan()
         self.bar.stop()
         self.cache.clear()
-        if not is_trajectory_path(snapshot.spec.coords):
+        if snapshot is None or not is_trajectory_path(snapshot.spec.coords):
             self.state, self.base = None, None
             self.bar.set_range(0)
             self.view.set_series(None, message="Open a structure with a trajectory (DCD, XTC, …) to "
