@@ -15,13 +15,15 @@ def pair_keys(i, j, n: int) -> np.ndarray:
 
     Parameters
     ----------
-    i, j : (m,) integer arrays (or scalars), each in ``[0, n)``.
+    i, j : (m,) integer arrays (or scalars)
+        The two indices of each pair, each in ``[0, n)``.
     n : int
         Number of indices (residues or atoms).
 
     Returns
     -------
-    (m,) int64 array ``i * n + j`` (a 0-d array for scalars).
+    (m,) int64
+        ``i * n + j`` (a 0-d array for scalars).
     """
     return np.asarray(i).astype(np.int64) * np.int64(n) + np.asarray(j).astype(np.int64)
 

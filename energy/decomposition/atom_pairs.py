@@ -223,15 +223,22 @@ def selection_interaction(system, frame, settings, select_a: str, select_b: str,
 
     Parameters
     ----------
-    system, frame : the system and the frame to evaluate.
-    settings : EnergySettings or None (defaults).
-    select_a, select_b : MDAnalysis selection strings (e.g. ``"segid A"``).
-    universe : an MDAnalysis Universe of this system and frame to select from (built if None).
+    system : MolecularSystem
+        The system to evaluate.
+    frame : Frame
+        The frame to evaluate (coordinates in A).
+    settings : EnergySettings or None
+        Settings of the evaluation (None: the defaults).
+    select_a, select_b : str
+        MDAnalysis selection strings (e.g. ``"segid A"``).
+    universe : MDAnalysis.Universe or None, optional
+        A Universe of this system and frame to select from (built if None).
 
     Returns
     -------
-    dict: ``a``, ``b`` (the selections), ``n_atoms_a``, ``n_atoms_b``, and ``coulomb``, ``lj``,
-    ``total`` (kcal/mol), ``n_pairs`` as :func:`interaction_energy`.
+    dict
+        ``a``, ``b`` (the selections), ``n_atoms_a``, ``n_atoms_b``, and ``coulomb``, ``lj``,
+        ``total`` (kcal/mol), ``n_pairs`` as :func:`interaction_energy`.
     """
     u = universe if universe is not None else universe_for(system, frame)
     atoms_a = select_atoms(system, frame, select_a, u)

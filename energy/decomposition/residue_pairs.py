@@ -27,13 +27,19 @@ def split_over_residue_pairs(atoms: np.ndarray, energies: np.ndarray, resindex: 
 
     Parameters
     ----------
-    atoms : (n, k) intp atom indices of each interaction.
-    energies : (n,) float64, kcal/mol.
-    resindex : (n_atoms,) atom -> residue.
+    atoms : (n, k) intp
+        Atom indices of each interaction.
+    energies : (n,) float64
+        Energy of each interaction, kcal/mol.
+    resindex : (n_atoms,) intp
+        Residue of each atom (atom -> residue).
 
     Returns
     -------
-    (pair_i, pair_j, values) with pair_i <= pair_j, one row per (interaction, residue pair).
+    pair_i, pair_j : (e,) intp
+        Residue pairs, pair_i <= pair_j, one row per (interaction, residue pair).
+    values : (e,) float64
+        The share of each interaction's energy on that pair, kcal/mol.
     """
     return BondedAttribution.build(atoms, resindex).split(energies)
 

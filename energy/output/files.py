@@ -78,8 +78,9 @@ def atomic_write_bytes(path, data: bytes) -> None:
 
 @contextmanager
 def temporary_path(path):
-    """A temporary file name beside ``path`` for a writer that opens files by name (HDF5); on
-    success the file replaces ``path`` atomically, on any failure it is removed.
+    """A temporary file name beside ``path`` for a writer that opens files by name (HDF5).
+
+    On success the file replaces ``path`` atomically, on any failure it is removed.
 
     Parameters
     ----------
