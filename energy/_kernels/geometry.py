@@ -101,6 +101,6 @@ def wrap_angle(a):
     Returns
     -------
     numpy.ndarray of float64
-        ``a`` shifted by whole turns into [-pi, pi), same shape (0-d for a scalar).
+        ``a`` shifted by whole turns into [-pi, pi), same shape (a numpy.float64 for a scalar).
     """
     return (np.asarray(a) + np.pi) % (2.0 * np.pi) - np.pi

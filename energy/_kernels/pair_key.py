@@ -23,7 +23,7 @@ def pair_keys(i, j, n: int) -> np.ndarray:
     Returns
     -------
     (m,) int64
-        ``i * n + j`` (a 0-d array for scalars).
+        ``i * n + j`` (a numpy.int64 scalar for scalar ``i``, ``j``).
     """
     return np.asarray(i).astype(np.int64) * np.int64(n) + np.asarray(j).astype(np.int64)
 
@@ -41,7 +41,7 @@ def ordered_pair_keys(i, j, n: int) -> np.ndarray:
     Returns
     -------
     (m,) int64
-        ``min(i, j) * n + max(i, j)`` (a 0-d array for scalars).
+        ``min(i, j) * n + max(i, j)`` (a numpy.int64 scalar for scalar ``i``, ``j``).
     """
     i, j = np.asarray(i), np.asarray(j)
     return pair_keys(np.minimum(i, j), np.maximum(i, j), n)

@@ -478,7 +478,7 @@ class TrajectoryResult:
         -------
         dict of str to (n_frames,) float64
             Each term and ``total`` (kcal/mol; 0 in a frame without an entry), and
-            ``min_heavy_distance`` (A; NaN for a residue with itself).
+            ``min_heavy_distance`` (A; NaN for a residue with itself or one without heavy atoms).
         """
         out = {c: np.array([r.pair_values[k, n] for r in self.records]) for n, c in enumerate(COLUMNS)}
         out["min_heavy_distance"] = np.array([r.pair_distance[k] for r in self.records])
