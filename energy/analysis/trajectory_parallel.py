@@ -232,8 +232,8 @@ class ParallelTrajectoryScan(TrajectoryScan):
         Yields
         ------
         done, total : int
-            Frames merged (or in merged order) so far, out of the frames requested; first ``(0, total)``,
-            then one step after each round of finished chunks.
+            Frames done so far (merged, or finished and waiting for an earlier chunk), out of the
+            frames requested; first ``(0, total)``, then one step after each round of finished chunks.
 
         Returns
         -------
