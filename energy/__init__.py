@@ -28,6 +28,14 @@ __all__ = ["EnergyError", "InputMismatchError", "MissingParametersError", "Selec
 def prepare_kernels(settings: EnergySettings | None = None) -> None:
     """Load (or, the first time, compile) the engine's compiled kernels for ``settings``.
 
-    A wrapper so that ``import energy`` itself stays light: the kernels pull in numba."""
+    A wrapper so that ``import energy`` itself stays light: the kernels pull in numba.
+    See :func:`energy.warmup.prepare_kernels`.
+
+    Parameters
+    ----------
+    settings : EnergySettings or None, optional
+        Prepare only the kernels these settings use (with or without a cutoff); ``None``
+        (the default) prepares all of them.
+    """
     from energy.warmup import prepare_kernels as _prepare
     _prepare(settings)

@@ -27,7 +27,26 @@ ENERGY_UNITS = {"kcal/mol": 1.0, "kJ/mol": KJ_PER_KCAL}
 
 
 def convert_energy(value, to_unit: str):
-    """Convert an energy (or array) from kcal/mol to ``to_unit`` (``kcal/mol`` or ``kJ/mol``)."""
+    """Convert an energy (or array) from kcal/mol to ``to_unit`` (``kcal/mol`` or ``kJ/mol``).
+
+    Parameters
+    ----------
+    value : float or numpy.ndarray of float
+        Energy or energies, kcal/mol; any shape.
+    to_unit : str
+        Target unit, a key of :data:`ENERGY_UNITS` (``"kcal/mol"`` or ``"kJ/mol"``;
+        1 kcal = 4.184 kJ exactly, thermochemical calorie).
+
+    Returns
+    -------
+    float or numpy.ndarray of float
+        ``value`` in ``to_unit``, same type and shape as ``value``.
+
+    Raises
+    ------
+    ValueError
+        If ``to_unit`` is not a known unit.
+    """
     try:
         return value * ENERGY_UNITS[to_unit]
     except KeyError:

@@ -44,7 +44,15 @@ def prepare_kernels(settings: EnergySettings | None = None) -> None:
     """Run the compiled kernels once on a toy system, loading (or compiling) their machine code.
 
     With ``settings``, only the kernels those settings use (with or without a cutoff); without,
-    all of them (used once after installation to fill the cache).
+    all of them (used once after installation to fill the cache), including the trajectory
+    statistics kernels on read-only and writable columns. Kernels already prepared in this
+    process are not run again.
+
+    Parameters
+    ----------
+    settings : EnergySettings or None, optional
+        Settings whose kernels to prepare (a cutoff or not, from ``settings.cutoff_angstrom``);
+        ``None`` (the default) prepares every kernel.
     """
     global _prepared
     system, frame = _toy_system()

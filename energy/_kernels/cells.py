@@ -331,19 +331,55 @@ ROWS_PER_GRAB = 64
 
 
 def candidate_pairs_cells(centers, radii, cutoff: float, cell_matrix=None):
-    """(pair_i, pair_j, row_start) of :func:`search_rows`."""
+    """(pair_i, pair_j, row_start) of :func:`search_rows`.
+
+    Parameters
+    ----------
+    centers : (n, 3) float
+        Residue sphere centres, angstrom.
+    radii : (n,) float
+        Residue sphere radii, angstrom.
+    cutoff : float
+        Nonbonded cutoff, angstrom.
+    cell_matrix : (3, 3) float or None, optional
+        Lower-triangular box matrix (rows = cell vectors, angstrom) for the minimum-image
+        convention, or None (default) for no periodicity.
+
+    Returns
+    -------
+    pair_i, pair_j : (m,) int32
+        Candidate residue pairs I <= J, sorted by (I, J), diagonal included.
+    row_start : (n + 1,) int64
+        CSR row starts: the pairs of row I are ``row_start[I]:row_start[I+1]``.
+    """
     return search_rows(centers, radii, cutoff, cell_matrix)[:3]
 
 
 def search_rows(centers, radii, cutoff: float, cell_matrix=None) -> CellRows:
     """Residue pairs (I <= J, sorted, diagonal included) with |c_I - c_J| < cutoff + r_I + r_J.
 
-    Returns ``(pair_i, pair_j, row_start)``: (m,) arrays sorted by (I, J), and the CSR row
-    starts (n + 1,) so that the pairs of row I are rows ``row_start[I]:row_start[I+1]``.
-
     ``cell_matrix`` is the (3, 3) lower-triangular box matrix (rows = cell vectors) for the
     minimum-image convention, or None.  Periodic cells are gridded in fractional coordinates, so
     triclinic cells work the same way as orthorhombic ones.
+
+    Parameters
+    ----------
+    centers : (n, 3) float
+        Residue sphere centres, angstrom.
+    radii : (n,) float
+        Residue sphere radii, angstrom.
+    cutoff : float
+        Nonbonded cutoff, angstrom.
+    cell_matrix : (3, 3) float or None, optional
+        Lower-triangular box matrix (rows = cell vectors, angstrom) for the minimum-image
+        convention, or None (default) for no periodicity.
+
+    Returns
+    -------
+    CellRows
+        ``pair_i``, ``pair_j``: (m,) int32 (``PAIR_INDEX``) arrays sorted by (I, J);
+        ``row_start``: (n + 1,) int64 CSR row starts, so that the pairs of row I are rows
+        ``row_start[I]:row_start[I+1]``; ``spatial_order``: (n,) intp, the residues in cell order.
     """
     n = len(centers)
     if n == 0:

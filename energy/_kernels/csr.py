@@ -15,16 +15,43 @@ import numpy as np
 PAIR_INDEX = np.int32
 
 def interleaved_rows(lo: int, hi: int) -> np.ndarray:
-    """Rows lo..hi-1 dealt round-robin to the threads: numba's ``prange`` hands each thread one
-    contiguous stretch of the iteration space, and rows owning the pairs J > I grow shorter
-    along the index (linearly so without a cutoff), so contiguous stretches would not balance."""
+    """Rows lo..hi-1 dealt round-robin to the threads.
+
+    numba's ``prange`` hands each thread one contiguous stretch of the iteration space, and rows
+    owning the pairs J > I grow shorter along the index (linearly so without a cutoff), so
+    contiguous stretches would not balance.
+
+    Parameters
+    ----------
+    lo, hi : int
+        First row and one past the last row.
+
+    Returns
+    -------
+    (hi - lo,) intp
+        The rows ``lo..hi-1`` reordered: every ``numba.get_num_threads()``-th row starting at
+        ``lo``, then those starting at ``lo + 1``, ...  (in order when there is one thread).
+    """
     threads = numba.get_num_threads()
     rows = np.arange(lo, hi, dtype=np.intp)
     return np.concatenate([rows[t::threads] for t in range(threads)]) if threads > 1 else rows
 
 
 def all_pairs_rows(n: int):
-    """Every residue pair I <= J in (I, J) order, with CSR row starts (like candidate_pairs_cells)."""
+    """Every residue pair I <= J in (I, J) order, with CSR row starts (like candidate_pairs_cells).
+
+    Parameters
+    ----------
+    n : int
+        Number of residues.
+
+    Returns
+    -------
+    pair_i, pair_j : (n (n + 1) / 2,) int32 (``PAIR_INDEX``)
+        The two residue indices of each pair.
+    row_start : (n + 1,) int64
+        Row ``I`` is ``row_start[I]:row_start[I + 1]``; its diagonal pair (I, I) comes first.
+    """
     row_start = np.zeros(n + 1, np.int64)
     pair_i, pair_j = upper_triangle_rows(0, n, n, row_start)
     return pair_i, pair_j, row_start
@@ -32,8 +59,24 @@ def all_pairs_rows(n: int):
 
 @numba.njit(cache=True)
 def upper_triangle_rows(lo, hi, n, row_start):
-    """Rows lo..hi-1 of the full upper triangle I <= J < n: (pair_i, pair_j); ``row_start[lo:hi+1]``
-    is set to the offsets within these rows."""
+    """Rows lo..hi-1 of the full upper triangle I <= J < n (compiled).
+
+    Parameters
+    ----------
+    lo, hi : int
+        First row and one past the last row.
+    n : int
+        Number of residues.
+    row_start : (n + 1,) int64
+        Written in place: ``row_start[lo:hi+1]`` is set to the offsets of rows ``lo..hi-1``
+        within the returned arrays (``row_start[lo] == 0``); other entries are left alone.
+
+    Returns
+    -------
+    pair_i, pair_j : (m,) int32 (``PAIR_INDEX``)
+        The pairs (I, J), I in ``lo..hi-1``, J in ``I..n-1``, in (I, J) order;
+        m = sum of (n - I) over the rows.
+    """
     m = 0
     for i in range(lo, hi):
         row_start[i] = m
@@ -52,7 +95,24 @@ def upper_triangle_rows(lo, hi, n, row_start):
 
 @numba.njit(parallel=True, cache=True)
 def locate_pairs(row_start, pair_j, qi, qj):
-    """Row index of each query pair (qi <= qj) in the CSR table, or -1 if absent."""
+    """Row index of each query pair (qi <= qj) in the CSR table, or -1 if absent (compiled, parallel).
+
+    The diagonal entry, which leads its row, is tried first; otherwise a binary search in the row.
+
+    Parameters
+    ----------
+    row_start : (n_residues + 1,) int64
+        CSR row starts of the table.
+    pair_j : (m,) integer
+        Second residue index of each listed pair, ascending within each row.
+    qi, qj : (q,) integer
+        The query pairs, ``qi[k] <= qj[k]``.
+
+    Returns
+    -------
+    (q,) int64
+        Index into the table (``0..m-1``) of each query pair, -1 where the pair is not listed.
+    """
     out = np.empty(len(qi), np.int64)
     for k in numba.prange(len(qi)):
         lo, hi = row_start[qi[k]], row_start[qi[k] + 1]
@@ -72,7 +132,22 @@ def locate_pairs(row_start, pair_j, qi, qj):
 
 @numba.njit(cache=True)
 def accumulate(target, idx, values):
-    """target[idx[k]] += values[k] for every k (serial, so sums are reproducible)."""
+    """target[idx[k]] += values[k] for every k (serial, so sums are reproducible; compiled).
+
+    Parameters
+    ----------
+    target : (m,) float64
+        Accumulated in place.
+    idx : (k,) integer
+        Entry of ``target`` for each value; repeated indices add up.
+    values : (k,) float64
+        Values to add (kcal/mol where used for energies).
+
+    Returns
+    -------
+    None
+        ``target`` is updated in place.
+    """
     for k in range(len(idx)):
         target[idx[k]] += values[k]
 
@@ -86,9 +161,21 @@ def _fill_in_parallel(a, value, parts):
 
 
 def zeros_in_parallel(n: int) -> np.ndarray:
-    """``np.zeros(n)`` whose pages are first touched by all threads at once: a fresh column that
-    is then written all over (scattered entries on every page) costs its page faults on one
-    thread otherwise (~35 ms for 45 MB here, against ~13 ms)."""
+    """``np.zeros(n)`` whose pages are first touched by all threads at once.
+
+    A fresh column that is then written all over (scattered entries on every page) costs its page
+    faults on one thread otherwise (~35 ms for 45 MB here, against ~13 ms).
+
+    Parameters
+    ----------
+    n : int
+        Length of the array.
+
+    Returns
+    -------
+    (n,) float64
+        Zeros.
+    """
     a = np.empty(n)
     _fill_in_parallel(a, 0.0, numba.get_num_threads())
     return a

@@ -24,6 +24,21 @@ class ResidueAtoms:
 
     @classmethod
     def from_resindex(cls, resindex: np.ndarray, n_residues: int) -> ResidueAtoms:
+        """Group atoms by residue.
+
+        Parameters
+        ----------
+        resindex : (n_atoms,) integer
+            Residue index of each atom, in ``[0, n_residues)``.
+        n_residues : int
+            Number of residues (residues without atoms get an empty range).
+
+        Returns
+        -------
+        ResidueAtoms
+            ``ptr`` (n_residues + 1,) intp and ``atoms`` (n_atoms,) intp, the atoms of each residue
+            in their original order (stable sort).
+        """
         order = np.argsort(resindex, kind="stable").astype(np.intp)
         counts = np.bincount(resindex, minlength=n_residues)
         ptr = np.zeros(n_residues + 1, np.intp)
@@ -32,7 +47,27 @@ class ResidueAtoms:
 
 
 def residue_spheres(positions, residue_atoms: ResidueAtoms, box=None):
-    """Centre (n_res, 3) and radius (n_res,) of each residue's bounding sphere (A)."""
+    """Centre (n_res, 3) and radius (n_res,) of each residue's bounding sphere (A).
+
+    The residue's atoms are made whole around its first atom (minimum image when ``box`` is
+    given); the centre is their mean, the radius the largest distance from it.
+
+    Parameters
+    ----------
+    positions : (n_atoms, 3) float
+        Atom positions, angstrom.
+    residue_atoms : ResidueAtoms
+        Atoms of each residue.
+    box : (6,) float or None, optional
+        Unit cell ``[a, b, c, alpha, beta, gamma]`` (angstrom, degrees), or ``None`` (default).
+
+    Returns
+    -------
+    centers : (n_res, 3) float64
+        Sphere centres, angstrom (NaN for a residue without atoms).
+    radii : (n_res,) float64
+        Sphere radii, angstrom (NaN for a residue without atoms).
+    """
     periodic = box is not None
     h = np.ascontiguousarray(box_matrix(np.asarray(box, np.float64))) if periodic else np.eye(3)
     return _spheres(np.ascontiguousarray(positions, np.float64), residue_atoms.ptr,
@@ -85,9 +120,24 @@ def _spheres(x, ptr, atoms, h, periodic, orthorhombic):
 
 @numba.njit(cache=True)
 def spatial_layout(order, ptr, atoms):
-    """Atom rows with the residues taken in ``order`` (each residue's atoms kept together):
-    ``(atom_of, res_start, res_end)``, where residue r's atoms are the system atoms
-    ``atom_of[res_start[r]:res_end[r]]``."""
+    """Atom rows with the residues taken in ``order`` (each residue's atoms kept together; compiled).
+
+    Parameters
+    ----------
+    order : (n_res,) integer
+        The residues in the order their atoms are to be laid out.
+    ptr : (n_res + 1,) intp
+        ``ResidueAtoms.ptr``.
+    atoms : (n_atoms,) intp
+        ``ResidueAtoms.atoms``.
+
+    Returns
+    -------
+    atom_of : (n_atoms,) intp
+        System atom index of each row.
+    res_start, res_end : (n_res,) intp
+        Residue r's atoms are the system atoms ``atom_of[res_start[r]:res_end[r]]``.
+    """
     n_res = len(ptr) - 1
     atom_of = np.empty(len(atoms), np.intp)
     res_start = np.empty(n_res, np.intp)

@@ -34,7 +34,18 @@ def exp6_turnover(alpha: float) -> float:
     """x = r/Rmin of the exp-6 maximum at short range: the root of alpha(1-x) + 7 ln x in (0, 7/alpha).
 
     Below it the exp-6 energy falls towards minus infinity; the engine holds the energy at its
-    value there (docs/physics.md).
+    value there (docs/physics.md).  Found by Brent's method (``scipy.optimize.brentq``) on
+    [1e-9, 7/alpha].
+
+    Parameters
+    ----------
+    alpha : float
+        Exp-6 steepness (dimensionless, > 7; see ``EnergySettings.exp6_alpha``).
+
+    Returns
+    -------
+    float
+        The turnover point as a fraction of Rmin (dimensionless; about 0.2123 for the default alpha).
     """
     from scipy.optimize import brentq
     return float(brentq(lambda x: alpha * (1.0 - x) + 7.0 * np.log(x), 1e-9, 7.0 / alpha, xtol=1e-15))
@@ -49,8 +60,26 @@ class KernelConstants:
 
     @classmethod
     def from_settings(cls, s: EnergySettings, for_exceptions: bool = False) -> KernelConstants:
-        """Constants for ordinary pairs, or (``for_exceptions``) for exception pairs: plain or
-        distance-dependent Coulomb, no cutoff, no switching, same vdW model."""
+        """Constants for ordinary pairs, or (``for_exceptions``) for exception pairs.
+
+        Exception pairs get plain or distance-dependent Coulomb, no cutoff, no switching and the same
+        vdW model.
+
+        Parameters
+        ----------
+        s : EnergySettings
+            The computation settings.
+        for_exceptions : bool, optional
+            Build the constants of exception pairs instead of ordinary ones (default False).
+
+        Returns
+        -------
+        KernelConstants
+            ``values``: (11,) float64 indexed by the ``C_*`` constants (Coulomb factor k / eps in
+            kcal/mol A / e^2, the coefficients W1, W2, A1 (1/A^2), A2 (k_rf, 1/A^3), C0 (1/A), switch
+            start (A) and 1 / switch width (1/A, 0 without switching), vdW model code, exp-6 alpha and
+            turnover x); ``cutoff2``: squared cutoff, A^2 (inf without a cutoff).
+        """
         rc = s.cutoff_angstrom
         mode = _MODES[s.electrostatics]
         if for_exceptions:
@@ -132,7 +161,29 @@ def _pair_energy(r2, qq, rmin, eps, c):
 
 @numba.njit(cache=True, error_model="numpy")
 def pair_energies(r2, qq, rmin, eps, c):
-    """Vectorised :func:`_pair_energy` over aligned arrays; returns (coulomb, vdw)."""
+    """Vectorised :func:`_pair_energy` over aligned arrays; returns (coulomb, vdw) (compiled).
+
+    No cutoff is applied here (the caller selects the pairs); switching, when ``c`` sets it,
+    multiplies the vdW energy.  A pair with ``eps == 0`` gets no vdW energy.
+
+    Parameters
+    ----------
+    r2 : (n,) float64
+        Squared distances, A^2.
+    qq : (n,) float64
+        Charge products q_i q_j, e^2 (scaling included).
+    rmin : (n,) float64
+        Pair Rmin_ij, A.
+    eps : (n,) float64
+        Pair well depth eps_ij, kcal/mol (>= 0).
+    c : (11,) float64
+        ``KernelConstants.values``.
+
+    Returns
+    -------
+    coulomb, vdw : (n,) float64
+        Coulomb and vdW (LJ or exp-6) energy of each pair, kcal/mol.
+    """
     n = len(r2)
     coul = np.empty(n)
     vdw = np.empty(n)

@@ -19,6 +19,18 @@ def box_matrix(box) -> np.ndarray:
     """Unit-cell vectors as rows of a (3, 3) matrix from ``[a, b, c, alpha, beta, gamma]``.
 
     Standard crystallographic construction: a along x, b in the xy plane.
+
+    Parameters
+    ----------
+    box : (6,) float
+        Cell lengths a, b, c (angstrom) and angles alpha, beta, gamma (degrees), as MDAnalysis
+        gives them.
+
+    Returns
+    -------
+    (3, 3) float64
+        Lower-triangular matrix whose rows are the cell vectors a, b, c, angstrom; entries below
+        1e-9 in magnitude are set to exactly 0.
     """
     a, b, c = box[:3]
     alpha, beta, gamma = np.radians(box[3:6])
@@ -33,7 +45,19 @@ def box_matrix(box) -> np.ndarray:
 
 
 def perpendicular_widths(h: np.ndarray) -> np.ndarray:
-    """Distances between opposite faces of the cell (A), one per cell vector."""
+    """Distances between opposite faces of the cell (A), one per cell vector.
+
+    Parameters
+    ----------
+    h : (3, 3) float64
+        Lower-triangular box matrix (rows are the cell vectors, angstrom), from :func:`box_matrix`.
+
+    Returns
+    -------
+    (3,) float64
+        Width of the cell along each cell vector, perpendicular to the other two: volume / |b x c|,
+        volume / |c x a|, volume / |a x b|, angstrom.
+    """
     volume = abs(np.linalg.det(h))
     a, b, c = h
     return np.array([volume / np.linalg.norm(np.cross(b, c)),
@@ -42,7 +66,25 @@ def perpendicular_widths(h: np.ndarray) -> np.ndarray:
 
 
 def periodic_cell(box, cutoff: float) -> np.ndarray:
-    """Box matrix for minimum-image use with ``cutoff``; refuses cells narrower than 2 x cutoff."""
+    """Box matrix for minimum-image use with ``cutoff``; refuses cells narrower than 2 x cutoff.
+
+    Parameters
+    ----------
+    box : (6,) float
+        Unit cell ``[a, b, c, alpha, beta, gamma]`` (angstrom, degrees).
+    cutoff : float
+        Nonbonded cutoff, angstrom.
+
+    Returns
+    -------
+    (3, 3) float64
+        C-contiguous box matrix (:func:`box_matrix`), angstrom.
+
+    Raises
+    ------
+    SettingsError
+        If a perpendicular width of the cell is below ``2 * cutoff``.
+    """
     h = box_matrix(np.asarray(box, np.float64))
     widths = perpendicular_widths(h)
     if np.any(widths < 2.0 * cutoff):
@@ -53,11 +95,38 @@ def periodic_cell(box, cutoff: float) -> np.ndarray:
 
 
 def is_orthorhombic(h: np.ndarray) -> bool:
+    """Whether the box matrix is diagonal (every cell angle 90 degrees).
+
+    Parameters
+    ----------
+    h : (3, 3) float64
+        Lower-triangular box matrix (rows are the cell vectors, angstrom), from :func:`box_matrix`.
+
+    Returns
+    -------
+    bool
+        True if the below-diagonal entries are exactly 0 (then :func:`reduce_into_cell` alone
+        gives the minimum image).
+    """
     return bool(h[1, 0] == 0.0 and h[2, 0] == 0.0 and h[2, 1] == 0.0)
 
 
 @numba.njit(cache=True, inline="always")
 def reduce_into_cell(dx, dy, dz, h):
+    """Reduce a displacement into the cell: subtract whole c, then b, then a vectors (compiled, inlined).
+
+    Parameters
+    ----------
+    dx, dy, dz : float
+        Displacement, angstrom.
+    h : (3, 3) float64
+        Lower-triangular box matrix (rows are the cell vectors, angstrom), from :func:`box_matrix`.
+
+    Returns
+    -------
+    dx, dy, dz : float
+        The reduced displacement, angstrom (exact minimum image for an orthorhombic cell).
+    """
     k = np.rint(dz / h[2, 2])
     dx -= k * h[2, 0]
     dy -= k * h[2, 1]
@@ -72,7 +141,25 @@ def reduce_into_cell(dx, dy, dz, h):
 
 @numba.njit(cache=True, inline="always")
 def minimum_image(dx, dy, dz, h, orthorhombic):
-    """The shortest lattice image of (dx, dy, dz)."""
+    """The shortest lattice image of (dx, dy, dz) (compiled, inlined).
+
+    The displacement is reduced into the cell, then the 26 neighbouring images are tried
+    (skipped for an orthorhombic cell, where the reduction is exact).
+
+    Parameters
+    ----------
+    dx, dy, dz : float
+        Displacement, angstrom.
+    h : (3, 3) float64
+        Lower-triangular box matrix (rows are the cell vectors, angstrom), from :func:`box_matrix`.
+    orthorhombic : bool
+        ``is_orthorhombic(h)``.
+
+    Returns
+    -------
+    dx, dy, dz : float
+        The minimum-image displacement, angstrom.
+    """
     dx, dy, dz = reduce_into_cell(dx, dy, dz, h)
     if orthorhombic:
         return dx, dy, dz
@@ -102,7 +189,20 @@ def _minimum_image_rows(d, h, orthorhombic):
 
 
 def minimum_image_vectors(d: np.ndarray, box) -> np.ndarray:
-    """Exact minimum image of displacement vectors ``d`` (n, 3) in the cell ``box`` (or None)."""
+    """Exact minimum image of displacement vectors ``d`` (n, 3) in the cell ``box`` (or None).
+
+    Parameters
+    ----------
+    d : (n, 3) float
+        Displacement vectors, angstrom.
+    box : (6,) float or None
+        Unit cell ``[a, b, c, alpha, beta, gamma]`` (angstrom, degrees), or ``None`` for no cell.
+
+    Returns
+    -------
+    (n, 3) float64
+        Minimum-image displacements, angstrom; ``d`` itself when ``box`` is None.
+    """
     if box is None:
         return d
     h = np.ascontiguousarray(box_matrix(np.asarray(box, np.float64)))

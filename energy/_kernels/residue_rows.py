@@ -61,6 +61,25 @@ class KernelInputs:
     vectorised: bool
 
     def run(self, rows, row_start, pair_j, has_excl, coul, lj, count, min_heavy) -> None:
+        """Run :func:`~energy._kernels.row_kernel.residue_rows_kernel` on ``rows``, writing the outputs in place.
+
+        Parameters
+        ----------
+        rows : (k,) intp
+            The rows (first residues) to evaluate, in the order to take them.
+        row_start : (n_res + 1,) int64
+            CSR row starts of the residue-pair table.
+        pair_j : (m,) int32
+            Second residue of each pair (the row's diagonal first).
+        has_excl : (m,) bool
+            The residue pair holds at least one exception pair (its atom pairs need the exclusion check).
+        coul, lj : (m,) float64
+            Output: Coulomb and vdW energy of each pair of these rows, kcal/mol.
+        count : (m,) int32
+            Output: atom pairs within the cutoff (all pairs without one), exceptions left out.
+        min_heavy : (m,) float64
+            Output: smallest heavy-atom distance of each pair, A (inf when none).
+        """
         with numba.parallel_chunksize(1):  # the kernel's chunks go to whichever thread is free
             residue_rows_kernel(self.positions, self.charges, self.lj_type, self.lj_rmin,
                                 self.lj_eps, self.type_has_lj, self.is_heavy, self.atom_of,
@@ -91,8 +110,34 @@ class RowResults:
 def evaluate_listed(inputs: KernelInputs, pair_i, pair_j, row_start, has_excl, row_order=None):
     """Every given row, kept.  Generator: yields progress, returns :class:`RowResults`.
 
-    ``row_order``: the order to take rows in (the cell search's spatial order, so that
-    consecutive rows share partners in cache); by default rows are dealt round-robin."""
+    Rows are evaluated in blocks of about :data:`BLOCK_PAIRS` residue pairs, one progress step each.
+
+    Parameters
+    ----------
+    inputs : KernelInputs
+        Atom and residue arrays of the kernel.
+    pair_i, pair_j : (m,) int32
+        The residue pairs I <= J, sorted by (I, J).
+    row_start : (n_res + 1,) int64
+        CSR row starts.
+    has_excl : (m,) bool
+        The residue pair holds at least one exception pair.
+    row_order : (n_res,) intp or None, optional
+        The order to take rows in (the cell search's spatial order, so that consecutive rows share
+        partners in cache); by default (None) rows are dealt round-robin to the threads.
+
+    Yields
+    ------
+    done, total : int
+        Residue pairs evaluated so far, out of ``m``.
+
+    Returns
+    -------
+    RowResults
+        (The generator's return value.)  Per pair: ``coulomb``, ``lj`` (m,) float64 kcal/mol,
+        ``count`` (m,) int32, ``min_heavy`` (m,) float64 A; totals ``coulomb_total``, ``lj_total``
+        (kcal/mol), ``n_atom_pairs``; ``unlisted`` None.
+    """
     n_res = len(row_start) - 1
     m = len(pair_i)
     coul = np.zeros(m); lj = np.zeros(m)
@@ -122,7 +167,34 @@ def _block_end(lo: int, n: int) -> int:
 
 def evaluate_all_pairs_in_blocks(inputs: KernelInputs, n_res: int, exception_keys):
     """No cutoff, in blocks of rows; small pairs summed, not listed (module docstring).
-    ``exception_keys``: sorted (lo, hi) residue pairs holding exception pairs."""
+
+    Parameters
+    ----------
+    inputs : KernelInputs
+        Atom and residue arrays of the kernel.
+    n_res : int
+        Number of residues.
+    exception_keys : tuple of two (e,) integer arrays
+        ``(lo, hi)``: the residue pairs holding exception pairs, sorted, lo <= hi.
+
+    Yields
+    ------
+    done, total : int
+        Residue pairs evaluated so far, out of n_res (n_res + 1) / 2.
+
+    Returns
+    -------
+    RowResults
+        (The generator's return value.)  The kept pairs only (diagonal, holding exceptions, or
+        |Coulomb| + |LJ| >= :data:`UNLISTED_BELOW` kcal/mol) with CSR row starts; totals over every
+        pair (kcal/mol); ``unlisted`` a dict ``n_pairs``, ``coulomb``, ``lj`` (kcal/mol) and
+        ``below`` (the threshold, kcal/mol).
+
+    Raises
+    ------
+    SettingsError
+        If more than :data:`MAX_LISTED_PAIRS` residue pairs would be kept.
+    """
     exc_lo, exc_hi = exception_keys
     total = n_res * (n_res + 1) // 2
     row_start = np.zeros(n_res + 1, np.int64)

@@ -260,6 +260,67 @@ def residue_rows_kernel(pos, charges, lj_type, rmin_tab, eps_tab, type_has_lj, i
     a branch-free loop over that block that the compiler turns into SIMD code; sums per partner
     follow.  Everything else (and everything when ``vectorised`` is False) goes through
     :func:`_residue_pair_scalar`.  Both use the same pair forms.
+
+    Parameters
+    ----------
+    pos : (n_atoms, 3) float64
+        Positions in kernel layout (each residue's atoms together), A.
+    charges : (n_atoms,) float64
+        Charges in kernel layout, e.
+    lj_type : (n_atoms,) intp
+        LJ type of each atom in kernel layout (index into ``rmin_tab``, ``eps_tab``).
+    rmin_tab, eps_tab : (n_types, n_types) float64
+        Pair Rmin_ij (A) and well depth eps_ij (kcal/mol) per type pair.
+    type_has_lj : (n_types,) bool
+        The type has a nonzero well depth with some type.
+    is_heavy : (n_atoms,) bool
+        Not a hydrogen, kernel layout.
+    atom_of : (n_atoms,) intp
+        System atom index of each kernel atom row.
+    res_start, res_end : (n_res,) intp
+        Kernel rows of residue r: ``res_start[r]:res_end[r]``.
+    rows : (k,) intp
+        The rows (residues I) to evaluate.
+    row_start : (n_res + 1,) int64
+        CSR row starts of the residue-pair table (offsets into ``pair_j`` and the outputs).
+    pair_j : (m,) int32
+        Partner residue J of each pair.
+    pair_has_excl : (m,) bool
+        The residue pair holds an exception pair (its atom pairs are checked against the
+        exclusion lists).
+    excl_ptr : (n_atoms + 1,) intp
+        CSR of the exclusion lists by system atom (:func:`energy.terms.exclusions.exclusion_csr`).
+    excl_idx : (n_exc,) intp
+        Excluded partners j > i of each atom i.
+    centers : (n_res, 3) float64
+        Residue sphere centres, A (used for the image of residue J in a periodic cell).
+    radii : (n_res,) float64
+        Residue sphere radii, A.
+    h : (3, 3) float64
+        Box matrix (rows = cell vectors, A); the identity when not periodic.
+    orthorhombic : bool
+        ``h`` is diagonal.
+    min_width : float
+        Smallest perpendicular width of the cell, A.
+    periodic : bool
+        Apply the minimum-image convention.
+    consts : (11,) float64
+        ``KernelConstants.values``.
+    cutoff2 : float
+        Squared cutoff, A^2 (inf without a cutoff).
+    vectorised : bool
+        Use the SIMD path where it applies (Lennard-Jones only).
+    out_coul, out_lj : (m,) float64
+        Output: Coulomb and vdW energy of each residue pair of these rows, kcal/mol.
+    out_count : (m,) int32
+        Output: atom pairs within the cutoff, excluded pairs left out.
+    out_min_heavy : (m,) float64
+        Output: smallest heavy-atom distance examined, A (inf when none).
+
+    Returns
+    -------
+    None
+        The ``out_*`` entries of the pairs of ``rows`` are written in place.
     """
     n_chunks = min(len(rows), 64)
     r_max = radii.max() if len(radii) else 0.0

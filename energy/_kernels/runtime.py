@@ -17,7 +17,19 @@ _STALLING_POLICIES = {"always", "madvise", "defer+madvise"}
 
 
 def selected_defrag_policy(path: str = _DEFRAG) -> str | None:
-    """The bracketed entry of the kernel's THP defrag setting, or None where there is none."""
+    """The bracketed entry of the kernel's THP defrag setting, or None where there is none.
+
+    Parameters
+    ----------
+    path : str, optional
+        File holding the setting (default ``/sys/kernel/mm/transparent_hugepage/defrag``).
+
+    Returns
+    -------
+    str or None
+        The selected policy (e.g. ``"madvise"``), or ``None`` if the file cannot be read or has no
+        bracketed entry.
+    """
     try:
         with open(path) as fh:
             text = fh.read()
@@ -30,7 +42,17 @@ def selected_defrag_policy(path: str = _DEFRAG) -> str | None:
 
 
 def tune_memory() -> bool:
-    """Turn off NumPy's huge-page advice where faults would stall on compaction; True if done."""
+    """Turn off NumPy's huge-page advice where faults would stall on compaction; True if done.
+
+    Nothing is changed when ``NUMPY_MADVISE_HUGEPAGE`` is set in the environment (the user chose)
+    or when the selected defrag policy is not one that compacts synchronously (``always``,
+    ``madvise``, ``defer+madvise``).
+
+    Returns
+    -------
+    bool
+        True if NumPy's huge-page advice was switched off.
+    """
     if "NUMPY_MADVISE_HUGEPAGE" in os.environ:
         return False
     if selected_defrag_policy() not in _STALLING_POLICIES:

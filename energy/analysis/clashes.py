@@ -96,6 +96,13 @@ class ClashOptions:
                                 f"every distant attractive pair), got {self.lj_above}")
 
     def as_dict(self) -> dict:
+        """The options as a plain dict (``dataclasses.asdict``), e.g. for the JSON report.
+
+        Returns
+        -------
+        dict
+            Field name -> value (A, kcal/mol as the fields).
+        """
         return asdict(self)
 
 
@@ -147,7 +154,20 @@ class ClashReport:
         return len(self.pairs)
 
     def residue_pairs(self, system: MolecularSystem) -> list[ResiduePairClashes]:
-        """Per residue-pair aggregation (for the pair-map overlay), most severe pair first."""
+        """Per residue-pair aggregation (for the pair-map overlay), most severe pair first.
+
+        Parameters
+        ----------
+        system : MolecularSystem
+            The system searched (``resindex`` maps atoms to residues).
+
+        Returns
+        -------
+        list of ResiduePairClashes
+            One per residue pair with a clash (res_i <= res_j): count, worst overlap (A), summed LJ
+            and exp-6 energies (kcal/mol; exp-6 NaN if the report has none), row of its worst clash;
+            sorted by that row.
+        """
         if not len(self):
             return []
         ri = system.resindex[self.pairs[:, 0]]
@@ -166,8 +186,18 @@ class ClashReport:
         return sorted(rows, key=lambda r: r.worst)
 
     def residue_counts(self, system: MolecularSystem) -> np.ndarray:
-        """(n_residues,) number of clashes each residue takes part in (an intra-residue clash
-        counts once)."""
+        """(n_residues,) number of clashes each residue takes part in (an intra-residue clash counts once).
+
+        Parameters
+        ----------
+        system : MolecularSystem
+            The system searched.
+
+        Returns
+        -------
+        (n_residues,) int64
+            Clash count per residue.
+        """
         counts = np.zeros(system.n_residues, np.int64)
         if len(self):
             ri = system.resindex[self.pairs[:, 0]]
@@ -187,6 +217,21 @@ def atom_radii(system: MolecularSystem, source: str) -> tuple[np.ndarray, tuple]
     forcefield: Rmin/2 of the atom's own type, ``lj_rmin[t, t] / 2``; an atom type with zero well
     depth has no size in the force field (OpenMM writes an arbitrary sigma for it) and gets 0.
     bondi: Bondi's radius by element; elements not tabulated take their force-field radius.
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system.
+    source : str
+        ``"bondi"`` or ``"forcefield"``.
+
+    Returns
+    -------
+    radii : (n_atoms,) float64
+        Radius of each atom, A.
+    fallback : tuple of str
+        Sorted elements without a Bondi radius (``"?"`` for an empty element); empty for
+        ``"forcefield"``.
     """
     t = system.lj_type
     ff = np.where(system.lj_eps[t, t] > 0.0, system.lj_rmin[t, t] / 2.0, 0.0)
@@ -211,6 +256,18 @@ def hbond_roles(system: MolecularSystem) -> tuple[np.ndarray, np.ndarray, np.nda
     bonds (e.g. His ND1/NE2 when unprotonated; not Pro N).  polar_h: H bonded to a donor.
     A model without any hydrogen cannot tell donors apart: then every N and O is taken as both
     donor and acceptor (``guessed`` True).
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system (``elements``, ``bonds``).
+
+    Returns
+    -------
+    donor, acceptor, polar_h : (n_atoms,) bool
+        Role of each atom.
+    guessed : bool
+        True when the model has no hydrogens and the roles are guessed as above.
     """
     el = np.array([str(e).strip().upper() for e in system.elements])
     is_h = ~system.is_heavy
@@ -247,7 +304,24 @@ def _ff_contact(system, pairs, is14, ex_index_of):
 
 def lj_energy(r, rmin, eps) -> np.ndarray:
     """Plain LJ eps [(Rmin/r)^12 - 2 (Rmin/r)^6] (kcal/mol); 0 where eps == 0 (docs/physics.md).
-    The engine's own pair form (:func:`energy.terms.nonbonded.plain_pair_energies`)."""
+
+    The engine's own pair form (:func:`energy.terms.nonbonded.plain_pair_energies`), no cutoff,
+    no switching.
+
+    Parameters
+    ----------
+    r : float or array_like of float
+        Distances, A.
+    rmin : float or array_like of float
+        Pair Rmin_ij, A.
+    eps : float or array_like of float
+        Pair well depth eps_ij, kcal/mol (>= 0).
+
+    Returns
+    -------
+    numpy.ndarray of float64, or numpy.float64
+        LJ energy, kcal/mol, of the broadcast shape of the three inputs (a scalar for scalars).
+    """
     shape = np.broadcast_shapes(np.shape(r), np.shape(rmin), np.shape(eps))
     flat = [np.broadcast_to(np.asarray(a, float), shape).ravel() for a in (r, rmin, eps)]
     _, e = plain_pair_energies(flat[0], 0.0, flat[1], flat[2])
@@ -255,9 +329,28 @@ def lj_energy(r, rmin, eps) -> np.ndarray:
 
 
 def exp6_energy(r, rmin, eps, alpha: float = EXP6_ALPHA_MATCHING_LJ) -> np.ndarray:
-    """Exp-6 energy (kcal/mol) with the same minimum (Rmin, -eps) as the LJ pair, steepness
-    ``alpha``, held at its maximum inside the turnover point: the engine's own pair form
-    (:func:`energy.terms.nonbonded.plain_pair_energies` with ``vdw="exp6"``)."""
+    """Exp-6 energy (kcal/mol) with the same minimum (Rmin, -eps) as the LJ pair.
+
+    Steepness ``alpha``, held at its maximum inside the turnover point: the engine's own pair form
+    (:func:`energy.terms.nonbonded.plain_pair_energies` with ``vdw="exp6"``).
+
+    Parameters
+    ----------
+    r : (n,) float
+        Distances, A.
+    rmin : (n,) float or float
+        Pair Rmin_ij, A.
+    eps : (n,) float or float
+        Pair well depth eps_ij, kcal/mol (>= 0; 0 gives 0).
+    alpha : float, optional
+        Exp-6 steepness (> 7; default the value matching the LJ curvature at the minimum,
+        (19 + sqrt(73)) / 2).
+
+    Returns
+    -------
+    (n,) float64
+        Exp-6 energy of each pair, kcal/mol.
+    """
     r = np.ascontiguousarray(r, float)
     _, e = plain_pair_energies(r, 0.0, rmin, eps, vdw="exp6", exp6_alpha=alpha)
     return e
@@ -290,7 +383,29 @@ def _box_lengths(frame: Frame, reach: float) -> np.ndarray:
 
 
 def find_clashes(system: MolecularSystem, frame: Frame, options: ClashOptions | None = None) -> ClashReport:
-    """Every clash of ``frame``, ranked by overlap then LJ energy (see the module docstring)."""
+    """Every clash of ``frame``, ranked by overlap then LJ energy (see the module docstring).
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system.
+    frame : Frame
+        Coordinates (A) and unit cell (used with ``options.periodic``; orthorhombic only).
+    options : ClashOptions or None, optional
+        Criteria and radii (None: the defaults, overlap >= 0.4 A with Bondi radii).
+
+    Returns
+    -------
+    ClashReport
+        The ranked clashes (distances, contacts and overlaps in A, LJ and exp-6 energies in
+        kcal/mol) and what was searched.
+
+    Raises
+    ------
+    SettingsError
+        If the frame's atom count differs from the system's, or a periodic search has no cell, a
+        triclinic cell, or one smaller than twice the search distance.
+    """
     opt = options or ClashOptions()
     n = system.n_atoms
     x = np.asarray(frame.positions, float)

@@ -45,6 +45,17 @@ def match_residues(first, second) -> ResidueMatch:
     """Match two :class:`energy.model.system.ResidueTable` by (chain, resid, icode).
 
     A key seen twice in one table (e.g. duplicated numbering) matches its first occurrence only.
+
+    Parameters
+    ----------
+    first, second : ResidueTable
+        Residues of the two structures.
+
+    Returns
+    -------
+    ResidueMatch
+        ``first``, ``second`` (m,) intp matched indices in the order of ``first``; ``mutated``
+        (m,) bool; ``unmatched_first``, ``unmatched_second`` intp indices found in one table only.
     """
     index_b = {}
     for k, key in enumerate(_keys(second)):
@@ -69,7 +80,21 @@ def match_residues(first, second) -> ResidueMatch:
 
 
 def matched_label(first, second, a: int, b: int) -> str:
-    """``A:LYS12``, or ``B:TRP>PHE31`` when the names differ."""
+    """``A:LYS12``, or ``B:TRP>PHE31`` when the names differ.
+
+    Parameters
+    ----------
+    first, second : ResidueTable
+        Residues of the two structures.
+    a, b : int
+        Index of the matched residue in ``first`` and in ``second``.
+
+    Returns
+    -------
+    str
+        Chain, name (``first>second`` when they differ), residue number and insertion code of
+        ``first``.
+    """
     chain = str(first.chain[a]).strip()
     n1, n2 = str(first.resname[a]), str(second.resname[b])
     name = n1 if n1 == n2 else f"{n1}>{n2}"
@@ -103,6 +128,13 @@ class Comparison:
         return [lab for lab, m in zip(self.labels, self.match.mutated) if m]
 
     def totals_difference(self) -> dict:
+        """Second minus first of every term total and of ``total``.
+
+        Returns
+        -------
+        dict of str to float
+            Term name (and ``total``) -> difference of the whole-system totals, kcal/mol.
+        """
         return {t: self.totals_second[t] - self.totals_first[t] for t in (*TERMS, "total")}
 
 
@@ -114,7 +146,23 @@ def _reindexed(rp: ResiduePairEnergies, to_matched: np.ndarray, m: int):
 
 
 def compare_results(first_system, first_result, second_system, second_result) -> Comparison:
-    """Match the residues of two results and build the second-minus-first table."""
+    """Match the residues of two results and build the second-minus-first table.
+
+    Parameters
+    ----------
+    first_system, second_system : MolecularSystem
+        The two structures (their residue tables are matched).
+    first_result, second_result : EnergyResult
+        Their evaluations.
+
+    Returns
+    -------
+    Comparison
+        ``difference`` a :class:`ResiduePairEnergies` over the m matched residues with
+        ``values[term]`` = second - first (n_pairs,) float64 kcal/mol, ``min_heavy_distance`` from
+        the second structure (A); per-pair values of each structure, whole-system totals
+        (kcal/mol), labels of matched and unmatched residues.
+    """
     ra, rb = first_system.residues, second_system.residues
     match = match_residues(ra, rb)
     m = len(match)

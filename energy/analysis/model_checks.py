@@ -37,6 +37,22 @@ class ClashCheck:
 
 
 def clash_check(snapshot, options: ClashOptions | None = None) -> ClashCheck:
+    """Find the clashes of the snapshot's frame and summarise them per residue pair and per residue.
+
+    Parameters
+    ----------
+    snapshot : object
+        One loaded system and its result: ``system`` (MolecularSystem), ``frame`` (Frame) and
+        ``result`` (EnergyResult) attributes (the window's ``Snapshot``).
+    options : ClashOptions or None, optional
+        Clash criteria (None: the defaults).
+
+    Returns
+    -------
+    ClashCheck
+        The :class:`~energy.analysis.clashes.ClashReport`, its residue pairs (worst first), the
+        (n_residues,) int64 clash count per residue, and the frame index.
+    """
     rep = find_clashes(snapshot.system, snapshot.frame, options or ClashOptions())
     return ClashCheck(rep, rep.residue_pairs(snapshot.system), rep.residue_counts(snapshot.system),
                       int(snapshot.frame.index))
@@ -64,7 +80,21 @@ class ElectrostaticsComparison:
 
 
 def top_inter_chain_pairs(snapshot, n: int = TOP_PAIRS) -> np.ndarray:
-    """The ``n`` inter-chain residue pairs with the largest |Coulomb| entry in the snapshot."""
+    """The ``n`` inter-chain residue pairs with the largest |Coulomb| entry in the snapshot.
+
+    Parameters
+    ----------
+    snapshot : object
+        One loaded system and its result: ``system`` (MolecularSystem), ``frame`` (Frame) and
+        ``result`` (EnergyResult) attributes (the window's ``Snapshot``).
+    n : int, optional
+        How many pairs (default :data:`TOP_PAIRS`, 10); fewer when there are fewer.
+
+    Returns
+    -------
+    (k, 2) intp
+        Residue indices (i <= j) of each pair, largest |Coulomb| (kcal/mol) first.
+    """
     rp = snapshot.result.residue_pairs
     chains = np.asarray([str(c).strip() for c in snapshot.system.residues.chain])
     inter = np.flatnonzero(chains[rp.pair_i] != chains[rp.pair_j])
@@ -75,9 +105,32 @@ def top_inter_chain_pairs(snapshot, n: int = TOP_PAIRS) -> np.ndarray:
 
 def electrostatics_comparison(snapshot, settings: EnergySettings, n: int = TOP_PAIRS,
                               pairs=None) -> ElectrostaticsComparison:
-    """Each model's Coulomb energy of the top inter-chain pairs: the same atom pairs, the same
-    cutoff (the current one, or :data:`COMPARISON_CUTOFF` when there is none), the engine's own
-    pair forms (:func:`energy.decomposition.atom_pairs.residue_pair_atom_energies`)."""
+    """Each model's Coulomb energy of the top inter-chain pairs.
+
+    The same atom pairs, the same cutoff (the current one, or :data:`COMPARISON_CUTOFF` when there
+    is none), no switching, the engine's own pair forms
+    (:func:`energy.decomposition.atom_pairs.residue_pair_atom_energies`).
+
+    Parameters
+    ----------
+    snapshot : object
+        One loaded system and its result: ``system`` (MolecularSystem), ``frame`` (Frame) and
+        ``result`` (EnergyResult) attributes (the window's ``Snapshot``).
+    settings : EnergySettings
+        The current settings (cutoff and the other options are kept; each model changes the
+        electrostatics and the dielectric).
+    n : int, optional
+        Number of top pairs when ``pairs`` is not given (default 10).
+    pairs : (k, 2) integer or None, optional
+        Residue pairs to compare; None (default) takes :func:`top_inter_chain_pairs`.
+
+    Returns
+    -------
+    ElectrostaticsComparison
+        ``coulomb[key]`` (k,) float64 kcal/mol per model of :data:`ELECTROSTATICS_MODELS`,
+        ``current`` (k,) float64 kcal/mol the Coulomb entry of the snapshot's own result,
+        ``cutoff`` (A), ``settings`` the description of each model's settings.
+    """
     pairs = top_inter_chain_pairs(snapshot, n) if pairs is None else np.asarray(pairs, np.intp)
     cutoff = settings.cutoff_angstrom or COMPARISON_CUTOFF
     base = replace(settings, cutoff_angstrom=cutoff, switch_angstrom=None)

@@ -174,6 +174,13 @@ class PairStatistics:
         return len(self._index_keys)
 
     def copy(self) -> PairStatistics:
+        """An independent copy of these statistics (same frames, pairs and sums).
+
+        Returns
+        -------
+        PairStatistics
+            A deep copy of the accumulator's arrays.
+        """
         out = PairStatistics(self.n_residues, self.threshold, capacity=1)
         out.frames = list(self.frames)
         for name in ("_index_keys", "_index_slot", "_shift", "_s", "_q", "_present", "_below",
@@ -190,7 +197,16 @@ class PairStatistics:
         return state
 
     def add(self, frame_index: int, rp) -> None:
-        """One frame's :class:`~energy.decomposition.residue_pairs.ResiduePairEnergies` (rows sorted by (i, j))."""
+        """One frame's :class:`~energy.decomposition.residue_pairs.ResiduePairEnergies` (rows sorted by (i, j)).
+
+        Parameters
+        ----------
+        frame_index : int
+            The frame's number in its trajectory (kept in ``frames``).
+        rp : ResiduePairEnergies
+            The frame's residue-pair table: ``values[term]`` (n_pairs,) kcal/mol and
+            ``min_heavy_distance`` (n_pairs,) A, rows sorted by (i, j) and unique.
+        """
         keys = pair_keys(rp.pair_i, rp.pair_j, self.n_residues)
         slots = self._slots_for(keys)
         columns = tuple(np.ascontiguousarray(rp.values[t], np.float64) for t in TERMS)
@@ -200,7 +216,13 @@ class PairStatistics:
         self.frames.append(int(frame_index))
 
     def merge(self, other: PairStatistics) -> None:
-        """Append ``other``'s frames (which come after ours)."""
+        """Append ``other``'s frames (which come after ours).
+
+        Parameters
+        ----------
+        other : PairStatistics
+            Statistics of the following frames, over the same residues and threshold; not changed.
+        """
         if other.n == 0:
             return
         slots = self._slots_for(other._index_keys)
@@ -244,24 +266,72 @@ class PairStatistics:
         return (self.keys % self.n_residues).astype(np.intp)
 
     def std(self) -> np.ndarray:
-        """(K, len(COLUMNS)) population standard deviation over the frames (ddof = 0)."""
+        """(K, len(COLUMNS)) population standard deviation over the frames (ddof = 0).
+
+        A frame without an entry counts as 0 kcal/mol.
+
+        Returns
+        -------
+        (K, len(COLUMNS)) float64
+            Standard deviation of each pair (rows in key order) and column (terms, then ``total``),
+            kcal/mol; zeros before any frame.
+        """
         if self.n == 0:
             return np.zeros_like(self.m2)
         return np.sqrt(np.maximum(self.m2, 0.0) / self.n)
 
     def persistence(self) -> np.ndarray:
-        """(K,) fraction of frames whose pair total is below the threshold (a frame without an
-        entry counts as total 0)."""
+        """(K,) fraction of frames whose pair total is below the threshold.
+
+        A frame without an entry counts as total 0 (so it counts as below when the threshold is
+        positive).
+
+        Returns
+        -------
+        (K,) float64
+            Fraction in [0, 1] for each pair, in key order; zeros before any frame.
+        """
         if self.n == 0:
             return np.zeros(len(self.keys))
         absent_below = (self.n - self.present) if 0.0 < self.threshold else 0
         return (self.below + absent_below) / self.n
 
     def column(self, quantity: str = "total", stat: str = "mean") -> np.ndarray:
+        """One column of the mean or of the standard deviation.
+
+        Parameters
+        ----------
+        quantity : str, optional
+            A term name or ``total`` (default), an entry of :data:`COLUMNS`.
+        stat : str, optional
+            ``"mean"`` (default); any other value gives the standard deviation (:meth:`std`).
+
+        Returns
+        -------
+        (K,) float64
+            The statistic of each pair, in key order, kcal/mol.
+
+        Raises
+        ------
+        ValueError
+            If ``quantity`` is not in :data:`COLUMNS`.
+        """
         c = COLUMNS.index(quantity)
         return (self.mean if stat == "mean" else self.std())[:, c]
 
     def lookup(self, i: int, j: int) -> int | None:
+        """Row (in key order) of residue pair (i, j), or None if it never had an entry.
+
+        Parameters
+        ----------
+        i, j : int
+            Residue indices (0-based, any order).
+
+        Returns
+        -------
+        int or None
+            Index into ``keys``, ``mean``, ``m2``, ... .
+        """
         key = ordered_pair_keys(i, j, self.n_residues)
         keys = self.keys
         k = int(np.searchsorted(keys, key))

@@ -103,7 +103,23 @@ class TrajectoryRequest:
 
 
 def parse_pair(text: str) -> tuple[int, int]:
-    """``"12-87"`` -> ``(12, 87)`` (0-based residue indices)."""
+    """``"12-87"`` -> ``(12, 87)`` (0-based residue indices).
+
+    Parameters
+    ----------
+    text : str
+        ``I-J``, two non-negative integers joined by a hyphen (either order).
+
+    Returns
+    -------
+    tuple of (int, int)
+        The two indices, smaller first.
+
+    Raises
+    ------
+    TrajectoryError
+        If ``text`` is not of that form or an index is negative.
+    """
     parts = str(text).strip().split("-")
     try:
         if len(parts) != 2:
@@ -118,8 +134,28 @@ def parse_pair(text: str) -> tuple[int, int]:
 
 
 def parse_frames(text: str | None, n_frames: int) -> list[int]:
-    """Frame indices of ``START:STOP:STEP`` (Python slice rules, parts may be empty; a plain
-    ``N`` is frame N alone) in a trajectory of ``n_frames`` frames."""
+    """Frame indices of ``START:STOP:STEP`` in a trajectory of ``n_frames`` frames.
+
+    Python slice rules, parts may be empty; a plain ``N`` is frame N alone (negative N counts
+    from the end); empty text or None is every frame.
+
+    Parameters
+    ----------
+    text : str or None
+        The frame range.
+    n_frames : int
+        Frames in the trajectory.
+
+    Returns
+    -------
+    list of int
+        The selected frame indices (0-based), in the slice's order.
+
+    Raises
+    ------
+    TrajectoryError
+        If ``text`` is malformed, its step is 0, or it selects no frame.
+    """
     text = "" if text is None else str(text).strip()
     parts = text.split(":") if text else ["", ""]
     try:
@@ -148,7 +184,22 @@ def parse_frames(text: str | None, n_frames: int) -> list[int]:
 # ------------------------------------------------------------------------------------------
 
 def open_trajectory(path: str, n_atoms: int, names):
-    """An MDAnalysis Universe over the trajectory, checked against the topology."""
+    """An MDAnalysis Universe over the trajectory, checked against the topology.
+
+    Parameters
+    ----------
+    path : str
+        Trajectory (DCD, XTC, multi-model PDB, ...).
+    n_atoms : int
+        Atom count of the topology.
+    names : sequence of str
+        Atom names of the topology (compared where the file has names).
+
+    Returns
+    -------
+    MDAnalysis.Universe
+        See :func:`energy.io.coordinates.open_coordinates` (and the errors it raises).
+    """
     return open_coordinates(path, n_atoms, names, "topology", "the trajectory")
 
 
@@ -179,7 +230,23 @@ class TrajectorySource:
         self._sel_universe = None
 
     def frames(self, indices):
-        """Iterate :class:`Frame` objects for ``indices`` (read in the given order)."""
+        """Iterate :class:`Frame` objects for ``indices`` (read in the given order).
+
+        Parameters
+        ----------
+        indices : iterable of int
+            Frame indices (0-based).
+
+        Yields
+        ------
+        Frame
+            Positions (A) and cell of each frame, ``index`` set to its frame number.
+
+        Raises
+        ------
+        TrajectoryError
+            If an index lies outside the trajectory.
+        """
         for k in indices:
             if not 0 <= k < self.n_frames:
                 raise TrajectoryError(f"{self.path}: frame {k} requested but the file has "
@@ -238,7 +305,21 @@ class TrajectorySource:
                 "n_atoms_a": int(len(a)), "n_atoms_b": int(len(b))}
 
     def evaluate(self, frame: Frame):
-        """``(FrameRecord, ResiduePairEnergies)`` of one frame."""
+        """``(FrameRecord, ResiduePairEnergies)`` of one frame.
+
+        Parameters
+        ----------
+        frame : Frame
+            The frame (from :meth:`frames`).
+
+        Returns
+        -------
+        record : FrameRecord
+            Per-term totals, the requested pairs' energies (kcal/mol) and distances (A), the
+            selection interaction, the evaluation's wall time (s).
+        residue_pairs : ResiduePairEnergies
+            The frame's full residue-pair table.
+        """
         t0 = time.perf_counter()
         settings = self.request.settings
         result = compute(self.system, frame, settings)
@@ -290,7 +371,22 @@ class ChunkResult:
 
 
 def iter_chunk(source: TrajectorySource, indices, stats: PairStatistics):
-    """Evaluate ``indices`` in order, updating ``stats``; yields each :class:`FrameRecord`."""
+    """Evaluate ``indices`` in order, updating ``stats``; yields each :class:`FrameRecord`.
+
+    Parameters
+    ----------
+    source : TrajectorySource
+        The system and the open trajectory.
+    indices : list of int
+        Frame indices, in order.
+    stats : PairStatistics
+        Accumulator; each frame's residue-pair table is added to it.
+
+    Yields
+    ------
+    FrameRecord
+        The record of each frame, in order.
+    """
     for frame in source.frames(indices):
         record, rp = source.evaluate(frame)
         stats.add(frame.index, rp)
@@ -298,12 +394,42 @@ def iter_chunk(source: TrajectorySource, indices, stats: PairStatistics):
 
 
 def run_chunk(source: TrajectorySource, chunk: int, indices) -> ChunkResult:
+    """Evaluate one chunk of frames into a fresh :class:`~energy.analysis.pair_statistics.PairStatistics`.
+
+    Parameters
+    ----------
+    source : TrajectorySource
+        The system and the open trajectory.
+    chunk : int
+        Chunk number (its place in the merge order).
+    indices : list of int
+        Frame indices of the chunk, in order.
+
+    Returns
+    -------
+    ChunkResult
+        The chunk's records and statistics.
+    """
     stats = PairStatistics(source.system.n_residues, source.request.persistence_threshold)
     records = list(iter_chunk(source, indices, stats))
     return ChunkResult(chunk, records, stats)
 
 
 def split_chunks(frames, chunk_frames: int) -> list[list[int]]:
+    """Cut ``frames`` into consecutive chunks of ``chunk_frames`` (the last may be shorter).
+
+    Parameters
+    ----------
+    frames : iterable of int
+        Frame indices, in order.
+    chunk_frames : int
+        Frames per chunk (>= 1).
+
+    Returns
+    -------
+    list of list of int
+        The chunks, in order.
+    """
     frames = list(frames)
     return [frames[k:k + chunk_frames] for k in range(0, len(frames), chunk_frames)]
 
@@ -331,15 +457,42 @@ class TrajectoryResult:
         return [r.index for r in self.records]
 
     def per_frame_totals(self) -> dict:
+        """Per-frame whole-system totals.
+
+        Returns
+        -------
+        dict of str to (n_frames,) float64
+            Each term and ``total`` (:data:`COLUMNS`) -> its value in each frame done, kcal/mol.
+        """
         return {t: np.array([r.totals[t] for r in self.records]) for t in COLUMNS}
 
     def pair_series(self, k: int) -> dict:
-        """Per-frame values of the k-th requested pair: column -> array, plus ``min_heavy_distance``."""
+        """Per-frame values of the k-th requested pair: column -> array, plus ``min_heavy_distance``.
+
+        Parameters
+        ----------
+        k : int
+            Position of the pair in ``request.pairs``.
+
+        Returns
+        -------
+        dict of str to (n_frames,) float64
+            Each term and ``total`` (kcal/mol; 0 in a frame without an entry), and
+            ``min_heavy_distance`` (A; NaN for a residue with itself or one without heavy atoms).
+        """
         out = {c: np.array([r.pair_values[k, n] for r in self.records]) for n, c in enumerate(COLUMNS)}
         out["min_heavy_distance"] = np.array([r.pair_distance[k] for r in self.records])
         return out
 
     def selection_series(self) -> dict | None:
+        """Per-frame interaction of selection A with selection B, or None without selections.
+
+        Returns
+        -------
+        dict of str to (n_frames,) ndarray, or None
+            :data:`SELECTION_COLUMNS`: ``coulomb``, ``lj``, ``total`` (float64, kcal/mol),
+            ``n_atoms_a``, ``n_atoms_b`` (integer).
+        """
         if self.request.select_a is None:
             return None
         keys = SELECTION_COLUMNS
@@ -366,7 +519,18 @@ class TrajectoryState:
             sum(len(c.records) for c in self._buffer.values())
 
     def accept(self, chunk: ChunkResult) -> list[FrameRecord]:
-        """Take a finished chunk (any order); returns the records merged now, in frame order."""
+        """Take a finished chunk (any order); returns the records merged now, in frame order.
+
+        Parameters
+        ----------
+        chunk : ChunkResult
+            A finished chunk; kept until every earlier chunk is merged.
+
+        Returns
+        -------
+        list of FrameRecord
+            The records of the chunks merged by this call (none if an earlier chunk is missing).
+        """
         self._buffer[chunk.chunk] = chunk
         merged = []
         while self.next_chunk in self._buffer:
@@ -378,11 +542,23 @@ class TrajectoryState:
         return merged
 
     def done_records(self) -> list[FrameRecord]:
-        """Records final so far, in frame order (merged chunks, then the serial partial chunk)."""
+        """Records final so far, in frame order (merged chunks, then the serial partial chunk).
+
+        Returns
+        -------
+        list of FrameRecord
+            A new list.
+        """
         return self.records + (self.partial.records if self.partial is not None else [])
 
     def flush(self) -> list[FrameRecord]:
-        """After a stop: merge the chunks finished out of order (skipping the gaps), in order."""
+        """After a stop: merge the chunks finished out of order (skipping the gaps), in order.
+
+        Returns
+        -------
+        list of FrameRecord
+            The records merged by this call.
+        """
         merged = []
         for k in sorted(self._buffer):
             c = self._buffer.pop(k)
@@ -392,7 +568,13 @@ class TrajectoryState:
         return merged
 
     def result(self) -> TrajectoryResult:
-        """The frames merged so far plus the serial run's chunk in progress (not mutating)."""
+        """The frames merged so far plus the serial run's chunk in progress (not mutating).
+
+        Returns
+        -------
+        TrajectoryResult
+            ``complete`` True when every requested frame is in it.
+        """
         stats, records = self.stats, list(self.records)
         if self.partial is not None and self.partial.records:
             stats = stats.copy()
@@ -426,6 +608,18 @@ class TrajectoryScan:
         return len(self.frames)
 
     def steps(self):
+        """Run the frames chunk by chunk, in order.
+
+        Yields
+        ------
+        done, total : int
+            Frames done, out of the frames requested; first ``(0, total)``, then after each frame.
+
+        Returns
+        -------
+        TrajectoryResult
+            (The generator's return value.)  Every requested frame and the statistics over them.
+        """
         state = self.state
         total = len(state.requested)
         yield 0, total
@@ -442,15 +636,48 @@ class TrajectoryScan:
         return state.result()
 
     def run(self, progress=None) -> TrajectoryResult:
-        """Run to the end; ``progress(done, total)`` after each frame."""
+        """Run to the end; ``progress(done, total)`` after each frame.
+
+        Parameters
+        ----------
+        progress : callable or None, optional
+            Called with ``(done, total)`` frames at each step.
+
+        Returns
+        -------
+        TrajectoryResult
+            The complete result.
+        """
         return run_to_end(self.steps(), progress)
 
     def result(self) -> TrajectoryResult:
+        """The result so far (frames done, in order), at any time.
+
+        Returns
+        -------
+        TrajectoryResult
+            See :meth:`TrajectoryState.result`.
+        """
         return self.state.result()
 
 
 def scan_trajectory(request: TrajectoryRequest, frames: str | None = None, progress=None):
-    """Serial convenience: the whole :class:`TrajectoryResult` of ``frames``."""
+    """Serial convenience: the whole :class:`TrajectoryResult` of ``frames``.
+
+    Parameters
+    ----------
+    request : TrajectoryRequest
+        Inputs and what to record.
+    frames : str or None, optional
+        Frame range ``START:STOP:STEP`` (:func:`parse_frames`); None (default) for every frame.
+    progress : callable or None, optional
+        ``progress(done, total)`` after each frame.
+
+    Returns
+    -------
+    TrajectoryResult
+        Every requested frame's record and the statistics over them.
+    """
     return TrajectoryScan(request, frames).run(progress)
 
 

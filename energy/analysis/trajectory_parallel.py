@@ -66,6 +66,26 @@ def worker_chunk(request: TrajectoryRequest, chunk: int, indices) -> ChunkResult
 
     One chunk at a time per process (the numba kernel already uses the process's threads).
     Expected errors come back as :class:`TrajectoryError` with a plain message (picklable).
+
+    Parameters
+    ----------
+    request : TrajectoryRequest
+        The run's inputs (the source is cached per process for the last request seen).
+    chunk : int
+        Chunk number (its position in the merge order).
+    indices : list of int
+        Frame indices of the chunk, in order.
+
+    Returns
+    -------
+    ChunkResult
+        The chunk's :class:`FrameRecord` list (energies in kcal/mol, distances in A) and its
+        :class:`~energy.analysis.pair_statistics.PairStatistics`.
+
+    Raises
+    ------
+    TrajectoryError
+        On any :class:`~energy.errors.EnergyError`, naming the worker host, pid and frames.
     """
     with _LOCK:
         try:
@@ -204,6 +224,22 @@ class ParallelTrajectoryScan(TrajectoryScan):
         return _ProcessBackend(int(self.workers))
 
     def steps(self):
+        """Run the chunks on the workers, merging them in chunk order.
+
+        At most ``backend.slots`` chunks are in flight.  On a stop (exception, ``close()``) pending
+        chunks are cancelled and those already finished are merged (gaps skipped).
+
+        Yields
+        ------
+        done, total : int
+            Frames done so far (merged, or finished and waiting for an earlier chunk), out of the
+            frames requested; first ``(0, total)``, then one step after each round of finished chunks.
+
+        Returns
+        -------
+        TrajectoryResult
+            (The generator's return value.)  The frames merged and their statistics.
+        """
         state = self.state
         total = len(state.requested)
         yield 0, total
@@ -245,7 +281,34 @@ class ParallelTrajectoryScan(TrajectoryScan):
 
 def scan_parallel(request: TrajectoryRequest, frames: str | None = None, workers=None,
                   scheduler=None, client=None, progress=None):
-    """Convenience: the whole :class:`~energy.analysis.trajectory.TrajectoryResult` on workers."""
+    """Convenience: the whole :class:`~energy.analysis.trajectory.TrajectoryResult` on workers.
+
+    Parameters
+    ----------
+    request : TrajectoryRequest
+        Inputs and what to record.
+    frames : str or None, optional
+        Frame range ``START:STOP:STEP`` (:func:`~energy.analysis.trajectory.parse_frames`);
+        None (default) for every frame.
+    workers : int or None, optional
+        Number of worker processes on this machine (>= 1).
+    scheduler : str or None, optional
+        Address of a Dask scheduler.
+    client : distributed.Client or None, optional
+        An existing Dask client (one of ``workers``, ``scheduler``, ``client`` is used).
+    progress : callable or None, optional
+        ``progress(done, total)`` after each merged round of chunks.
+
+    Returns
+    -------
+    TrajectoryResult
+        Every requested frame's record and the statistics over them.
+
+    Raises
+    ------
+    TrajectoryError
+        If no backend is given, ``workers`` < 1, or the run cannot be made.
+    """
     return ParallelTrajectoryScan(request, frames, workers=workers, scheduler=scheduler,
                                   client=client).run(progress)
 

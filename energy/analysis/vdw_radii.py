@@ -28,5 +28,18 @@ _BY_UPPER["D"] = BONDI_RADII["H"]
 
 
 def bondi_radius(element: str) -> float | None:
-    """Bondi radius (A) of ``element`` (symbol, any case), or ``None`` if it is not tabulated."""
+    """Bondi radius (A) of ``element`` (symbol, any case), or ``None`` if it is not tabulated.
+
+    Deuterium (``D``) takes hydrogen's radius.
+
+    Parameters
+    ----------
+    element : str
+        Element symbol (surrounding blanks ignored).
+
+    Returns
+    -------
+    float or None
+        Radius, angstrom (Bondi 1964, Table I).
+    """
     return _BY_UPPER.get(str(element).strip().upper())

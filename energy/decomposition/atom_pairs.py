@@ -89,7 +89,28 @@ def atom_pair_energies(system: MolecularSystem, frame: Frame, settings: EnergySe
                        atoms_a, atoms_b=None) -> AtomPairEnergies:
     """Every nonbonded atom pair between ``atoms_a`` and ``atoms_b`` (within ``atoms_a`` if None).
 
-    Ordinary pairs beyond the cutoff are left out; exception pairs are always listed.
+    Ordinary pairs beyond the cutoff are left out; exception pairs are always listed.  Pairs are
+    unordered and listed once, an atom never with itself.
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system.
+    frame : Frame
+        Its coordinates (A) and unit cell.
+    settings : EnergySettings or None
+        Cutoff, electrostatics, vdW model, periodicity (None: the defaults).
+    atoms_a : (n_a,) integer
+        Atom indices of the first set (duplicates ignored).
+    atoms_b : (n_b,) integer or None, optional
+        Atom indices of the second set; None (default) lists the pairs within ``atoms_a``.
+
+    Returns
+    -------
+    AtomPairEnergies
+        ``pairs`` (n, 2) intp (i < j; ordinary pairs sorted, then the exception pairs),
+        ``distance`` (n,) float64 A, ``coulomb`` and ``lj`` (n,) float64 kcal/mol (``lj`` is the
+        chosen vdW form: LJ or exp-6), ``is_exception`` (n,) bool.
     """
     settings = settings or EnergySettings()
     x = frame.positions
@@ -130,11 +151,42 @@ def atom_pair_energies(system: MolecularSystem, frame: Frame, settings: EnergySe
 
 
 def residue_atoms(system: MolecularSystem, residue: int) -> np.ndarray:
+    """Atoms of residue ``residue``.
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system.
+    residue : int
+        Residue index (0-based).
+
+    Returns
+    -------
+    (k,) intp
+        Indices of the residue's atoms, ascending.
+    """
     return np.flatnonzero(system.resindex == residue)
 
 
 def residue_pair_atom_energies(system, frame, settings, res_i: int, res_j: int) -> AtomPairEnergies:
-    """Atom pairs behind the residue-pair entry (i, j); i == j gives the intra-residue pairs."""
+    """Atom pairs behind the residue-pair entry (i, j); i == j gives the intra-residue pairs.
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system.
+    frame : Frame
+        Its coordinates (A) and unit cell.
+    settings : EnergySettings or None
+        Cutoff, electrostatics, vdW model, periodicity (None: the defaults).
+    res_i, res_j : int
+        Residue indices (0-based).
+
+    Returns
+    -------
+    AtomPairEnergies
+        As :func:`atom_pair_energies` (kcal/mol, A).
+    """
     a = residue_atoms(system, res_i)
     return atom_pair_energies(system, frame, settings, a, None if res_i == res_j else residue_atoms(system, res_j))
 
@@ -143,6 +195,23 @@ def interaction_energy(system, frame, settings, atoms_a, atoms_b) -> dict:
     """Nonbonded interaction between two atom sets (kcal/mol): coulomb, lj, total, n_pairs.
 
     Pairs are unordered and counted once; atoms in both sets pair with each other once.
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system.
+    frame : Frame
+        Its coordinates (A) and unit cell.
+    settings : EnergySettings or None
+        Cutoff, electrostatics, vdW model, periodicity (None: the defaults).
+    atoms_a, atoms_b : (n,) integer
+        Atom indices of the two sets.
+
+    Returns
+    -------
+    dict
+        ``coulomb``, ``lj``, ``total`` (float, kcal/mol) and ``n_pairs`` (int, atom pairs listed,
+        exception pairs included).
     """
     e = atom_pair_energies(system, frame, settings, atoms_a, atoms_b)
     c, l = float(e.coulomb.sum()), float(e.lj.sum())
@@ -154,15 +223,22 @@ def selection_interaction(system, frame, settings, select_a: str, select_b: str,
 
     Parameters
     ----------
-    system, frame : the system and the frame to evaluate.
-    settings : EnergySettings or None (defaults).
-    select_a, select_b : MDAnalysis selection strings (e.g. ``"segid A"``).
-    universe : an MDAnalysis Universe of this system and frame to select from (built if None).
+    system : MolecularSystem
+        The system to evaluate.
+    frame : Frame
+        The frame to evaluate (coordinates in A).
+    settings : EnergySettings or None
+        Settings of the evaluation (None: the defaults).
+    select_a, select_b : str
+        MDAnalysis selection strings (e.g. ``"segid A"``).
+    universe : MDAnalysis.Universe or None, optional
+        A Universe of this system and frame to select from (built if None).
 
     Returns
     -------
-    dict: ``a``, ``b`` (the selections), ``n_atoms_a``, ``n_atoms_b``, and ``coulomb``, ``lj``,
-    ``total`` (kcal/mol), ``n_pairs`` as :func:`interaction_energy`.
+    dict
+        ``a``, ``b`` (the selections), ``n_atoms_a``, ``n_atoms_b``, and ``coulomb``, ``lj``,
+        ``total`` (kcal/mol), ``n_pairs`` as :func:`interaction_energy`.
     """
     u = universe if universe is not None else universe_for(system, frame)
     atoms_a = select_atoms(system, frame, select_a, u)
@@ -172,8 +248,23 @@ def selection_interaction(system, frame, settings, select_a: str, select_b: str,
 
 
 def pair_parameters(system: MolecularSystem, a: int, b: int) -> dict:
-    """Nonbonded parameters of atom pair (a, b): ``qq`` (e^2), ``rmin`` (A), ``eps`` (kcal/mol),
-    ``is_exception`` (its own 1-4 values, or zeros for 1-2/1-3)."""
+    """Nonbonded parameters of atom pair (a, b).
+
+    ``qq`` (e^2), ``rmin`` (A), ``eps`` (kcal/mol), ``is_exception`` (its own 1-4 values, or zeros
+    for 1-2/1-3).
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system.
+    a, b : int
+        Atom indices (0-based, any order).
+
+    Returns
+    -------
+    dict
+        ``qq`` (float, e^2), ``rmin`` (float, A), ``eps`` (float, kcal/mol), ``is_exception`` (bool).
+    """
     lo, hi = min(a, b), max(a, b)
     ex = system.exception_pairs
     hit = np.flatnonzero((ex[:, 0] == lo) & (ex[:, 1] == hi))
@@ -191,6 +282,24 @@ def pair_curve(system: MolecularSystem, settings: EnergySettings | None, a: int,
 
     The same forms as the energy evaluation (cutoff: zero beyond it; exception pairs use plain
     Coulomb and LJ).  Returns also the parameters (see :func:`pair_parameters`).
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system.
+    settings : EnergySettings or None
+        Settings of the evaluation (None: the defaults).
+    a, b : int
+        Atom indices (0-based).
+    distances : (n,) float
+        Distances to evaluate at, A.
+
+    Returns
+    -------
+    coulomb, lj : (n,) float64
+        Energies at each distance, kcal/mol (``lj`` the chosen vdW form).
+    parameters : dict
+        As :func:`pair_parameters`.
     """
     settings = settings or EnergySettings()
     p = pair_parameters(system, a, b)

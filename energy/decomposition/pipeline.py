@@ -117,10 +117,18 @@ def _residue_ordered_atoms(system):
 
 
 def prepare_system(system: MolecularSystem) -> None:
-    """Build the topology-derived arrays every evaluation of ``system`` uses (residue atom order,
-    exclusion lists, residue pairs holding exceptions).  :func:`compute_steps` builds them on first
-    use anyway; calling this first keeps that one-off cost out of the first ``timings.compute``
-    (like creating a simulation context before timing energies)."""
+    """Build the topology-derived arrays every evaluation of ``system`` uses.
+
+    Residue atom order, exclusion lists, residue pairs holding exceptions, bonded attributions
+    (kept on the system, :meth:`MolecularSystem.derived`).  :func:`compute_steps` builds them on
+    first use anyway; calling this first keeps that one-off cost out of the first
+    ``timings.compute`` (like creating a simulation context before timing energies).
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system to prepare.
+    """
     system.derived("residue_atoms", _residue_atoms)
     system.derived("residue_ordered_atoms", _residue_ordered_atoms)
     system.derived("exclusion_csr", _exclusions)
@@ -131,7 +139,36 @@ def prepare_system(system: MolecularSystem) -> None:
 
 
 def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySettings | None = None):
-    """Generator: yields ``(done, total)``, returns an :class:`EnergyResult`."""
+    """Generator: yields ``(done, total)``, returns an :class:`EnergyResult`.
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The parameterised system.
+    frame : Frame
+        Its coordinates (A) and unit cell.
+    settings : EnergySettings or None, optional
+        Cutoff, electrostatics, vdW model, periodicity (None: the defaults, no cutoff).
+
+    Yields
+    ------
+    done, total : int
+        Residue pairs of the nonbonded evaluation done so far, out of those examined.
+
+    Returns
+    -------
+    EnergyResult
+        (The generator's return value.)  ``totals`` per term and ``total`` (kcal/mol),
+        ``interactions`` (one (n,) float64 kcal/mol array per bonded table, and the exception
+        pairs' ``coulomb``, ``lj`` (kcal/mol) and ``distance`` (A)), ``residue_pairs``, ``timings`` (s).
+
+    Raises
+    ------
+    InputMismatchError
+        If the frame does not fit the system (atom count, non-finite coordinates).
+    SettingsError
+        If a cutoff is used in a unit cell narrower than twice the cutoff.
+    """
     settings = settings or EnergySettings()
     _validate_frame(system, frame)
     t0 = time.perf_counter()
@@ -217,12 +254,49 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
 
 def compute(system: MolecularSystem, frame: Frame, settings: EnergySettings | None = None,
             progress=None) -> EnergyResult:
-    """Run :func:`compute_steps` to the end; ``progress(done, total)`` is called at each step."""
+    """Run :func:`compute_steps` to the end; ``progress(done, total)`` is called at each step.
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The parameterised system.
+    frame : Frame
+        Its coordinates (A) and unit cell.
+    settings : EnergySettings or None, optional
+        Cutoff, electrostatics, vdW model, periodicity (None: the defaults, no cutoff).
+    progress : callable or None, optional
+        Called with ``(done, total)`` at each step.
+
+    Returns
+    -------
+    EnergyResult
+        As :func:`compute_steps` (kcal/mol, A).
+
+    Raises
+    ------
+    InputMismatchError
+        If the frame does not fit the system (atom count, non-finite coordinates).
+    SettingsError
+        If a cutoff is used in a unit cell narrower than twice the cutoff.
+    """
     return run_to_end(compute_steps(system, frame, settings), progress)
 
 
 def run_to_end(steps, progress=None):
-    """Drive a progress generator (yields ``(done, total)``, returns its result) to the end."""
+    """Drive a progress generator (yields ``(done, total)``, returns its result) to the end.
+
+    Parameters
+    ----------
+    steps : generator
+        Yields ``(done, total)`` pairs and returns a value.
+    progress : callable or None, optional
+        Called with each ``(done, total)``.
+
+    Returns
+    -------
+    object
+        The generator's return value.
+    """
     while True:
         try:
             done, total = next(steps)

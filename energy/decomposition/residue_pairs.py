@@ -27,13 +27,19 @@ def split_over_residue_pairs(atoms: np.ndarray, energies: np.ndarray, resindex: 
 
     Parameters
     ----------
-    atoms : (n, k) intp atom indices of each interaction.
-    energies : (n,) float64, kcal/mol.
-    resindex : (n_atoms,) atom -> residue.
+    atoms : (n, k) intp
+        Atom indices of each interaction.
+    energies : (n,) float64
+        Energy of each interaction, kcal/mol.
+    resindex : (n_atoms,) intp
+        Residue of each atom (atom -> residue).
 
     Returns
     -------
-    (pair_i, pair_j, values) with pair_i <= pair_j, one row per (interaction, residue pair).
+    pair_i, pair_j : (e,) intp
+        Residue pairs, pair_i <= pair_j, one row per (interaction, residue pair).
+    values : (e,) float64
+        The share of each interaction's energy on that pair, kcal/mol.
     """
     return BondedAttribution.build(atoms, resindex).split(energies)
 
@@ -50,6 +56,22 @@ class BondedAttribution:
 
     @classmethod
     def build(cls, atoms: np.ndarray, resindex: np.ndarray) -> BondedAttribution:
+        """Attribution of the interactions of one bonded table (the rule of the module docstring).
+
+        Parameters
+        ----------
+        atoms : (n, k) intp
+            Atom indices of each interaction.
+        resindex : (n_atoms,) intp
+            Residue of each atom.
+
+        Returns
+        -------
+        BondedAttribution
+            ``pair_i``, ``pair_j`` (e,) intp with pair_i <= pair_j; ``source`` (e,) intp, the
+            interaction each entry comes from; ``share`` (e,) float64, the fraction (1 for one residue
+            or two, 1 / (m (m - 1) / 2) for m residues).
+        """
         if len(atoms) == 0:
             z = np.zeros(0, np.intp)
             return cls(z, z, z, np.zeros(0))
@@ -70,7 +92,20 @@ class BondedAttribution:
                    np.concatenate(out_src), np.concatenate(out_share))
 
     def split(self, energies: np.ndarray):
-        """(pair_i, pair_j, values) of these interactions' ``energies``."""
+        """(pair_i, pair_j, values) of these interactions' ``energies``.
+
+        Parameters
+        ----------
+        energies : (n,) float64
+            Energy of each interaction of the table, kcal/mol.
+
+        Returns
+        -------
+        pair_i, pair_j : (e,) intp
+            Residue pairs, pair_i <= pair_j.
+        values : (e,) float64
+            The share of each interaction's energy on that pair, kcal/mol.
+        """
         return self.pair_i, self.pair_j, energies[self.source] * self.share
 
 
@@ -97,7 +132,23 @@ class ResiduePairEnergies:
         return len(self.pair_i)
 
     def column(self, quantity: str) -> np.ndarray:
-        """A term name, ``total``, ``bonded`` (sum of bonded terms) or ``nonbonded``."""
+        """A term name, ``total``, ``bonded`` (sum of bonded terms) or ``nonbonded``.
+
+        Parameters
+        ----------
+        quantity : str
+            A term name (``values`` key), ``total``, ``bonded`` or ``nonbonded`` (Coulomb + LJ).
+
+        Returns
+        -------
+        (n_pairs,) float64
+            The quantity on each listed residue pair, kcal/mol.
+
+        Raises
+        ------
+        KeyError
+            If ``quantity`` is none of these.
+        """
         if quantity == "total":
             return self.total
         if quantity == "bonded":
@@ -107,8 +158,19 @@ class ResiduePairEnergies:
         return self.values[quantity]
 
     def matrix(self, quantity: str = "total"):
-        """Symmetric sparse (n_residues, n_residues) scipy CSR matrix; the upper triangle sums to
-        the total."""
+        """Symmetric sparse (n_residues, n_residues) scipy CSR matrix; the upper triangle sums to the total.
+
+        Parameters
+        ----------
+        quantity : str, optional
+            A term name, ``total`` (default), ``bonded`` or ``nonbonded`` (see :meth:`column`).
+
+        Returns
+        -------
+        scipy.sparse.csr_matrix of float64, shape (n_residues, n_residues)
+            Entry (i, j) and (j, i) the pair's value, kcal/mol (the upper triangle with the diagonal
+            sums to the quantity's total).
+        """
         v = self.column(quantity)
         n = self.n_residues
         off = self.pair_i != self.pair_j
@@ -117,7 +179,18 @@ class ResiduePairEnergies:
         return sp.csr_matrix((np.concatenate([v, v[off]]), (rows, cols)), shape=(n, n))
 
     def dense(self, quantity: str = "total") -> np.ndarray:
-        """Symmetric dense (n_residues, n_residues) array (for maps; n^2 memory)."""
+        """Symmetric dense (n_residues, n_residues) array (for maps; n^2 memory).
+
+        Parameters
+        ----------
+        quantity : str, optional
+            A term name, ``total`` (default), ``bonded`` or ``nonbonded`` (see :meth:`column`).
+
+        Returns
+        -------
+        (n_residues, n_residues) float64
+            Entry (i, j) and (j, i) the pair's value, kcal/mol; 0 for pairs not listed.
+        """
         v = self.column(quantity)
         out = np.zeros((self.n_residues, self.n_residues))
         out[self.pair_i, self.pair_j] = v
@@ -125,7 +198,18 @@ class ResiduePairEnergies:
         return out
 
     def per_residue(self, quantity: str = "total") -> np.ndarray:
-        """(n_residues,) per-residue totals: half of each off-diagonal entry, all of the diagonal."""
+        """(n_residues,) per-residue totals: half of each off-diagonal entry, all of the diagonal.
+
+        Parameters
+        ----------
+        quantity : str, optional
+            A term name, ``total`` (default), ``bonded`` or ``nonbonded`` (see :meth:`column`).
+
+        Returns
+        -------
+        (n_residues,) float64
+            Per-residue totals, kcal/mol; they sum to the quantity's total.
+        """
         v = self.column(quantity)
         diag = self.pair_i == self.pair_j
         w = np.where(diag, v, 0.5 * v)
@@ -134,7 +218,18 @@ class ResiduePairEnergies:
         return out
 
     def lookup(self, i: int, j: int) -> int | None:
-        """Row of residue pair (i, j) (any order), or None if it holds no entry."""
+        """Row of residue pair (i, j) (any order), or None if it holds no entry.
+
+        Parameters
+        ----------
+        i, j : int
+            Residue indices (0-based).
+
+        Returns
+        -------
+        int or None
+            Index into ``pair_i``, ``pair_j`` and the value columns.
+        """
         i, j = min(i, j), max(i, j)
         key = pair_keys(i, j, self.n_residues)
         keys = pair_keys(self.pair_i, self.pair_j, self.n_residues)
@@ -143,7 +238,18 @@ class ResiduePairEnergies:
 
 
 def sorted_unique(keys: np.ndarray) -> np.ndarray:
-    """Sorted distinct values of an int64 array (faster than np.unique's hash path here)."""
+    """Sorted distinct values of an int64 array (faster than np.unique's hash path here).
+
+    Parameters
+    ----------
+    keys : (n,) int64
+        Values, e.g. pair keys.
+
+    Returns
+    -------
+    (k,) int64
+        The distinct values, ascending (same dtype as ``keys``).
+    """
     keys = np.sort(keys)
     if len(keys) == 0:
         return keys
@@ -154,7 +260,20 @@ def sorted_unique(keys: np.ndarray) -> np.ndarray:
 
 
 def is_member(keys: np.ndarray, sorted_reference: np.ndarray) -> np.ndarray:
-    """(len(keys),) bool: which keys occur in the sorted array ``sorted_reference``."""
+    """(len(keys),) bool: which keys occur in the sorted array ``sorted_reference``.
+
+    Parameters
+    ----------
+    keys : (n,) int64
+        Values to look up.
+    sorted_reference : (r,) int64
+        Ascending reference values.
+
+    Returns
+    -------
+    (n,) bool
+        True where ``keys[k]`` is in ``sorted_reference``.
+    """
     if len(sorted_reference) == 0:
         return np.zeros(len(keys), bool)
     pos = np.minimum(np.searchsorted(sorted_reference, keys), len(sorted_reference) - 1)
@@ -173,6 +292,30 @@ def assemble(n_residues: int, base_i: np.ndarray, base_j: np.ndarray, row_start:
     contribution on a pair absent from the base adds a row.  Rows that end with no contribution
     are dropped, unless they are few (copying then costs more than keeping them; they hold zeros
     and never reach the reports, which list nonzero entries).
+
+    Parameters
+    ----------
+    n_residues : int
+        Number of residues.
+    base_i, base_j : (m,) integer
+        Examined residue pairs, i <= j, sorted by (i, j), unique.
+    row_start : (n_residues + 1,) int64
+        CSR row starts of the base pairs.
+    base_values : dict of str to (m,) float64
+        Nonbonded sums per term (``coulomb``, ``lj``), kcal/mol; consumed (added to in place).
+    base_min_heavy : (m,) float64
+        Smallest heavy-atom distance of each base pair, A (inf when none).
+    base_keep : (m,) bool
+        At least one ordinary atom pair of the residue pair was within range.
+    contributions : list of (str, (e,) integer, (e,) integer, (e,) float64)
+        ``(term, pair_i, pair_j, values)``: energies (kcal/mol) to add on residue pairs
+        (pair_i <= pair_j), e.g. bonded shares and exception pairs.
+
+    Returns
+    -------
+    ResiduePairEnergies
+        One read-only (n_pairs,) float64 column per term (kcal/mol; zeros for a term with no
+        contribution) and the minimum heavy-atom distances (A).
     """
     located = [locate_pairs(row_start, base_j, np.ascontiguousarray(pi, np.intp),
                             np.ascontiguousarray(pj, np.intp)) for _, pi, pj, _ in contributions]
@@ -228,6 +371,21 @@ def bonded_terms_for_pair(system, result, res_i: int, res_j: int) -> list[dict]:
 
     Each entry: ``term``, ``table`` (system attribute), ``row``, ``atoms`` (tuple of indices),
     ``energy`` (the whole interaction, kcal/mol) and ``share`` (the part in this pair's entry).
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system evaluated.
+    result : EnergyResult
+        Its evaluation (``result.interactions[table]``: (n,) float64 per interaction, kcal/mol).
+    res_i, res_j : int
+        Residue indices (0-based, any order; equal for a diagonal entry, which takes only the
+        interactions lying wholly in that residue).
+
+    Returns
+    -------
+    list of dict
+        One dict per contributing interaction, in registry order then row order.
     """
     lo, hi = min(res_i, res_j), max(res_i, res_j)
     out = []

@@ -94,7 +94,36 @@ def _residue_table(topology):
 
 
 def system_from_openmm(omm_system, topology, types=None, force_field="", source_files=()):
-    """Convert an ``openmm.System`` + ``Topology`` into a :class:`MolecularSystem`."""
+    """Convert an ``openmm.System`` + ``Topology`` into a :class:`MolecularSystem`.
+
+    Units and forms as the module docstring says: harmonic k -> k/2, kJ -> kcal, nm -> A,
+    sigma -> Rmin = 2^(1/6) sigma; exceptions keep OpenMM's 1-4 scaling; periodic torsions whose
+    atoms are not a bonded chain become periodic impropers.
+
+    Parameters
+    ----------
+    omm_system : openmm.System
+        The parameterised system (HarmonicBondForce, HarmonicAngleForce, PeriodicTorsionForce,
+        NonbondedForce, CMAPTorsionForce, CMMotionRemover only).
+    topology : openmm.app.Topology
+        Its topology (atoms, residues, chains, bonds).
+    types : sequence of str or None, optional
+        Force-field atom type of each atom; None (default) gives ``"?"``.
+    force_field : str, optional
+        Description of the force field (kept on the system and named in errors).
+    source_files : sequence of str, optional
+        Input files, kept on the system.
+
+    Returns
+    -------
+    MolecularSystem
+        Charges in e, LJ tables in A and kcal/mol, bonded tables in kcal/mol, A and radians.
+
+    Raises
+    ------
+    StructureFileError
+        If the system holds another force, or a CMAP grid of odd size.
+    """
     forces = {f.__class__.__name__: f for f in omm_system.getForces()}
     unknown = set(forces) - _KNOWN_FORCES
     if unknown:
@@ -179,6 +208,35 @@ def load_builtin(path: str, add_hydrogens: bool = False, force_field=DEFAULT_FOR
     """Read ``path`` (PDB/mmCIF) and parameterise it.
 
     Returns ``(MolecularSystem, Frame, openmm Topology, seconds spent reading the file)``.
+
+    Parameters
+    ----------
+    path : str
+        PDB (``.pdb``, ``.ent``) or mmCIF (``.cif``, ``.mmcif``, ``.pdbx``) file.
+    add_hydrogens : bool, optional
+        Add missing hydrogens first (``Modeller.addHydrogens``; default False).
+    force_field : sequence of str, optional
+        OpenMM force-field XML files (default :data:`DEFAULT_FORCE_FIELD`).
+    ph : float, optional
+        pH for the added hydrogens (default 7.0).
+
+    Returns
+    -------
+    system : MolecularSystem
+        The parameterised system.
+    frame : Frame
+        Its coordinates (A) and the file's unit cell, if any.
+    topology : openmm.app.Topology
+        The (possibly hydrogenated) topology.
+    read_seconds : float
+        Wall time spent reading the file, s.
+
+    Raises
+    ------
+    StructureFileError
+        If the file cannot be read.
+    UnknownResidueError
+        If residues match no template, or hydrogens cannot be added.
     """
     import time
 

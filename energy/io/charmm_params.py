@@ -30,20 +30,67 @@ SECTION_KEYWORDS = {"ATOM": "ATOMS", "BOND": "BONDS", "ANGL": "ANGLES", "THET": 
 
 
 def canonical_pair(a: str, b: str) -> tuple:
+    """The type pair in canonical order (the smaller name first): bonds read the same both ways.
+
+    Parameters
+    ----------
+    a, b : str
+        Atom types.
+
+    Returns
+    -------
+    tuple of (str, str)
+        ``(a, b)`` or ``(b, a)``.
+    """
     return (a, b) if a <= b else (b, a)
 
 
 def canonical_angle(a: str, b: str, c: str) -> tuple:
+    """The type triplet in canonical order (outer types ascending, the vertex kept in the middle).
+
+    Parameters
+    ----------
+    a, b, c : str
+        Atom types, ``b`` the vertex.
+
+    Returns
+    -------
+    tuple of (str, str, str)
+        ``(a, b, c)`` or ``(c, b, a)``.
+    """
     return (a, b, c) if a <= c else (c, b, a)
 
 
 def canonical_quad(types) -> tuple:
-    """The smaller of the quadruplet and its reverse (a torsion reads the same both ways)."""
+    """The smaller of the quadruplet and its reverse (a torsion reads the same both ways).
+
+    Parameters
+    ----------
+    types : sequence of str
+        Four atom types (``X`` for a wildcard).
+
+    Returns
+    -------
+    tuple of str
+        The four types, forward or reversed.
+    """
     key = tuple(types)
     return min(key, key[::-1])
 
 
 def canonical_cmap(types) -> tuple:
+    """Canonical key of a CMAP term: each of its two torsions in :func:`canonical_quad` order.
+
+    Parameters
+    ----------
+    types : sequence of str
+        Eight atom types, the phi torsion then the psi torsion.
+
+    Returns
+    -------
+    tuple of str
+        Eight types.
+    """
     return canonical_quad(types[:4]) + canonical_quad(types[4:])
 
 
@@ -267,7 +314,19 @@ def _read_one(path) -> CharmmParameters:
 
 
 def merge_parameters(sets) -> CharmmParameters:
-    """Merge parameter sets in order; later definitions replace earlier ones key by key."""
+    """Merge parameter sets in order; later definitions replace earlier ones key by key.
+
+    Parameters
+    ----------
+    sets : iterable of CharmmParameters
+        Parameter sets, in file order.
+
+    Returns
+    -------
+    CharmmParameters
+        A new merged set (E14FAC and NBXMOD from the last set that gives them; source files
+        concatenated).
+    """
     merged = CharmmParameters()
     for part in sets:
         for name in ("masses", "type_numbers", "bonds", "angles", "dihedrals", "impropers",

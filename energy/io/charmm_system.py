@@ -32,6 +32,17 @@ def element_from_mass(mass: float) -> str:
 
     Masses below 4.5 amu are hydrogen (covers deuterium and repartitioned hydrogens); masses
     below 0.5 amu (lone pairs, Drude particles) give ``""``.
+
+    Parameters
+    ----------
+    mass : float
+        Atomic mass, amu.
+
+    Returns
+    -------
+    str
+        Upper-case element symbol (e.g. ``"CL"``), or ``""`` when no tabulated element lies within
+        1.5 amu.
     """
     if mass < 0.5:
         return ""
@@ -45,6 +56,20 @@ def match_with_wildcards(types, table: dict, max_wildcards: int = 3):
     """Look a torsion type quadruplet up, exact first, then with more and more ``X`` wildcards.
 
     Returns the table value, or ``None`` if nothing matches.
+
+    Parameters
+    ----------
+    types : sequence of str
+        The four atom types.
+    table : dict
+        Canonical quadruplet (:func:`~energy.io.charmm_params.canonical_quad`) -> parameters.
+    max_wildcards : int, optional
+        Most ``X`` positions tried (default 3), in the order of :func:`itertools.combinations`.
+
+    Returns
+    -------
+    object or None
+        The first matching table value.
     """
     for count in range(max_wildcards + 1):
         for positions in combinations(range(len(types)), count):

@@ -39,6 +39,9 @@ def write_psf(path, *, names, types, charges, masses, segids, resids, resnames, 
     resids : sequence of int, (n_atoms,)
         Residue numbers; ``icodes`` (optional) adds insertion letters.
     bonds, angles, dihedrals, impropers, cmaps : (n, 2/3/4/4/8) arrays of 0-based atom indices
+        The bonded sections (``cmaps``: the cross-terms of NCRTERM); empty by default except bonds.
+    icodes : sequence of str, (n_atoms,), optional
+        Insertion letters written after each residue number ('' for none); None (default) writes none.
     title : sequence of str
         Title lines (a leading ``*`` is added).
     """

@@ -16,7 +16,18 @@ TRAJECTORY_SUFFIXES = frozenset({"dcd", "xtc", "trr", "nc", "ncdf", "netcdf", "t
 
 
 def is_trajectory_path(path) -> bool:
-    """True if ``path``'s suffix is one of :data:`TRAJECTORY_SUFFIXES` (several frames)."""
+    """True if ``path``'s suffix is one of :data:`TRAJECTORY_SUFFIXES` (several frames).
+
+    Parameters
+    ----------
+    path : str, os.PathLike or None
+        A file name (an empty one or None gives False).
+
+    Returns
+    -------
+    bool
+        The suffix (any case) is a trajectory format.
+    """
     if not path:
         return False
     name = os.path.basename(os.fspath(path))
@@ -38,6 +49,11 @@ def open_coordinates(path, n_atoms: int, names, topology_kind: str = "topology",
         How the topology is named in messages ("PSF", "topology").
     what : str
         How the file is named in the "cannot read" message.
+
+    Returns
+    -------
+    MDAnalysis.Universe
+        Over the file; a trajectory format is loaded into an empty universe of ``n_atoms`` atoms.
 
     Raises
     ------
@@ -77,7 +93,27 @@ def open_coordinates(path, n_atoms: int, names, topology_kind: str = "topology",
 
 
 def frame_from_timestep(ts, path, index: int) -> Frame:
-    """A :class:`Frame` from an MDAnalysis timestep; refuses non-finite coordinates."""
+    """A :class:`Frame` from an MDAnalysis timestep; refuses non-finite coordinates.
+
+    Parameters
+    ----------
+    ts : MDAnalysis timestep
+        The timestep (positions in A, dimensions ``[a, b, c, alpha, beta, gamma]`` or None).
+    path : str or os.PathLike
+        The file it came from (kept as ``Frame.source``, named in errors).
+    index : int
+        Frame number in the file (0-based).
+
+    Returns
+    -------
+    Frame
+        Positions (n_atoms, 3) float64 A and the unit cell (A, degrees) or None.
+
+    Raises
+    ------
+    StructureFileError
+        If a coordinate is NaN or infinite.
+    """
     positions = np.array(ts.positions, dtype=np.float64)
     if not np.all(np.isfinite(positions)):
         raise StructureFileError(path, f"frame {index} holds non-finite (NaN/inf) coordinates")
@@ -90,6 +126,24 @@ def read_frame(coords_path, n_atoms: int, names, frame: int = 0, topology_kind: 
 
     Raises StructureFileError (unreadable file, missing frame, non-finite coordinates) or
     InputMismatchError (atom count or names differ).
+
+    Parameters
+    ----------
+    coords_path : str or os.PathLike
+        Coordinate file or trajectory.
+    n_atoms : int
+        Atom count of the topology.
+    names : sequence of str
+        Atom names of the topology.
+    frame : int, optional
+        Frame to read (0-based; default 0).
+    topology_kind : str, optional
+        How the topology is named in messages (default ``"PSF"``).
+
+    Returns
+    -------
+    Frame
+        Positions (n_atoms, 3) float64 A, unit cell (A, degrees) or None, ``index`` ``frame``.
     """
     path = os.fspath(coords_path)
     universe = open_coordinates(path, n_atoms, names, topology_kind)

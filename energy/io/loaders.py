@@ -40,7 +40,34 @@ def _check_readable(path) -> str:
 
 def load_system(structure, coords=None, params=(), frame: int = 0, add_hydrogens: bool = False,
                 force_field=None) -> LoadedSystem:
-    """Load and parameterise a system; see the module docstring for the routes."""
+    """Load and parameterise a system; see the module docstring for the routes.
+
+    Parameters
+    ----------
+    structure : str or os.PathLike
+        A PSF (with ``params`` and ``coords``) or a PDB/mmCIF file (built-in force field).
+    coords : str, os.PathLike or None, optional
+        Coordinates or trajectory (required with a PSF; with a PDB/mmCIF they replace its positions).
+    params : sequence of str or os.PathLike, optional
+        CHARMM-style parameter/stream files (PSF route only).
+    frame : int, optional
+        Frame of the coordinates to read (0-based; default 0).
+    add_hydrogens : bool, optional
+        Built-in route: add missing hydrogens first (default False).
+    force_field : sequence of str or None, optional
+        Built-in route: OpenMM force-field XML files (None: :data:`energy.io.builtin.DEFAULT_FORCE_FIELD`).
+
+    Returns
+    -------
+    LoadedSystem
+        The system, its frame (A), ``timings`` (``read``, ``parameterise``, s) and the input paths.
+
+    Raises
+    ------
+    StructureFileError
+        If a file is missing or unreadable, the format is unknown, or the inputs do not fit the route
+        (a PSF without parameters or coordinates, parameters with a PDB/mmCIF).
+    """
     structure = _check_readable(structure)
     params = tuple(_check_readable(p) for p in params)
     coords = _check_readable(coords) if coords is not None else None

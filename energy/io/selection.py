@@ -13,6 +13,23 @@ from energy.errors import SelectionError
 
 
 def universe_for(system, frame):
+    """An in-memory MDAnalysis Universe of the system's atoms at the frame's positions.
+
+    Names, types, elements, charges, residue names, numbers and insertion codes; one segment per
+    chain (``segid`` and ``chainID`` both the chain); the frame's cell as its dimensions.
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system.
+    frame : Frame
+        Positions (A) and unit cell.
+
+    Returns
+    -------
+    MDAnalysis.Universe
+        Atoms in the system's order.
+    """
     import MDAnalysis as mda
     chains = np.asarray(system.residues.chain, dtype=object)
     seg_names, res_seg = np.unique(chains, return_inverse=True)
@@ -35,7 +52,29 @@ def universe_for(system, frame):
 
 
 def select_atoms(system, frame, selection: str, universe=None) -> np.ndarray:
-    """0-based atom indices selected by ``selection``; raises SelectionError if invalid or empty."""
+    """0-based atom indices selected by ``selection``; raises SelectionError if invalid or empty.
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system.
+    frame : Frame
+        Positions (A) for distance-based keywords.
+    selection : str
+        MDAnalysis selection string (e.g. ``"segid A"``).
+    universe : MDAnalysis.Universe or None, optional
+        A universe of this system and frame (:func:`universe_for`); built if None.
+
+    Returns
+    -------
+    (k,) intp
+        Selected atom indices, ascending.
+
+    Raises
+    ------
+    SelectionError
+        If the selection is invalid or matches no atom.
+    """
     u = universe if universe is not None else universe_for(system, frame)
     try:
         atoms = u.select_atoms(selection)

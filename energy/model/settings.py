@@ -66,10 +66,24 @@ class EnergySettings:
             raise SettingsError(f"solvent dielectric must be >= 1, got {self.solvent_dielectric}")
 
     def as_dict(self) -> dict:
+        """The settings as a plain dict (``dataclasses.asdict``), e.g. for JSON.
+
+        Returns
+        -------
+        dict
+            Field name -> value (lengths in angstrom, ``None`` where unset).
+        """
         return asdict(self)
 
     def describe(self) -> str:
-        """Short human description, e.g. for plot titles."""
+        """Short human description, e.g. for plot titles.
+
+        Returns
+        -------
+        str
+            Cutoff (and switching), electrostatics and vdW model, e.g.
+            ``"no cutoff, Coulomb eps=1, LJ 12-6"``.
+        """
         cut = "no cutoff" if self.cutoff_angstrom is None else f"cutoff {self.cutoff_angstrom:g} A"
         if self.switch_angstrom is not None:
             cut += f" (LJ switch from {self.switch_angstrom:g} A)"

@@ -68,6 +68,20 @@ class TermTable:
 
     @classmethod
     def empty(cls, width: int, *columns: str) -> TermTable:
+        """A table with no rows.
+
+        Parameters
+        ----------
+        width : int
+            Atoms per row.
+        *columns : str
+            Names of its parameter columns.
+
+        Returns
+        -------
+        TermTable
+            ``atoms`` (0, width) intp and one (0,) column per name.
+        """
         return cls(np.zeros((0, width), np.intp), {c: np.zeros(0) for c in columns})
 
 
@@ -100,7 +114,18 @@ class ResidueTable:
         return len(self.resid)
 
     def label(self, i: int) -> str:
-        """``A:LYS12`` style label of residue ``i``."""
+        """``A:LYS12`` style label of residue ``i``.
+
+        Parameters
+        ----------
+        i : int
+            Residue index (0-based).
+
+        Returns
+        -------
+        str
+            Chain (omitted when blank), residue name, number and insertion code.
+        """
         chain = str(self.chain[i]).strip()
         return f"{chain + ':' if chain else ''}{self.resname[i]}{self.resid[i]}{self.icode[i]}"
 
@@ -194,9 +219,19 @@ class MolecularSystem:
         set_("other_tables", dict(self.other_tables))
 
     def table(self, attr: str) -> TermTable | None:
-        """The bonded table ``attr``: a field such as ``bonds``, or one of ``other_tables``
-        (None when this system has no such table; :func:`energy.terms.registry.table_of` gives
-        an empty table then)."""
+        """The bonded table ``attr``: a field such as ``bonds``, or one of ``other_tables``.
+
+        Parameters
+        ----------
+        attr : str
+            Table name.
+
+        Returns
+        -------
+        TermTable or None
+            None when this system has no such table (:func:`energy.terms.registry.table_of` gives an
+            empty table then).
+        """
         if attr in TABLE_SHAPES:
             return getattr(self, attr)
         return self.other_tables.get(attr)
@@ -210,8 +245,22 @@ class MolecularSystem:
         return len(self.residues)
 
     def derived(self, key: str, build):
-        """A value computed once from this (frozen) system by ``build(self)`` and kept: topology
-        data that every frame would otherwise rebuild (exclusion lists, atom order by residue)."""
+        """A value computed once from this (frozen) system by ``build(self)`` and kept.
+
+        Topology data that every frame would otherwise rebuild (exclusion lists, atom order by residue).
+
+        Parameters
+        ----------
+        key : str
+            Name of the value.
+        build : callable
+            ``build(system)``, called only the first time ``key`` is asked for.
+
+        Returns
+        -------
+        object
+            The kept value.
+        """
         cache = self.__dict__.setdefault("_derived", {})
         if key not in cache:
             cache[key] = build(self)
@@ -233,8 +282,15 @@ class MolecularSystem:
         return self.derived("is_heavy", build)
 
     def term_counts(self) -> dict[str, int]:
-        """Interactions per bonded table (harmonic and periodic impropers counted together as
-        ``impropers``), and the number of exception pairs."""
+        """Interactions per bonded table, and the number of exception pairs.
+
+        Harmonic and periodic impropers are counted together as ``impropers``.
+
+        Returns
+        -------
+        dict of str to int
+            Table name -> rows, plus ``exceptions``.
+        """
         counts = {}
         for attr in (*TABLE_SHAPES, *self.other_tables):
             key = "impropers" if attr == "periodic_impropers" else attr

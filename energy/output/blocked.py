@@ -77,7 +77,19 @@ def block_records(blocked, classes) -> tuple[list, list]:
 
 
 def blocked_pair_csv(blocked) -> str:
-    """``residue_pairs.csv`` of a blocked table (module docstring); energies kcal/mol."""
+    """``residue_pairs.csv`` of a blocked table (module docstring).
+
+    Parameters
+    ----------
+    blocked : BlockedPairs
+        The table over solute residues and solvent blocks.
+
+    Returns
+    -------
+    str
+        CSV text: ``i``, ``j`` (original residue index; empty for a block), ``label_i``,
+        ``label_j``, every term, ``total`` (kcal/mol, 6 decimals), ``min_heavy_distance`` (A).
+    """
     rp = blocked.pairs
     total = rp.total
     out = io.StringIO()

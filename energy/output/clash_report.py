@@ -16,17 +16,58 @@ from energy.model.system import MolecularSystem
 
 
 def atom_label(system: MolecularSystem, i: int) -> str:
-    """``B:TRP33 CZ2`` style label of atom ``i``."""
+    """``B:TRP33 CZ2`` style label of atom ``i``.
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system.
+    i : int
+        Atom index (0-based).
+
+    Returns
+    -------
+    str
+        Residue label and atom name.
+    """
     return f"{system.residues.label(int(system.resindex[i]))} {system.names[i]}"
 
 
 def radii_description(options: ClashOptions) -> str:
+    """One-line description of the radii used, for reports.
+
+    Parameters
+    ----------
+    options : ClashOptions
+        The search options (``radii``).
+
+    Returns
+    -------
+    str
+        Bondi radii with their citation, or the force-field contact rule.
+    """
     if options.radii == "bondi":
         return f"Bondi radii ({BONDI_SOURCE})"
     return "force-field radii (contact = the pair's LJ Rmin_ij)"
 
 
 def clash_rows(system: MolecularSystem, report: ClashReport) -> list[dict]:
+    """The ranked clashes as plain dicts (one per clash, most severe first).
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system searched (labels, residue indices).
+    report : ClashReport
+        The clash finder's result.
+
+    Returns
+    -------
+    list of dict
+        ``rank`` (1-based), ``atom_i``, ``atom_j`` (0-based), ``label_i``, ``label_j``,
+        ``residue_i``, ``residue_j``, ``distance``, ``contact``, ``overlap`` (float, A), ``lj``,
+        ``exp6`` (float, kcal/mol; exp6 NaN when the report has none), ``is_14``, ``is_hbond`` (bool).
+    """
     rows = []
     for k in range(len(report)):
         i, j = (int(v) for v in report.pairs[k])
@@ -41,7 +82,25 @@ def clash_rows(system: MolecularSystem, report: ClashReport) -> list[dict]:
 
 
 def clash_document(system: MolecularSystem, report: ClashReport, source: dict | None = None) -> dict:
-    """Everything as one JSON-ready dict (units: angstrom, kcal/mol; indices 0-based)."""
+    """Everything as one JSON-ready dict (units: angstrom, kcal/mol; indices 0-based).
+
+    Non-finite floats are written as None.
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system searched (labels, residue indices).
+    report : ClashReport
+        The clash finder's result.
+    source : dict or None, optional
+        Description of the inputs (paths, frame, force field), stored under ``source``.
+
+    Returns
+    -------
+    dict
+        ``kind`` ``"tessera-clashes"``, ``units``, ``options``, ``radii``, ``notes``, search counts,
+        ``clashes`` (:func:`clash_rows`), ``residue_counts`` and ``residue_pairs``.
+    """
     counts = report.residue_counts(system)
     return {
         "kind": "tessera-clashes",
@@ -73,6 +132,22 @@ CSV_FIELDS = ("rank", "label_i", "label_j", "atom_i", "atom_j", "residue_i", "re
 
 
 def clash_csv(system: MolecularSystem, report: ClashReport) -> str:
+    """The ranked clashes as CSV text, columns :data:`CSV_FIELDS`.
+
+    Floats are written with four decimals (A, kcal/mol).
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system searched (labels, residue indices).
+    report : ClashReport
+        The clash finder's result.
+
+    Returns
+    -------
+    str
+        Header line, then one line per clash.
+    """
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
     w.writerow(CSV_FIELDS)
@@ -86,7 +161,22 @@ def _fmt_energy(e: float) -> str:
 
 
 def clash_table(system: MolecularSystem, report: ClashReport, top: int = 20) -> str:
-    """Readable summary: criteria, ranked atom pairs, then residue pairs."""
+    """Readable summary: criteria, ranked atom pairs, then residue pairs.
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system searched (labels, residue indices).
+    report : ClashReport
+        The clash finder's result.
+    top : int, optional
+        Atom pairs and residue pairs shown (default 20; 0 or less shows all).
+
+    Returns
+    -------
+    str
+        The text table (distances in A, energies in kcal/mol), lines joined by newlines.
+    """
     o = report.options
     crit = []
     if o.overlap is not None:

@@ -16,7 +16,22 @@ if TYPE_CHECKING:
 
 
 def difference_rows(comparison: Comparison, include_zero: bool = False) -> list[dict]:
-    """Pair rows sorted by the size of the change in total (largest first)."""
+    """Pair rows sorted by the size of the change in total (largest first).
+
+    Parameters
+    ----------
+    comparison : Comparison
+        Result of :func:`energy.analysis.compare.compare_results` (second minus first).
+    include_zero : bool, optional
+        Also list pairs whose total is 0 in both structures and unchanged (default False).
+
+    Returns
+    -------
+    list of dict
+        ``i``, ``j`` (matched residue indices), ``label_i``, ``label_j``, ``first_total``,
+        ``second_total``, ``change_total``, ``change_<term>`` (float, kcal/mol) and
+        ``second_min_heavy_distance`` (float, A, or None when none was examined).
+    """
     d = comparison.difference
     change = d.total
     present = np.ones(len(d), bool) if include_zero else (
@@ -39,6 +54,20 @@ def difference_rows(comparison: Comparison, include_zero: bool = False) -> list[
 
 
 def difference_csv(comparison: Comparison) -> str:
+    """The changed residue pairs (:func:`difference_rows`) as CSV text.
+
+    Energies in kcal/mol and distances in A with six decimals; an unknown distance is empty.
+
+    Parameters
+    ----------
+    comparison : Comparison
+        Result of :func:`energy.analysis.compare.compare_results` (second minus first).
+
+    Returns
+    -------
+    str
+        Header line, then one line per pair.
+    """
     out = io.StringIO()
     w = csv.writer(out)
     cols = ["i", "j", "label_i", "label_j", "first_total", "second_total", "change_total",
@@ -51,7 +80,19 @@ def difference_csv(comparison: Comparison) -> str:
 
 
 def residue_difference_csv(comparison: Comparison) -> str:
-    """Per matched residue: per-term change of the per-residue totals (second minus first)."""
+    """Per matched residue: per-term change of the per-residue totals (second minus first).
+
+    Parameters
+    ----------
+    comparison : Comparison
+        Result of :func:`energy.analysis.compare.compare_results` (second minus first).
+
+    Returns
+    -------
+    str
+        CSV text: ``index``, ``label``, ``chain``, ``mutated`` (0/1), ``change_<term>`` and
+        ``change_total`` (kcal/mol, six decimals).
+    """
     d = comparison.difference
     per = {t: d.per_residue(t) for t in (*TERMS, "total")}
     out = io.StringIO()
@@ -64,7 +105,23 @@ def residue_difference_csv(comparison: Comparison) -> str:
 
 
 def comparison_document(comparison: Comparison, inputs: dict, settings) -> dict:
-    """JSON document of ``tessera compare``."""
+    """JSON document of ``tessera compare``.
+
+    Parameters
+    ----------
+    comparison : Comparison
+        Result of :func:`energy.analysis.compare.compare_results` (second minus first).
+    inputs : dict
+        Description of the two inputs (paths, frames, parameter files).
+    settings : EnergySettings
+        The settings both structures were evaluated with.
+
+    Returns
+    -------
+    dict
+        JSON-ready: ``units`` (kcal/mol, angstrom), ``inputs``, ``settings``, matching summary,
+        ``totals`` (first, second, change) and ``pairs`` (:func:`difference_rows`).
+    """
     return {
         "program": "tessera",
         "kind": "comparison (second minus first)",
@@ -83,8 +140,24 @@ def comparison_document(comparison: Comparison, inputs: dict, settings) -> dict:
 
 
 def summary_text(comparison, first_name: str, second_name: str, top: int) -> str:
-    """The text summary of ``tessera compare``: matching, per-term totals and the ``top``
-    largest changes of residue-pair totals."""
+    """The text summary of ``tessera compare``.
+
+    Matching, per-term totals and the ``top`` largest changes of residue-pair totals.
+
+    Parameters
+    ----------
+    comparison : Comparison
+        Result of :func:`energy.analysis.compare.compare_results` (second minus first).
+    first_name, second_name : str
+        Names of the two structures as shown.
+    top : int
+        Number of residue pairs listed.
+
+    Returns
+    -------
+    str
+        The summary (kcal/mol), lines joined by newlines.
+    """
     c = comparison
     lines = [f"second minus first: {second_name} - {first_name}",
              f"{len(c.match)} residues matched by chain and number"

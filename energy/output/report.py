@@ -28,6 +28,18 @@ UNITS = {"energy": "kcal/mol", "distance": "angstrom"}
 
 
 def residue_records(system) -> list[dict]:
+    """The residue table as JSON-ready records.
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system.
+
+    Returns
+    -------
+    list of dict
+        One per residue: ``index`` (0-based), ``chain``, ``resid`` (int), ``icode``, ``resname``.
+    """
     r = system.residues
     classes = system.residue_classes
     return [{"index": i, "chain": str(r.chain[i]), "resid": int(r.resid[i]), "icode": str(r.icode[i]),
@@ -36,13 +48,43 @@ def residue_records(system) -> list[dict]:
 
 
 def pair_columns(result, include_zero: bool = False) -> dict:
-    """Residue-pair columns (numpy arrays) for the rows with a nonzero entry: ``i``, ``j``, every
-    term, ``total`` and ``min_heavy_distance`` (A; inf where no heavy-atom pair was examined)."""
+    """Residue-pair columns (numpy arrays) for the rows with a nonzero entry.
+
+    ``i``, ``j``, every term, ``total`` and ``min_heavy_distance`` (A; inf where no heavy-atom pair
+    was examined).
+
+    Parameters
+    ----------
+    result : EnergyResult
+        An evaluation (its ``residue_pairs``).
+    include_zero : bool, optional
+        Keep the rows whose every term is 0 too (default False).
+
+    Returns
+    -------
+    dict of str to (n_rows,) ndarray
+        ``i``, ``j`` (integer residue indices, i <= j), each term and ``total`` (float64, kcal/mol),
+        ``min_heavy_distance`` (float64, A).
+    """
     return residue_pair_columns(result.residue_pairs, include_zero)
 
 
 def residue_pair_columns(rp, include_zero: bool = False) -> dict:
-    """:func:`pair_columns` of a residue-pair table ``rp`` (ResiduePairEnergies)."""
+    """:func:`pair_columns` of a residue-pair table ``rp`` (ResiduePairEnergies).
+
+    Parameters
+    ----------
+    rp : ResiduePairEnergies
+        The table.
+    include_zero : bool, optional
+        Keep the rows whose every term is 0 too (default False).
+
+    Returns
+    -------
+    dict of str to (n_rows,) ndarray
+        As :func:`pair_columns`: ``i``, ``j``, each term and ``total`` (kcal/mol),
+        ``min_heavy_distance`` (A).
+    """
     cols = {t: rp.values[t] for t in TERMS}
     if include_zero:
         rows = slice(None)
@@ -99,8 +141,28 @@ _PAIRS_PLACEHOLDER = "@@tessera-pairs@@"
 
 
 def scan_document(loaded, result, selection=None, extra_timings=None) -> dict:
-    """The JSON document of ``tessera scan``; ``pairs`` is filled in by :func:`write_scan_json`
-    (streamed, so that millions of pairs never sit in memory as Python objects)."""
+    """The JSON document of ``tessera scan``.
+
+    ``pairs`` is filled in by :func:`write_scan_json` (streamed, so that millions of pairs never
+    sit in memory as Python objects); here it holds a placeholder.
+
+    Parameters
+    ----------
+    loaded : LoadedSystem
+        The loaded system (:func:`energy.io.loaders.load_system`): system, frame, paths, timings.
+    result : EnergyResult
+        Its evaluation.
+    selection : dict or None, optional
+        The A-vs-B interaction (:func:`energy.decomposition.atom_pairs.selection_interaction`).
+    extra_timings : dict or None, optional
+        More wall times to record, s.
+
+    Returns
+    -------
+    dict
+        ``units`` (kcal/mol, angstrom), inputs, settings, ``totals`` (kcal/mol), ``residues``,
+        ``pairs`` (placeholder), ``timings`` (s), ``selection`` when given.
+    """
     system = loaded.system
     timings = {"read": loaded.timings.get("read", 0.0),
                "parameterise": loaded.timings.get("parameterise", 0.0),
@@ -129,6 +191,21 @@ def scan_document(loaded, result, selection=None, extra_timings=None) -> dict:
 
 
 def residue_table_csv(system, result) -> str:
+    """Per-residue totals as CSV text.
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system (residue labels).
+    result : EnergyResult
+        Its evaluation.
+
+    Returns
+    -------
+    str
+        Columns ``index``, ``chain``, ``resid``, ``icode``, ``resname``, each term and ``total``
+        (kcal/mol, six decimals; half of each off-diagonal pair entry, all of the diagonal).
+    """
     rp = result.residue_pairs
     per = {t: rp.per_residue(t) for t in TERMS}
     per_total = rp.per_residue("total")
@@ -144,7 +221,21 @@ def residue_table_csv(system, result) -> str:
 
 
 def pair_table_csv(system, result) -> str:
-    """CSV text of every residue pair with an entry (see :func:`pair_rows_csv`)."""
+    """CSV text of every residue pair with an entry (see :func:`pair_rows_csv`).
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system (residue labels).
+    result : EnergyResult
+        Its evaluation.
+
+    Returns
+    -------
+    str
+        Columns ``i``, ``j``, ``label_i``, ``label_j``, each term and ``total`` (kcal/mol, six
+        decimals) and ``min_heavy_distance`` (A, three decimals; empty where none was examined).
+    """
     labels = [system.residues.label(i) for i in range(system.n_residues)]
     return _pair_csv(labels, pair_columns(result))
 
@@ -181,12 +272,33 @@ def _pair_csv(labels, cols) -> str:
 
 
 def write_json(path, doc: dict) -> None:
+    """Write ``doc`` as indented JSON to ``path``, atomically (NaN and inf are refused).
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The file to write.
+    doc : dict
+        A JSON-ready document.
+    """
     atomic_write_text(path, json.dumps(doc, indent=1, allow_nan=False) + "\n")
 
 
 def write_scan_json(path, doc: dict, result, rows=None) -> None:
-    """Write a :func:`scan_document` with its residue-pair rows streamed in, atomically
-    (only the rows ``rows`` of the table when given, e.g. the solute rows of a blocked run)."""
+    """Write a :func:`scan_document` with its residue-pair rows streamed in, atomically.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The file to write.
+    doc : dict
+        The document of :func:`scan_document` (with its ``pairs`` placeholder).
+    result : EnergyResult
+        The evaluation whose pairs (:func:`pair_columns`) are streamed in.
+    rows : (n,) intp array or None, optional
+        Only these rows of the residue-pair table (e.g. the solute rows of a run with solvent
+        blocks, :func:`energy.output.blocked.solute_rows`); all rows when None.
+    """
     text = json.dumps(doc, indent=1, allow_nan=False)
     head, tail = text.split(json.dumps(_PAIRS_PLACEHOLDER), 1)
     with atomic_open(path, "w") as fh:
@@ -205,9 +317,25 @@ def write_scan_json(path, doc: dict, result, rows=None) -> None:
 
 
 def write_csv_dir(folder, system, result, blocked=None) -> list[str]:
-    """Write ``residues.csv`` and ``residue_pairs.csv`` into ``folder`` (created if needed); with
-    ``blocked`` (solvent as blocks) the pair table lists solute pairs and block entries
-    (:func:`energy.output.blocked.blocked_pair_csv`).  Returns the two paths."""
+    """Write ``residues.csv`` and ``residue_pairs.csv`` into ``folder`` (created if needed).
+
+    Parameters
+    ----------
+    folder : str or os.PathLike
+        Output folder.
+    system : MolecularSystem
+        The system (residue labels).
+    result : EnergyResult
+        Its evaluation.
+    blocked : BlockedPairs or None, optional
+        Solvent as blocks: the pair table then lists solute pairs and block entries
+        (:func:`energy.output.blocked.blocked_pair_csv`).
+
+    Returns
+    -------
+    list of str
+        The two paths written.
+    """
     folder = os.fspath(folder)
     os.makedirs(folder, exist_ok=True)
     paths = [os.path.join(folder, "residues.csv"), os.path.join(folder, "residue_pairs.csv")]
@@ -217,9 +345,27 @@ def write_csv_dir(folder, system, result, blocked=None) -> list[str]:
 
 
 def summary_text(loaded, result, top: int = 8, selection=None, blocked=None) -> str:
-    """Human summary: system, per-term totals, strongest repulsive and attractive residue pairs
-    (of the solute and solvent blocks when ``blocked``, an
-    :class:`energy.decomposition.blocks.BlockedPairs`, is given)."""
+    """Human summary: system, per-term totals, strongest repulsive and attractive residue pairs.
+
+    Parameters
+    ----------
+    loaded : LoadedSystem
+        The loaded system (:func:`energy.io.loaders.load_system`): system, frame, paths, timings.
+    result : EnergyResult
+        Its evaluation.
+    top : int, optional
+        Residue pairs listed in each direction (default 8).
+    selection : dict or None, optional
+        The A-vs-B interaction to report (:func:`energy.decomposition.atom_pairs.selection_interaction`).
+    blocked : BlockedPairs or None, optional
+        Solvent as blocks (:func:`energy.decomposition.blocks.block_residue_pairs`): pairs are
+        listed over solute residues and blocks.
+
+    Returns
+    -------
+    str
+        The summary (kcal/mol, s), lines joined by newlines.
+    """
     system = loaded.system
     lines = [f"{loaded.structure_path}: {system.n_atoms} atoms, {system.n_residues} residues; "
              f"{system.force_field}",

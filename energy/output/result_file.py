@@ -91,7 +91,20 @@ class InputRecord:
 
     @classmethod
     def of(cls, role: str, path) -> InputRecord:
-        """Record ``path`` as it is now (absolute path, size and SHA-256)."""
+        """Record ``path`` as it is now (absolute path, size and SHA-256).
+
+        Parameters
+        ----------
+        role : str
+            Role of the file (``structure``, ``coordinates``, ``parameters``, ...).
+        path : str or os.PathLike
+            The file.
+
+        Returns
+        -------
+        InputRecord
+            With size -1 and an empty hash when the file cannot be read.
+        """
         path = os.path.abspath(os.fspath(path))
         try:
             return cls(role, path, os.path.getsize(path), sha256_of(path))
@@ -99,7 +112,14 @@ class InputRecord:
             return cls(role, path, -1, "")
 
     def changed(self) -> str | None:
-        """None if the file is still there with the same SHA-256; otherwise why not."""
+        """None if the file is still there with the same SHA-256; otherwise why not.
+
+        Returns
+        -------
+        str or None
+            A message saying the file is missing or has changed; None if it matches (or has no
+            recorded hash).
+        """
         if not os.path.isfile(self.path):
             return f"{self.role} file {self.path} is missing"
         if self.sha256 and sha256_of(self.path) != self.sha256:
@@ -364,12 +384,26 @@ class StoredResult:
     comparison: object = None
 
     def changed_inputs(self) -> list[str]:
-        """Why each recorded input file no longer matches (missing or changed); [] if all do."""
+        """Why each recorded input file no longer matches (missing or changed); [] if all do.
+
+        Returns
+        -------
+        list of str
+            One message per input that no longer matches (:meth:`InputRecord.changed`).
+        """
         return [msg for rec in self.inputs if (msg := rec.changed()) is not None]
 
     def pairs_frame(self):
-        """The residue-pair table as a pandas DataFrame: ``i``, ``j``, ``label_i``,
-        ``label_j``, one column per term, ``total``, ``min_heavy_distance`` (kcal/mol, A)."""
+        """The residue-pair table as a pandas DataFrame.
+
+        For a comparison, the difference table (second minus first) over the matched residues.
+
+        Returns
+        -------
+        pandas.DataFrame
+            Columns ``i``, ``j`` (0-based residue indices, i <= j), ``label_i``, ``label_j``, one
+            column per term, ``total`` (kcal/mol) and ``min_heavy_distance`` (A); one row per pair.
+        """
         import pandas as pd
         rp = self.residue_pairs if self.residue_pairs is not None else self.comparison.difference
         labels = (np.array([self.residues.label(k) for k in range(len(self.residues))], dtype=object)

@@ -69,7 +69,15 @@ class FrameTables:
                  s["n_atoms_b"]]]
 
     def sync(self, records) -> None:
-        """Append the records not yet written (``records`` is the ordered list of frames done)."""
+        """Append the records not yet written (``records`` is the ordered list of frames done).
+
+        Each table gets one write per frame, inside ``guard``.
+
+        Parameters
+        ----------
+        records : list of FrameRecord
+            Every frame done so far, in frame order (those already written are skipped by count).
+        """
         with self.guard():
             for name in self.files:
                 for r in records[self.count[name]:]:
@@ -77,11 +85,34 @@ class FrameTables:
                     self.count[name] += 1
 
     def close(self):
+        """Close the CSV files.
+
+        Returns
+        -------
+        None
+        """
         for fh in self.files.values():
             fh.close()
 
 
 def stats_table_csv(result) -> str:
+    """The residue-pair statistics table as CSV text.
+
+    Pairs with any non-zero mean or spread, in key order; values written exactly (``repr``),
+    NaN and inf as empty cells.
+
+    Parameters
+    ----------
+    result : TrajectoryResult
+        The run's result.
+
+    Returns
+    -------
+    str
+        Columns ``i``, ``j``, ``label_i``, ``label_j``, ``mean_<column>`` and ``std_<column>``
+        (kcal/mol) for every term and ``total``, ``persistence`` and ``present_fraction`` (fractions
+        of frames), ``min_heavy_distance`` (A).
+    """
     st = result.stats
     label = result.system.residues.label
     out = io.StringIO()
@@ -106,6 +137,28 @@ def _kept_pairs(stats) -> np.ndarray:
 
 
 def trajectory_document(result, scan, execution: dict, interrupted: bool, timings: dict) -> dict:
+    """JSON document of a trajectory run.
+
+    Parameters
+    ----------
+    result : TrajectoryResult
+        The frames done and their statistics.
+    scan : TrajectoryScan
+        The run (its frame range text and the file's frame count are recorded).
+    execution : dict
+        How it ran (mode, workers or scheduler, chunk size).
+    interrupted : bool
+        The run was stopped by the user.
+    timings : dict
+        Wall times, s.
+
+    Returns
+    -------
+    dict
+        JSON-ready: ``units`` (kcal/mol, angstrom), inputs, settings, per-frame totals and their
+        mean and std (kcal/mol), ``pairs`` (statistics of every kept residue pair), ``pair_series``
+        of the requested pairs, ``selection`` (when selections were given) and ``timings``.
+    """
     system, st, req = result.system, result.stats, result.request
     finite = lambda x: float(x) if math.isfinite(float(x)) else None  # noqa: E731
     totals = result.per_frame_totals()
@@ -159,6 +212,23 @@ def trajectory_document(result, scan, execution: dict, interrupted: bool, timing
 
 
 def summary_text(result, top: int = 8) -> str:
+    """Text summary of a trajectory run.
+
+    Per-term mean and std over the frames, the most persistent residue pairs, the requested pairs
+    and the selection interaction.
+
+    Parameters
+    ----------
+    result : TrajectoryResult
+        The run's result.
+    top : int, optional
+        Number of persistent residue pairs listed (default 8).
+
+    Returns
+    -------
+    str
+        The summary (kcal/mol), lines joined by newlines.
+    """
     st = result.stats
     label = result.system.residues.label
     req = result.request

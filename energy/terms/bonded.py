@@ -17,6 +17,23 @@ if TYPE_CHECKING:
 
 
 def bond_energies(table: TermTable, x, box=None) -> np.ndarray:
+    """Bond energies K (b - b0)^2, b the distance between the two atoms (docs/physics.md).
+
+    Parameters
+    ----------
+    table : TermTable
+        ``atoms`` (n, 2); columns ``k`` (kcal/mol/A^2, no factor 1/2) and ``r0`` (A).
+    x : (n_atoms, 3) float64
+        Atom positions, angstrom.
+    box : (6,) float or None, optional
+        Unit cell ``[a, b, c, alpha, beta, gamma]`` (angstrom, degrees) for the minimum image of
+        the bond vectors, or None (default).
+
+    Returns
+    -------
+    (n,) float64
+        Energy of each row of ``table``, kcal/mol.
+    """
     if not len(table):
         return np.zeros(0)
     a = table.atoms
@@ -25,6 +42,23 @@ def bond_energies(table: TermTable, x, box=None) -> np.ndarray:
 
 
 def urey_bradley_energies(table: TermTable, x, box=None) -> np.ndarray:
+    """Urey-Bradley energies K (s - s0)^2, s the distance between atoms 1 and 3 of the angle.
+
+    Parameters
+    ----------
+    table : TermTable
+        ``atoms`` (n, 3), the angle triplet; columns ``k`` (kcal/mol/A^2) and ``s0`` (A).
+    x : (n_atoms, 3) float64
+        Atom positions, angstrom.
+    box : (6,) float or None, optional
+        Unit cell ``[a, b, c, alpha, beta, gamma]`` (angstrom, degrees) for the minimum image of
+        the bond vectors, or None (default).
+
+    Returns
+    -------
+    (n,) float64
+        Energy of each row of ``table``, kcal/mol.
+    """
     if not len(table):
         return np.zeros(0)
     a = table.atoms
@@ -33,6 +67,23 @@ def urey_bradley_energies(table: TermTable, x, box=None) -> np.ndarray:
 
 
 def angle_energies(table: TermTable, x, box=None) -> np.ndarray:
+    """Angle energies K (theta - theta0)^2, theta in radians.
+
+    Parameters
+    ----------
+    table : TermTable
+        ``atoms`` (n, 3), vertex in the middle; columns ``k`` (kcal/mol/rad^2) and ``theta0`` (rad).
+    x : (n_atoms, 3) float64
+        Atom positions, angstrom.
+    box : (6,) float or None, optional
+        Unit cell ``[a, b, c, alpha, beta, gamma]`` (angstrom, degrees) for the minimum image of
+        the bond vectors, or None (default).
+
+    Returns
+    -------
+    (n,) float64
+        Energy of each row of ``table``, kcal/mol.
+    """
     if not len(table):
         return np.zeros(0)
     a = table.atoms
@@ -46,7 +97,25 @@ def _torsions(table, x, box):
 
 
 def periodic_torsion_energies(table: TermTable, x, box=None) -> np.ndarray:
-    """Proper dihedrals or periodic impropers: K(1 + cos(n*phi - delta))."""
+    """Proper dihedrals or periodic impropers: K(1 + cos(n*phi - delta)).
+
+    phi is the IUPAC dihedral angle of the four atoms (radians); one row per cosine term.
+
+    Parameters
+    ----------
+    table : TermTable
+        ``atoms`` (n, 4); columns ``k`` (kcal/mol), ``periodicity`` (intp) and ``phase`` (rad).
+    x : (n_atoms, 3) float64
+        Atom positions, angstrom.
+    box : (6,) float or None, optional
+        Unit cell ``[a, b, c, alpha, beta, gamma]`` (angstrom, degrees) for the minimum image of
+        the bond vectors, or None (default).
+
+    Returns
+    -------
+    (n,) float64
+        Energy of each row of ``table``, kcal/mol.
+    """
     if not len(table):
         return np.zeros(0)
     phi = _torsions(table, x, box)
@@ -55,6 +124,23 @@ def periodic_torsion_energies(table: TermTable, x, box=None) -> np.ndarray:
 
 
 def harmonic_improper_energies(table: TermTable, x, box=None) -> np.ndarray:
+    """Harmonic improper energies K (psi - psi0)^2, psi - psi0 wrapped to [-pi, pi).
+
+    Parameters
+    ----------
+    table : TermTable
+        ``atoms`` (n, 4); columns ``k`` (kcal/mol/rad^2) and ``psi0`` (rad).
+    x : (n_atoms, 3) float64
+        Atom positions, angstrom.
+    box : (6,) float or None, optional
+        Unit cell ``[a, b, c, alpha, beta, gamma]`` (angstrom, degrees) for the minimum image of
+        the bond vectors, or None (default).
+
+    Returns
+    -------
+    (n,) float64
+        Energy of each row of ``table``, kcal/mol.
+    """
     if not len(table):
         return np.zeros(0)
     psi = _torsions(table, x, box)

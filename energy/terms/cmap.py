@@ -29,7 +29,22 @@ def _periodic_derivative(grid: np.ndarray, axis: int, step: float) -> np.ndarray
 
 
 def grid_derivatives(grid: np.ndarray):
-    """(f, df/dphi, df/dpsi, d2f/dphidpsi) on the grid, per radian."""
+    """(f, df/dphi, df/dpsi, d2f/dphidpsi) on the grid, per radian.
+
+    Derivatives along each axis from periodic cubic splines; the cross derivative from a spline
+    of df/dpsi along phi.
+
+    Parameters
+    ----------
+    grid : (n, n) float64
+        Energies, kcal/mol, ``grid[i, j]`` at phi = -pi + i h, psi = -pi + j h, h = 2 pi / n.
+
+    Returns
+    -------
+    f, f_phi, f_psi, f_phipsi : (n, n) float64
+        ``grid`` itself (kcal/mol), its first derivatives (kcal/mol/rad) and its cross
+        derivative (kcal/mol/rad^2) at the grid points.
+    """
     n = grid.shape[0]
     step = 2.0 * np.pi / n
     d_phi = _periodic_derivative(grid, 0, step)
@@ -51,7 +66,22 @@ def _hermite_basis(t):
 
 
 def interpolate(grid: np.ndarray, phi: np.ndarray, psi: np.ndarray) -> np.ndarray:
-    """Bicubic value of ``grid`` (n, n; grid[i, j] at phi=-pi+i*h, psi=-pi+j*h) at angles (rad)."""
+    """Bicubic value of ``grid`` (n, n; grid[i, j] at phi=-pi+i*h, psi=-pi+j*h) at angles (rad).
+
+    The grid's derivatives are computed once per distinct grid (cached).
+
+    Parameters
+    ----------
+    grid : (n, n) float
+        Periodic energy grid, kcal/mol; h = 2 pi / n.
+    phi, psi : (m,) float
+        Angles, radians (any value: the grid is periodic).
+
+    Returns
+    -------
+    (m,) float64
+        Interpolated energies, kcal/mol.
+    """
     n = grid.shape[0]
     h = 2.0 * np.pi / n
     f, fx, fy, fxy = _cached_derivatives(np.ascontiguousarray(grid, np.float64).tobytes(), n)
@@ -77,6 +107,27 @@ def interpolate(grid: np.ndarray, phi: np.ndarray, psi: np.ndarray) -> np.ndarra
 
 
 def cmap_energies(table: TermTable, maps, x, box=None) -> np.ndarray:
+    """CMAP energy of each row: the bicubic interpolation of its map at its (phi, psi).
+
+    Parameters
+    ----------
+    table : TermTable
+        ``atoms`` (n, 8), the four atoms of phi then the four of psi; column ``map`` (intp), the
+        index into ``maps``.
+    maps : sequence of (g, g) float64
+        CMAP grids, kcal/mol (``MolecularSystem.cmap_maps``, grid[i, j] at phi = -180 + i 360/g,
+        psi = -180 + j 360/g degrees).
+    x : (n_atoms, 3) float64
+        Atom positions, angstrom.
+    box : (6,) float or None, optional
+        Unit cell ``[a, b, c, alpha, beta, gamma]`` (angstrom, degrees) for the minimum image of
+        the bond vectors, or None (default).
+
+    Returns
+    -------
+    (n,) float64
+        Energy of each row of ``table``, kcal/mol.
+    """
     if not len(table):
         return np.zeros(0)
     a = table.atoms

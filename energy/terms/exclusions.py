@@ -24,7 +24,22 @@ if TYPE_CHECKING:
 
 
 def exclusion_csr(exception_pairs: np.ndarray, n_atoms: int):
-    """Exception partners per atom as CSR (``ptr``, ``idx``), listing j > i for atom i."""
+    """Exception partners per atom as CSR (``ptr``, ``idx``), listing j > i for atom i.
+
+    Parameters
+    ----------
+    exception_pairs : (m, 2) integer
+        Exception pairs (i, j), i < j (``MolecularSystem.exception_pairs``).
+    n_atoms : int
+        Number of atoms.
+
+    Returns
+    -------
+    ptr : (n_atoms + 1,) intp
+        The partners of atom i are ``idx[ptr[i]:ptr[i+1]]``.
+    idx : (m,) intp
+        Partners j, ascending within each atom.
+    """
     if len(exception_pairs) == 0:
         return np.zeros(n_atoms + 1, np.intp), np.zeros(0, np.intp)
     order = np.lexsort((exception_pairs[:, 1], exception_pairs[:, 0]))
@@ -41,13 +56,24 @@ def _pair_keys(pairs: np.ndarray, n: int) -> np.ndarray:
 
 
 def excluded_and_14(system: MolecularSystem) -> tuple[np.ndarray, np.ndarray]:
-    """Sorted pair keys (i * n + j, i < j) of the pairs that never count (1-2 and 1-3) and of the
-    1-4 pairs.
+    """Sorted pair keys (i * n + j, i < j) of the pairs that never count (1-2 and 1-3) and of the 1-4 pairs.
 
     1-2 and 1-3 pairs come from the bond graph (bonds, and two bonds sharing an atom; the outer
     atoms of every angle term too) and from the exception pairs carrying zero charge product and
     zero well depth (the loaders' marking of 1-2/1-3 exclusions).  The other exception pairs are
     the 1-4 pairs; a pair that is both 1-3 and 1-4 (small rings) is 1-3.
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system (bonds, angles and exception pairs are read).
+
+    Returns
+    -------
+    excluded : (p,) int64
+        Sorted unique keys ``i * n_atoms + j`` of the 1-2 and 1-3 pairs.
+    ex14 : (q,) int64
+        Sorted unique keys of the 1-4 pairs (none of them in ``excluded``).
     """
     n = system.n_atoms
     b = system.bonds.atoms

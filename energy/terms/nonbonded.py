@@ -29,7 +29,28 @@ def exception_energies(system, positions, settings: EnergySettings, box=None):
     """Coulomb, vdW and distance of every exception pair, each (n_exceptions,); kcal/mol, A.
 
     Exception pairs use plain (or distance-dependent) Coulomb and the chosen vdW form with their
-    own parameters, with no cutoff and no switching (docs/physics.md)."""
+    own parameters, with no cutoff and no switching (docs/physics.md).
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        ``exception_pairs``, ``exception_qq`` (e^2), ``exception_rmin`` (A) and ``exception_eps``
+        (kcal/mol) are read.
+    positions : (n_atoms, 3) float64
+        Atom positions, A.
+    settings : EnergySettings
+        Dielectric, electrostatics model (distance-dependent or plain) and vdW model.
+    box : (6,) float or None, optional
+        Unit cell ``[a, b, c, alpha, beta, gamma]`` (A, degrees) for the minimum image of each
+        pair, or None (default).
+
+    Returns
+    -------
+    coulomb, vdw : (n_exceptions,) float64
+        Energy of each exception pair, kcal/mol.
+    distance : (n_exceptions,) float64
+        Distance of each exception pair, A.
+    """
     pairs = system.exception_pairs
     if len(pairs) == 0:
         z = np.zeros(0)
@@ -43,21 +64,28 @@ def exception_energies(system, positions, settings: EnergySettings, box=None):
 
 
 def plain_pair_energies(r, qq, rmin, eps, vdw: str = "lj", exp6_alpha: float | None = None):
-    """Coulomb and repulsion-dispersion energy of atom pairs with the engine's own pair forms,
-    plain Coulomb (relative dielectric 1), no cutoff and no switching.
+    """Coulomb and repulsion-dispersion energy of atom pairs with the engine's own pair forms.
+
+    Plain Coulomb (relative dielectric 1), no cutoff and no switching.
 
     Parameters
     ----------
-    r : (n,) float64 distances, A.
-    qq : (n,) float64 charge products, e^2.
-    rmin, eps : (n,) float64 pair Rmin (A) and well depth (kcal/mol, >= 0).
-    vdw : "lj" or "exp6" (:class:`~energy.model.settings.EnergySettings`).
-    exp6_alpha : exp-6 steepness (default: the settings' default).
+    r : (n,) float64
+        Distances, A.
+    qq : (n,) float64
+        Charge products, e^2.
+    rmin, eps : (n,) float64
+        Pair Rmin (A) and well depth (kcal/mol, >= 0).
+    vdw : str, optional
+        ``"lj"`` (default) or ``"exp6"`` (:class:`~energy.model.settings.EnergySettings`).
+    exp6_alpha : float or None, optional
+        Exp-6 steepness (default: the settings' default).
 
     Returns
     -------
-    (coulomb, vdw): two (n,) float64 arrays, kcal/mol.  A pair with ``eps == 0`` has no
-    repulsion-dispersion energy at any distance (0.0, also at r = 0).
+    coulomb, vdw : (n,) float64
+        Energies, kcal/mol.  A pair with ``eps == 0`` has no repulsion-dispersion energy at any
+        distance (0.0, also at r = 0).
     """
     r = np.ascontiguousarray(r, np.float64)
     n = len(r)

@@ -107,6 +107,16 @@ _DERIVED = {"total": ("total", "Total"), "bonded": ("bonded", "Bonded (all bonde
 def register(term: Term) -> Term:
     """Add ``term`` (a bonded term goes after the last bonded one, keeping report order).
 
+    Parameters
+    ----------
+    term : Term
+        A bonded term whose tables no other term uses.
+
+    Returns
+    -------
+    Term
+        ``term`` itself.
+
     Raises
     ------
     ValueError
@@ -127,19 +137,46 @@ def register(term: Term) -> Term:
 
 
 def unregister(name: str) -> None:
-    """Remove a term added with :func:`register` (the built-in terms stay)."""
+    """Remove a term added with :func:`register` (the built-in terms stay).
+
+    Parameters
+    ----------
+    name : str
+        Name of the term; a name no term has is ignored.
+
+    Raises
+    ------
+    ValueError
+        If ``name`` is a built-in term.
+    """
     if name in {t.name for t in _BUILTIN}:
         raise ValueError(f"{name!r} is a built-in term")
     _terms[:] = [t for t in _terms if t.name != name]
 
 
 def terms() -> tuple:
-    """Every registered :class:`Term`, in report order."""
+    """Every registered :class:`Term`, in report order.
+
+    Returns
+    -------
+    tuple of Term
+        Bonded terms first, then ``coulomb`` and ``lj``.
+    """
     return tuple(_terms)
 
 
 def term(name: str) -> Term:
     """The :class:`Term` called ``name``.
+
+    Parameters
+    ----------
+    name : str
+        Term name (result key), e.g. ``"angle"``.
+
+    Returns
+    -------
+    Term
+        The registered term.
 
     Raises
     ------
@@ -153,12 +190,29 @@ def term(name: str) -> Term:
 
 
 def bonded_tables() -> tuple:
-    """``(term name, TableForm)`` of every bonded table, in report order."""
+    """``(term name, TableForm)`` of every bonded table, in report order.
+
+    Returns
+    -------
+    tuple of (str, TableForm)
+        One entry per table (a term with two tables, such as ``improper``, gives two).
+    """
     return tuple((t.name, f) for t in _terms for f in t.tables)
 
 
 def table_form(attr: str) -> TableForm | None:
-    """The :class:`TableForm` of the system table ``attr``, or None if no term uses it."""
+    """The :class:`TableForm` of the system table ``attr``, or None if no term uses it.
+
+    Parameters
+    ----------
+    attr : str
+        System table name, e.g. ``"bonds"``.
+
+    Returns
+    -------
+    TableForm or None
+        The form that evaluates that table.
+    """
     for t in _terms:
         for f in t.tables:
             if f.attr == attr:
@@ -167,29 +221,72 @@ def table_form(attr: str) -> TableForm | None:
 
 
 def table_of(system, form: TableForm) -> TermTable:
-    """The system's table for ``form`` (an empty one when the system has none of it)."""
+    """The system's table for ``form`` (an empty one when the system has none of it).
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system.
+    form : TableForm
+        A registered table form.
+
+    Returns
+    -------
+    TermTable
+        ``system.table(form.attr)``, or an empty (0, ``form.width``) table with ``form.columns``.
+    """
     table = system.table(form.attr)
     return TermTable.empty(form.width, *form.columns) if table is None else table
 
 
 def short_label(name: str) -> str:
-    """Short label of a term or of ``total``/``bonded``/``nonbonded``; unknown names are
-    returned as they are (a label is never a reason to fail)."""
+    """Short label of a term or of ``total``/``bonded``/``nonbonded``.
+
+    Unknown names are returned as they are (a label is never a reason to fail).
+
+    Parameters
+    ----------
+    name : str
+        Term name or ``total``, ``bonded``, ``nonbonded``.
+
+    Returns
+    -------
+    str
+        The short label (term bars, column titles), or ``name``.
+    """
     if name in _DERIVED:
         return _DERIVED[name][0]
     return next((t.short_label for t in _terms if t.name == name), name)
 
 
 def long_label(name: str) -> str:
-    """Long label of a term or of ``total``/``bonded``/``nonbonded`` (see :func:`short_label`)."""
+    """Long label of a term or of ``total``/``bonded``/``nonbonded`` (see :func:`short_label`).
+
+    Parameters
+    ----------
+    name : str
+        Term name or ``total``, ``bonded``, ``nonbonded``.
+
+    Returns
+    -------
+    str
+        The long label (menus, legends), or ``name`` when unknown.
+    """
     if name in _DERIVED:
         return _DERIVED[name][1]
     return next((t.long_label for t in _terms if t.name == name), name)
 
 
 def map_quantities() -> dict:
-    """Quantity key -> long label of every quantity a residue-pair map can show: the total,
-    the nonbonded and bonded sums, and each term (read from the registry when called)."""
+    """Quantity key -> long label of every quantity a residue-pair map can show.
+
+    The total, the nonbonded and bonded sums, and each term (read from the registry when called).
+
+    Returns
+    -------
+    dict of str to str
+        In the order ``total``, ``nonbonded``, the nonbonded terms, ``bonded``, the bonded terms.
+    """
     out = {"total": long_label("total"), "nonbonded": long_label("nonbonded")}
     out.update({name: long_label(name) for name in NONBONDED_TERMS})
     out["bonded"] = long_label("bonded")
@@ -224,6 +321,25 @@ class TermNames(Sequence):
         return name in self._names()
 
     def index(self, name, *args) -> int:
+        """Position of ``name`` in the view (like ``tuple.index``).
+
+        Parameters
+        ----------
+        name : str
+            A term name (or an extra name such as ``total``).
+        *args : int
+            Optional ``start`` and ``stop``, as for ``tuple.index``.
+
+        Returns
+        -------
+        int
+            Index of the first occurrence.
+
+        Raises
+        ------
+        ValueError
+            If ``name`` is not in the view.
+        """
         return self._names().index(name, *args)
 
     def __add__(self, other):
