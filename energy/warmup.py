@@ -7,10 +7,15 @@ up front on a three-atom system, so that ``timings.compute`` measures the comput
 """
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 
+from energy.analysis.pair_statistics import PairStatistics
+from energy.decomposition.pipeline import compute
 from energy.model.settings import EnergySettings
 from energy.model.system import Frame, MolecularSystem, ResidueTable, TermTable
+from energy.terms.nonbonded import KernelConstants, pair_energies
 
 _prepared: set = set()
 
@@ -42,7 +47,6 @@ def prepare_kernels(settings: EnergySettings | None = None) -> None:
     all of them (used once after installation to fill the cache).
     """
     global _prepared
-    from energy.decomposition.pipeline import compute
     system, frame = _toy_system()
     wanted = {"all"} if settings is None else {"cutoff" if settings.cutoff_angstrom else "none"}
     todo = ({"none", "cutoff"} if "all" in wanted else wanted) - _prepared
@@ -54,10 +58,7 @@ def prepare_kernels(settings: EnergySettings | None = None) -> None:
                                               switch_angstrom=8.0))
         compute(system, Frame(frame.positions), EnergySettings(cutoff_angstrom=10.0))
     if "all" in wanted and "statistics" not in _prepared:  # trajectory statistics kernels
-        import dataclasses
 
-        from energy.analysis.pair_statistics import PairStatistics
-        from energy.terms.nonbonded import KernelConstants, pair_energies
         pairs = (plain or compute(system, frame, EnergySettings())).residue_pairs
         # numba compiles a separate variant for read-only arrays: the results hold read-only
         # columns, tables built elsewhere (and the atom-pair listings of the window) writable.

@@ -8,10 +8,12 @@ from __future__ import annotations
 import threading
 import time
 import traceback
+from dataclasses import dataclass
 
 from PySide6.QtCore import QObject, QThread, Signal
 
-from app.state.document import LoadSpec, Snapshot
+from app.state.document import Snapshot
+from energy.analysis.compare import compare_results
 from energy.decomposition.pipeline import compute_steps
 from energy.errors import EnergyError
 from energy.io.loaders import load_system
@@ -27,8 +29,20 @@ def failure_message(exc: BaseException) -> tuple[str, str]:
         return f"{name + ': ' if name else ''}{exc.strerror or exc}", ""
     return f"unexpected error: {exc}", traceback.format_exc()
 
+
+
 class Cancelled(Exception):
     pass
+
+
+@dataclass(frozen=True)
+class JobResult:
+    """What a main job produced: the snapshots in job order, and the comparison of ``pair``
+    (first, second snapshot) when the job compared two structures."""
+
+    snapshots: list
+    comparison: object = None
+    pair: tuple | None = None
 
 
 class EnergyWorker(QObject):
@@ -41,14 +55,19 @@ class EnergyWorker(QObject):
 
     progress = Signal(int, int)       # done, total (total 0: busy, no estimate)
     phase = Signal(str)
-    finished = Signal(object)         # list[Snapshot]
+    finished = Signal(object)         # JobResult
     failed = Signal(str, str)         # message, details
     cancelled = Signal()
 
-    def __init__(self, jobs, settings):
+    def __init__(self, jobs, settings, compare_with=None):
+        """``compare_with``: a :class:`Snapshot` to compare the first computed snapshot with
+        (first = ``compare_with``, second = the new one); with two jobs and ``compare_with``
+        None, the two new snapshots are compared.  The comparison is attached to the result
+        (:class:`JobResult`), so it never runs on the GUI thread."""
         super().__init__()
         self._jobs = list(jobs)
         self._settings = settings
+        self._compare_with = compare_with
         self._cancel = threading.Event()
         self.elapsed = 0.0
 
@@ -82,17 +101,19 @@ class EnergyWorker(QObject):
                         break
                     self.progress.emit(int(done), int(total))
                 out.append(Snapshot(spec, loaded, result))
+            self._check()
+            pair = ((self._compare_with, out[0]) if self._compare_with is not None
+                    else (out[0], out[1]) if len(out) > 1 else None)
+            comparison = None
+            if pair is not None:
+                self.phase.emit("Comparing")
+                comparison = compare_results(pair[0].system, pair[0].result, pair[1].system, pair[1].result)
             self.elapsed = time.perf_counter() - t0
-            self.finished.emit(out)
+            self.finished.emit(JobResult(out, comparison, pair))
         except Cancelled:
             self.cancelled.emit()
-        except EnergyError as exc:
-            self.failed.emit(str(exc), "")
-        except OSError as exc:
-            name = getattr(exc, "filename", None)
-            self.failed.emit(f"{name + ': ' if name else ''}{exc.strerror or exc}", "")
-        except Exception as exc:  # unexpected: message plus traceback under Details
-            self.failed.emit(f"unexpected error: {exc}", traceback.format_exc())
+        except Exception as exc:  # noqa: BLE001  (every failure reaches the window as a message)
+            self.failed.emit(*failure_message(exc))
 
 
 class WorkerHandle(QObject):
@@ -124,7 +145,109 @@ class WorkerHandle(QObject):
         return self.thread.wait(ms)
 
 
-__all__ = ["EnergyWorker", "WorkerHandle", "LoadSpec"]
+class JobQueue(QObject):
+    """The window's background work: one *main* job at a time (open, compare, recompute) and
+    any number of *side* jobs (clash check, frames, scans, group energies).
+
+    A main job submitted while another runs cancels it and runs next (the newest request wins).
+    A pending recompute is rebuilt when it starts (``recompute_jobs()``), so it sees the newest
+    snapshots; every main job uses ``settings()`` as it starts.  Signals carry the job kind.
+    """
+
+    progress = Signal(int, int)       # done, total (0: no estimate)
+    phase = Signal(str)
+    finished = Signal(str, object, float)   # kind, JobResult, seconds
+    failed = Signal(str, str, str)          # kind, message, details
+    busyChanged = Signal(bool)
+
+    def __init__(self, settings, recompute_jobs, parent=None):
+        super().__init__(parent)
+        self._settings = settings
+        self._recompute_jobs = recompute_jobs
+        self._job = None
+        self._kind = None
+        self._pending = None
+        self._side = []
+        self._closing = False
+
+    @property
+    def busy(self) -> bool:
+        return self._job is not None
+
+    def submit(self, jobs, kind: str, compare_with=None) -> None:
+        """Run ``jobs`` (``(LoadSpec, LoadedSystem or None)`` pairs) as a main job of ``kind``
+        (``open``, ``compare`` or ``recompute``); see :class:`EnergyWorker` for
+        ``compare_with``."""
+        if self._closing:
+            return
+        if self._job is not None:
+            self._pending = (jobs, kind, compare_with)
+            self._job.cancel()
+            return
+        worker = EnergyWorker(jobs, self._settings(), compare_with)
+        handle = WorkerHandle(worker, self)
+        worker.progress.connect(self.progress)
+        worker.phase.connect(self.phase)
+        self._kind = kind
+        worker.finished.connect(self._on_finished)   # bound methods: queued into the GUI thread
+        worker.failed.connect(self._on_failed)
+        handle.done.connect(self._on_thread_done)
+        self._job = handle
+        self.busyChanged.emit(True)
+        handle.start()
+
+    def cancel(self) -> bool:
+        """Cancel the main job and drop any pending one; True if a job was running."""
+        self._pending = None
+        if self._job is None:
+            return False
+        self._job.cancel()
+        return True
+
+    def _on_finished(self, result) -> None:
+        elapsed = self._job.worker.elapsed if self._job is not None else 0.0
+        self.finished.emit(self._kind, result, elapsed)
+
+    def _on_failed(self, msg, details) -> None:
+        self.failed.emit(self._kind, msg, details)
+
+    def _on_thread_done(self) -> None:
+        self._job = None
+        self.busyChanged.emit(False)
+        if self._pending is not None:
+            jobs, kind, compare_with = self._pending
+            self._pending = None
+            if kind == "recompute":
+                jobs = self._recompute_jobs()
+            if jobs:
+                self.submit(jobs, kind, compare_with)
+
+    def start_side(self, worker, on_done=None) -> WorkerHandle | None:
+        """Run a side worker in its own thread; ``on_done`` after its thread has stopped.
+        Returns None (and starts nothing) once :meth:`shutdown` has begun."""
+        if self._closing:
+            return None
+        handle = WorkerHandle(worker, self)
+        if on_done is not None:
+            handle.done.connect(on_done)
+        handle.done.connect(self._on_side_done)
+        self._side.append(handle)
+        handle.start()
+        return handle
+
+    def _on_side_done(self) -> None:
+        self._side = [h for h in self._side if h.thread.isRunning()]
+
+    def shutdown(self, extra_handles=(), ms: int = 5000) -> None:
+        """Stop accepting work, cancel everything and wait for every thread to end."""
+        self._closing = True
+        self._pending = None
+        for handle in [self._job, *self._side, *extra_handles]:
+            if handle is not None:
+                handle.wait(ms)
+
+
+__all__ = ["EnergyWorker", "JobQueue", "JobResult", "WorkerHandle", "CallWorker", "TrajectoryWorker"]
 
 
 class CallWorker(QObject):

@@ -12,7 +12,7 @@ from app.gui import exports
 from app.gui.controllers.checks import ChecksController
 from app.gui.controllers.trajectory import TrajectoryController
 from app.gui.dialogs.errors import show_error
-from app.gui.jobs import CallWorker, EnergyWorker, WorkerHandle
+from app.gui.jobs import CallWorker, JobQueue, WorkerHandle
 from app.gui.models.atom_table import pair_contributions
 from app.gui.selection import SelectionModel
 from app.gui.settings import AppSettings
@@ -61,9 +61,13 @@ class MainWindow(QMainWindow):
         self.second = None        # compare mode: the second structure
         self.dataset = None
         self.last_compute_s = None
-        self._job = None
-        self._pending = None
-        self._side_jobs = []
+        self.comparison = None    # compare mode: energy.analysis.compare.Comparison of the two
+        self._comparison_pair = None
+        self.jobs = JobQueue(lambda: self.energy_settings, self._recompute_jobs, self)
+        self.jobs.progress.connect(self._on_progress)
+        self.jobs.finished.connect(self._on_finished)
+        self.jobs.failed.connect(self._on_failed)
+        self.jobs.busyChanged.connect(self._on_busy)
 
         self.map = PairMapView(self.selection)
         self.setCentralWidget(self.map)
@@ -108,6 +112,7 @@ class MainWindow(QMainWindow):
         self.resizeDocks([self.docks["atoms"], self.docks["profile"]], [300, 420], Qt.Orientation.Vertical)
 
         self._build_status()
+        self.jobs.phase.connect(self.phase_label.setText)
         self._build_menus()
         self.frame_toolbar = QToolBar("Frames"); self.frame_toolbar.setObjectName("toolbar_frames")
         self.frame_toolbar.setMovable(False)
@@ -218,11 +223,8 @@ class MainWindow(QMainWindow):
     def closeEvent(self, ev) -> None:
         self.app_settings.store.setValue("window/geometry", self.saveGeometry())
         self.app_settings.store.setValue("window/state", self.saveState())
-        self._closing = True
         self.frame_bar.stop()
-        for handle in [self._job, *self._side_jobs]:
-            if handle is not None:
-                handle.wait(5000)
+        self.jobs.shutdown()
         super().closeEvent(ev)
 
     # -- opening ---------------------------------------------------------------------------
@@ -236,7 +238,10 @@ class MainWindow(QMainWindow):
         self.open_spec(LoadSpec.from_files(files))
 
     def open_spec(self, spec: LoadSpec, compare: bool = False) -> None:
-        self._start([(spec, None)], "compare" if compare else "open")
+        if compare:
+            self.jobs.submit([(spec, None)], "compare", compare_with=self.snapshot)
+        else:
+            self.jobs.submit([(spec, None)], "open")
 
     def open_dialog(self, compare: bool = False) -> None:
         from app.gui.dialogs.open_dialog import OpenStructureDialog
@@ -263,31 +268,19 @@ class MainWindow(QMainWindow):
             self.second = None
             self._show()
 
-    # -- background work --------------------------------------------------------------------
+    # -- background work (app.gui.jobs.JobQueue) -------------------------------------------
     @property
     def busy(self) -> bool:
-        return self._job is not None
+        return self.jobs.busy
 
-    def _start(self, jobs, kind) -> None:
-        if self._job is not None:
-            self._pending = (jobs, kind)
-            self._job.cancel()
-            return
-        worker = EnergyWorker(jobs, self.energy_settings)
-        handle = WorkerHandle(worker, self)
-        worker.progress.connect(self._on_progress)
-        worker.phase.connect(self.phase_label.setText)
-        self._job_kind = kind
-        worker.finished.connect(self._on_finished)   # bound methods: queued into the GUI thread
-        worker.failed.connect(self._on_failed)
-        handle.done.connect(self._on_thread_done)
-        self._job = handle
+    def _on_busy(self, busy: bool) -> None:
+        self.phase_label.setText("")
         for w in (self.phase_label, self.progress, self.cancel_button):
-            w.setVisible(True)
-        self.progress.setRange(0, 0)
+            w.setVisible(busy)
+        if busy:
+            self.progress.setRange(0, 0)
         self._update_actions()
-        self.busyChanged.emit(True)
-        handle.start()
+        self.busyChanged.emit(busy)
 
     def _on_progress(self, done, total) -> None:
         if total <= 0:
@@ -296,29 +289,15 @@ class MainWindow(QMainWindow):
             self.progress.setRange(0, total)
             self.progress.setValue(done)
 
-    def _on_thread_done(self) -> None:
-        self._job = None
-        for w in (self.phase_label, self.progress, self.cancel_button):
-            w.setVisible(False)
-        self._update_actions()
-        self.busyChanged.emit(False)
-        if self._pending is not None:
-            jobs, kind = self._pending
-            self._pending = None
-            if kind == "recompute":
-                jobs = self._recompute_jobs()
-            if jobs:
-                self._start(jobs, kind)
-
     def cancel(self) -> None:
-        self._pending = None
-        if self._job is not None:
-            self._job.cancel()
+        if self.jobs.cancel():
             self.statusBar().showMessage("Computation cancelled; the previous result stays on screen", 5000)
 
-    def _on_finished(self, snaps) -> None:
-        kind = self._job_kind
-        self.last_compute_s = self._job.worker.elapsed if self._job is not None else None
+    def _on_finished(self, kind, job, elapsed) -> None:
+        snaps = job.snapshots
+        self.last_compute_s = elapsed
+        if job.comparison is not None:
+            self.comparison, self._comparison_pair = job.comparison, job.pair
         if kind == "open":
             self.snapshot, self.second = snaps[0], None
             self.app_settings.add_recent(snaps[0].spec.as_dict())
@@ -344,8 +323,7 @@ class MainWindow(QMainWindow):
         self.snapshot = snap
         self._show(keep_view=True)
 
-    def _on_failed(self, msg, details) -> None:
-        kind = self._job_kind
+    def _on_failed(self, kind, msg, details) -> None:
         what = {"open": "Could not open the structure", "compare": "Could not open the second structure",
                 "recompute": "Could not compute"}[kind]
         self.computeFailed.emit(msg)
@@ -357,7 +335,7 @@ class MainWindow(QMainWindow):
     def recompute(self) -> None:
         jobs = self._recompute_jobs()
         if jobs:
-            self._start(jobs, "recompute")
+            self.jobs.submit(jobs, "recompute")
 
     def set_energy_settings(self, settings) -> None:
         if settings == self.energy_settings:
@@ -380,8 +358,7 @@ class MainWindow(QMainWindow):
     def _show(self, keep_view: bool = False) -> None:
         snap = self.snapshot
         if self.second is not None:
-            comparison = compare_results(snap.system, snap.result, self.second.system, self.second.result)
-            ds = Dataset.from_comparison(comparison, snap, self.second)
+            ds = Dataset.from_comparison(self._current_comparison(), snap, self.second)
         else:
             ds = self.trajectory.mean_dataset(snap) or Dataset.from_snapshot(snap)
         keep = self.selection.pair
@@ -425,6 +402,17 @@ class MainWindow(QMainWindow):
             self.compute_groups(*self.selection.groups)
         self._update_actions()
         self.datasetChanged.emit()
+
+    def _current_comparison(self):
+        """The comparison of the snapshot and the second structure: the one the job computed in
+        the background, or (when another frame of a trajectory replaced the snapshot since)
+        computed now."""
+        pair = self._comparison_pair
+        if self.comparison is None or pair is None or pair[0] is not self.snapshot or pair[1] is not self.second:
+            self.comparison = compare_results(self.snapshot.system, self.snapshot.result,
+                                              self.second.system, self.second.result)
+            self._comparison_pair = (self.snapshot, self.second)
+        return self.comparison
 
     def _update_actions(self) -> None:
         have = self.dataset is not None
@@ -482,33 +470,19 @@ class MainWindow(QMainWindow):
         self.selection.set_groups(a, b)
         snaps = [s for s in (self.snapshot, self.second) if s is not None]
         worker = CallWorker(_group_energy, snaps, a, b)
-        handle = WorkerHandle(worker, self)
         worker.finished.connect(self._on_groups)
         worker.failed.connect(self._on_groups_failed)
-        handle.done.connect(self._on_side_done)
-        self._side_jobs.append(handle)
-        self.roster.show_group_result("computing…")
-        handle.start()
+        if self.start_side(worker) is not None:
+            self.roster.show_group_result("computing…")
 
     def _on_groups_failed(self, msg, _details) -> None:
         self.roster.show_group_result(f"<span style='color:#b2182b'>{msg}</span>")
 
-    def start_side(self, worker, on_done=None) -> WorkerHandle:
+    def start_side(self, worker, on_done=None) -> WorkerHandle | None:
         """Run a side worker (clash check, frame, scan, ...) in its own thread; ``on_done`` after
         its thread has stopped.  The window waits for every side job when it closes, and starts
         none after that (returns None)."""
-        if getattr(self, "_closing", False):
-            return None
-        handle = WorkerHandle(worker, self)
-        if on_done is not None:
-            handle.done.connect(on_done)
-        handle.done.connect(self._on_side_done)
-        self._side_jobs.append(handle)
-        handle.start()
-        return handle
-
-    def _on_side_done(self) -> None:
-        self._side_jobs = [h for h in self._side_jobs if h.thread.isRunning()]
+        return self.jobs.start_side(worker, on_done)
 
     def _on_groups(self, results) -> None:
         self._group_results = results

@@ -31,9 +31,14 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from energy._kernels.geometry import minimum_image
 from energy.analysis.pair_statistics import COLUMNS, PairStatistics
+from energy.decomposition.atom_pairs import interaction_energy
+from energy.decomposition.pipeline import compute, run_to_end
 from energy.errors import EnergyError
-from energy.io.coordinates import frame_from_timestep
+from energy.io.coordinates import frame_from_timestep, open_coordinates
+from energy.io.loaders import load_system
+from energy.io.selection import select_atoms, universe_for
 from energy.model.settings import EnergySettings
 from energy.model.system import Frame
 
@@ -144,7 +149,6 @@ def parse_frames(text: str | None, n_frames: int) -> list[int]:
 
 def open_trajectory(path: str, n_atoms: int, names):
     """An MDAnalysis Universe over the trajectory, checked against the topology."""
-    from energy.io.coordinates import open_coordinates
     return open_coordinates(path, n_atoms, names, "topology", "the trajectory")
 
 
@@ -154,7 +158,6 @@ class TrajectorySource:
     def __init__(self, request: TrajectoryRequest, loaded=None):
         """``loaded``: the system already loaded for ``request`` (a :class:`LoadedSystem`), or
         None to load it here."""
-        from energy.io.loaders import load_system
 
         self.request = request
         if loaded is None:
@@ -188,7 +191,6 @@ class TrajectorySource:
 
     # -- one frame ------------------------------------------------------------------------
     def _pair_distances(self, frame: Frame, periodic: bool) -> np.ndarray:
-        from energy._kernels.geometry import minimum_image
         out = np.full(len(self.request.pairs), np.nan)
         x = frame.positions
         for k, (i, j) in enumerate(self.request.pairs):
@@ -209,8 +211,6 @@ class TrajectorySource:
         1-4 exceptions included, belongs to the residue pair of its atoms), without a second
         atom-pair pass.  Otherwise :func:`energy.decomposition.atom_pairs.interaction_energy` sums the atom pairs.
         """
-        from energy.decomposition.atom_pairs import interaction_energy
-        from energy.io.selection import select_atoms, universe_for
         if self._sel_universe is None:
             self._sel_universe = universe_for(self.system, frame)
         u = self._sel_universe
@@ -239,7 +239,6 @@ class TrajectorySource:
 
     def evaluate(self, frame: Frame):
         """``(FrameRecord, ResiduePairEnergies)`` of one frame."""
-        from energy.decomposition.pipeline import compute
         t0 = time.perf_counter()
         settings = self.request.settings
         result = compute(self.system, frame, settings)
@@ -444,7 +443,6 @@ class TrajectoryScan:
 
     def run(self, progress=None) -> TrajectoryResult:
         """Run to the end; ``progress(done, total)`` after each frame."""
-        from energy.decomposition.pipeline import run_to_end
         return run_to_end(self.steps(), progress)
 
     def result(self) -> TrajectoryResult:

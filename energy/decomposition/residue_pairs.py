@@ -14,7 +14,9 @@ from dataclasses import dataclass
 from itertools import combinations
 
 import numpy as np
+import scipy.sparse as sp
 
+from energy._kernels.csr import PAIR_INDEX, accumulate, locate_pairs, zeros_in_parallel
 from energy._kernels.pair_key import pair_keys, split_keys  # noqa: F401 (pair_keys: public here)
 from energy.terms import registry
 from energy.terms.registry import BONDED_TERMS, TERMS
@@ -107,7 +109,6 @@ class ResiduePairEnergies:
     def matrix(self, quantity: str = "total"):
         """Symmetric sparse (n_residues, n_residues) scipy CSR matrix; the upper triangle sums to
         the total."""
-        import scipy.sparse as sp
         v = self.column(quantity)
         n = self.n_residues
         off = self.pair_i != self.pair_j
@@ -173,7 +174,6 @@ def assemble(n_residues: int, base_i: np.ndarray, base_j: np.ndarray, row_start:
     are dropped, unless they are few (copying then costs more than keeping them; they hold zeros
     and never reach the reports, which list nonzero entries).
     """
-    from energy._kernels.csr import accumulate, locate_pairs, zeros_in_parallel
     located = [locate_pairs(row_start, base_j, np.ascontiguousarray(pi, np.intp),
                             np.ascontiguousarray(pj, np.intp)) for _, pi, pj, _ in contributions]
     if any((loc < 0).any() for loc in located):
@@ -205,7 +205,6 @@ def _assemble_with_new_rows(n_residues, base_i, base_j, base_values, base_min_he
                             contributions) -> ResiduePairEnergies:
     """Slow path: some contributions fall on residue pairs that were not examined (e.g. a bonded
     term spanning residues farther apart than the cutoff); add their rows, then merge."""
-    from energy._kernels.csr import PAIR_INDEX
     n = np.int64(n_residues)
     keys = pair_keys(base_i, base_j, n)
     extra = [pair_keys(pi, pj, n) for _, pi, pj, _ in contributions]

@@ -10,11 +10,8 @@ import os
 
 import numpy as np
 
-from energy.analysis.trajectory import (
-    COLUMNS,
-    SELECTION_COLUMNS,
-    TrajectoryRequest,
-)
+from energy.analysis.trajectory import COLUMNS, SELECTION_COLUMNS, TrajectoryRequest
+from energy.output.report import UNITS, residue_records
 
 FRAMES_CSV = "frames.csv"
 PAIR_FRAMES_CSV = "pair_frames.csv"
@@ -109,7 +106,6 @@ def _kept_pairs(stats) -> np.ndarray:
 
 
 def trajectory_document(result, scan, execution: dict, interrupted: bool, timings: dict) -> dict:
-    from energy.output.report import UNITS, residue_records
     system, st, req = result.system, result.stats, result.request
     finite = lambda x: float(x) if math.isfinite(float(x)) else None  # noqa: E731
     totals = result.per_frame_totals()

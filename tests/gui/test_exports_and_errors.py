@@ -174,7 +174,7 @@ def test_event_loop_stays_responsive_while_computing(qtbot, window, water_box):
     clock.restart()          # ... and every gap from the job's start on counts
     t0 = time.perf_counter()
     with qtbot.waitSignal(window.computeFinished, timeout=60000):
-        window._start([(water_box[0], None)], "open")
+        window.jobs.submit([(water_box[0], None)], "open")
         compute_started = time.perf_counter()
     timer.stop()
     assert window.dataset.n == 2798
