@@ -41,7 +41,7 @@ class FrameBar(QWidget):
         self.forward = QToolButton(); self.forward.setText("▶"); self.forward.setToolTip("Next frame")
         self.last = QToolButton(); self.last.setText("▶|"); self.last.setToolTip("Last frame")
         self.slider = QSlider(Qt.Orientation.Horizontal); self.slider.setObjectName("frameSlider")
-        self.slider.setMinimumWidth(260)
+        self.slider.setMinimumWidth(140)
         self.spin = QSpinBox(); self.spin.setObjectName("frameSpin"); self.spin.setPrefix("frame ")
         self.of_label = QLabel("")
         self.this_frame = QRadioButton("This frame"); self.this_frame.setObjectName("modeFrame")
