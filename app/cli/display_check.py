@@ -248,3 +248,16 @@ def diagnose(environ=None) -> str | None:
         return None
     first = checks[0]
     return install_advice(first.missing, first.platform)
+
+
+def main() -> int:
+    """``python -m app.cli.display_check``: print the advice and exit 2, or exit 0 silently."""
+    advice = diagnose()
+    if advice:
+        print(f"tessera: {advice}", file=sys.stderr)
+        return 2
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())

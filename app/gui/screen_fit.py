@@ -27,7 +27,7 @@ LEFT_COLUMN = 300
 #: The window may never need more than this width (issue 21: at most 1,024 px).
 MAX_MINIMUM_WIDTH = 1024
 #: Minimum width of each dock (px): narrower than this a panel stops being usable.
-DOCK_MIN_WIDTH = {"roster": 240, "settings": 240, "clashes": 260, "atoms": 260, "profile": 260,
+DOCK_MIN_WIDTH = {"roster": 200, "settings": 220, "clashes": 220, "atoms": 230, "profile": 230,
                   "ledger": 380, "bars": 300, "models": 380, "series": 300}
 #: Height of the window's chrome around the map's plot: menu bar, tool bar, status bar, the
 #: bottom docks' title bars, the map's control bar and hover line (px, measured under Xvfb at

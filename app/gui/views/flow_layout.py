@@ -136,3 +136,13 @@ class FlowLayout(QLayout):
                         x += hint.width() + gap
             y += height + gap
         return y - gap - rect.y() + m.bottom()
+
+
+def compact_combo(box, chars: int) -> None:
+    """Let ``box`` be as narrow as ``chars`` characters (longer entries are elided in the box,
+    shown whole in its list and in its tool tip) instead of as wide as its longest entry."""
+    from PySide6.QtWidgets import QComboBox
+    box.setSizeAdjustPolicy(QComboBox.SizeAdjustPolicy.AdjustToMinimumContentsLengthWithIcon)
+    box.setMinimumContentsLength(chars)
+    box.setToolTip(box.currentText())
+    box.currentTextChanged.connect(box.setToolTip)

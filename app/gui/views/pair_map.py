@@ -18,7 +18,7 @@ from PySide6.QtWidgets import QComboBox, QLabel, QToolTip, QVBoxLayout, QWidget
 
 import resources
 from app.gui.models.array_table import format_energy
-from app.gui.views.flow_layout import FlowLayout
+from app.gui.views.flow_layout import FlowLayout, compact_combo
 from energy.analysis.ordering import ORDERS, axis_order_and_tree, dendrogram_segments
 from energy.terms.registry import long_label, map_quantities
 
@@ -134,6 +134,7 @@ class PairMapView(QWidget):
         for p in CLIPS:
             self.clip_box.addItem("full range" if p == 100 else f"{p:g}th percentile", p)
         self.clip_box.setCurrentIndex(CLIPS.index(99.0))
+        compact_combo(self.quantity_box, 16); compact_combo(self.order_box, 20)
         for label, w in (("Show", self.quantity_box), ("Axis order", self.order_box),
                          ("Colour limit", self.clip_box)):
             bar.add_group(QLabel(label), w)

@@ -14,7 +14,7 @@ from PySide6.QtCore import Qt
 from PySide6.QtWidgets import QCheckBox, QComboBox, QLabel, QVBoxLayout, QWidget
 
 from app.gui.models.array_table import format_energy
-from app.gui.views.flow_layout import FlowLayout
+from app.gui.views.flow_layout import FlowLayout, compact_combo
 from energy.decomposition.atom_pairs import pair_curve
 
 E0 = 0.1
@@ -86,6 +86,7 @@ class DistanceProfileView(QWidget):
         for lim in CLIP_LIMITS:
             self.scale_box.addItem(f"Linear, clipped at ±{lim:g}", lim)
         self.info = QLabel(" "); self.info.setObjectName("profileInfo"); self.info.setWordWrap(True)
+        compact_combo(self.scale_box, 12)
         bar = FlowLayout()
         bar.add_group(QLabel("Energy axis"), self.scale_box)
         self.key = QLabel(""); self.key.setObjectName("profileKey"); self.key.setWordWrap(True)

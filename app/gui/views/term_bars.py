@@ -19,6 +19,31 @@ def compact(v: float) -> str:
     return f"{v:.3g}" if a >= 0.01 else f"{v:.2g}"
 
 
+#: Room one energy label of the bottom axis needs (px): fewer ticks when a plot is narrow.
+TICK_ROOM = 46
+
+
+class EnergyTickAxis(pg.AxisItem):
+    """Bottom axis of a term-bar plot: compact labels (``-4k``) and only as many major ticks as
+    fit side by side, so that a narrow plot does not print its labels over each other."""
+
+    def tickValues(self, minVal, maxVal, size):  # noqa: N802 (pyqtgraph's name)
+        levels = super().tickValues(minVal, maxVal, size)
+        if not levels:
+            return levels
+        spacing, values = levels[0]
+        room = max(2, int(size // TICK_ROOM))
+        step = 1
+        while len(values[::step]) > room:
+            step += 1
+        if step > 1:     # keep 0 among the ticks: thin outwards from it
+            values = [v for v in values if round(v / spacing) % step == 0]
+        return [(spacing * step, values)]
+
+    def tickStrings(self, values, scale, spacing):  # noqa: N802
+        return ["0" if v == 0 else compact(float(v)).replace(".0k", "k") for v in values]
+
+
 class TermBarsView(pg.GraphicsLayoutWidget):
     def __init__(self, parent=None):
         super().__init__(parent)
@@ -28,7 +53,7 @@ class TermBarsView(pg.GraphicsLayoutWidget):
         self.titles = {"system": "Whole system", "pair": "Selected pair", "groups": "Group A vs B"}
         self.plots, self.bars, self.texts = {}, {}, {}
         for col, key in enumerate(self.values):
-            p = self.addPlot(row=0, col=col)
+            p = self.addPlot(row=0, col=col, axisItems={"bottom": EnergyTickAxis("bottom")})
             p.setMenuEnabled(False); p.hideButtons(); p.setMouseEnabled(x=False, y=False)
             p.getAxis("left").enableAutoSIPrefix(False)
             p.showGrid(x=True, alpha=0.15)
