@@ -5,8 +5,14 @@ States: the clash scenario on open; the clash pair selected with an atom pair's 
 ledger filtered to chain A - chain B and sorted by total; the map ordered by clustered
 interaction profiles; compare mode (fixed minus clash); the clash check panel with its map rings;
 the model comparison (LJ vs exp-6 severity, electrostatics models); the trajectory with the clash
-pair's time series; the mean over frames.  Run offscreen:
+pair's time series; the mean over frames.
+
+Offscreen, the window is 1600 x 1000 (the README's screenshots):
     QT_QPA_PLATFORM=offscreen .venv/bin/python scripts/screenshots.py [OUT_DIR]
+Under a real X server the window opens as it does for a user, fitted to the screen, and the
+shots show the whole screen, e.g. a 1366 x 768 laptop:
+    xvfb-run -a -s "-screen 0 1366x768x24" env QT_QPA_PLATFORM=xcb \
+        .venv/bin/python scripts/screenshots.py docs/screenshots/1366x768
 """
 from __future__ import annotations
 
@@ -51,9 +57,16 @@ def main(out_dir: str) -> int:
     QSettings.setPath(QSettings.Format.IniFormat, QSettings.Scope.UserScope, tempfile.mkdtemp())
     qapp.setOrganizationName("TesseraScreens"); qapp.setApplicationName("TesseraScreens")
     qapp.setStyle("Fusion")
+    import resources
     from app.gui.main_window import MainWindow
+    qapp.setStyleSheet(resources.text("window.qss"))
+    offscreen = qapp.platformName() == "offscreen"
     w = MainWindow()
-    w.resize(1600, 1000)
+    if offscreen:     # no real screen (the offscreen one is 800 x 600): the README's 1600 x 1000
+        from app.gui import screen_fit
+        w.resize(1600, 1000)
+        screen_fit.arrange_docks(w, w.docks, screen_fit.arrangement_for(w.size()))
+        screen_fit.size_docks(w, w.docks, screen_fit.arrangement_for(w.size()))
     w.show()
     w.open_spec(LoadSpec(str(SCENARIO / "complex_clash.pdb")))
     wait_for(w.computeFinished)
@@ -62,7 +75,9 @@ def main(out_dir: str) -> int:
     def shot(name):
         settle()
         path = out / f"{name}.png"
-        w.grab().save(str(path))
+        # offscreen: the window alone; on a real screen: the whole screen, as a user sees it
+        image = w.grab() if offscreen else w.screen().grabWindow(0)
+        image.save(str(path))
         print("wrote", path)
 
     shot("01_scenario_opened")

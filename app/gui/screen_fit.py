@@ -16,7 +16,8 @@
 from __future__ import annotations
 
 from PySide6.QtCore import QByteArray, QEvent, QObject, QRect, QSize, Qt, QTimer
-from PySide6.QtWidgets import QDockWidget, QMainWindow, QScrollArea, QWidget
+from PySide6.QtGui import QGuiApplication
+from PySide6.QtWidgets import QDockWidget, QMainWindow, QScrollArea, QTabBar, QWidget
 
 #: Up to this available width (or height) the window fills the available area; on larger
 #: screens it takes :data:`LARGE_SCREEN_SHARE` of it, centred (px, device-independent).
@@ -35,6 +36,9 @@ DOCK_MIN_WIDTH = {"roster": 200, "settings": 220, "clashes": 220, "atoms": 230, 
 _CHROME_HEIGHT = 120
 #: Width the map needs beside its square plot: residue labels on the left, colour bar (px).
 _MAP_SIDE_WIDTH = 200
+
+#: Qt platforms without a screen anyone looks at.
+WINDOWLESS = ("offscreen", "minimal")
 
 LEFT = Qt.DockWidgetArea.LeftDockWidgetArea
 RIGHT = Qt.DockWidgetArea.RightDockWidgetArea
@@ -89,8 +93,10 @@ def available_geometry(window: QWidget) -> QRect:
 
 
 def keep_inside(window: QWidget) -> None:
-    """Move and shrink ``window`` so that its frame lies inside its screen's available area."""
-    if window.isMaximized() or window.isFullScreen():
+    """Move and shrink ``window`` so that its frame lies inside its screen's available area
+    (not on Qt's offscreen and minimal platforms: no one sees their screen, and tests and
+    scripts size windows there at will)."""
+    if window.isMaximized() or window.isFullScreen() or QGuiApplication.platformName() in WINDOWLESS:
         return
     avail = available_geometry(window)
     frame = window.frameGeometry()
@@ -140,6 +146,16 @@ class ScreenGuard(QObject):
     def _check(self) -> None:
         if self.window.isVisible():
             keep_inside(self.window)
+            label_dock_tabs(self.window)
+
+
+def label_dock_tabs(window: QMainWindow) -> None:
+    """Give each tab of the tabbed docks its title as tool tip: on a narrow screen Qt elides
+    the titles of the tabs ("Residue r…")."""
+    for bar in window.findChildren(QTabBar):
+        if bar.parent() is window:
+            for i in range(bar.count()):
+                bar.setTabToolTip(i, bar.tabText(i))
 
 
 def scrollable(widget: QWidget) -> QScrollArea:
@@ -185,6 +201,7 @@ def arrange_docks(window: QMainWindow, docks: dict[str, QDockWidget], arrangemen
         dock.show()
     for key in ("ledger", "bars", "atoms", "profile", "roster"):
         d[key].raise_()
+    label_dock_tabs(window)
 
 
 def size_docks(window: QMainWindow, docks: dict[str, QDockWidget], arrangement: str) -> None:

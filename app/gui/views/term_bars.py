@@ -1,6 +1,8 @@
 """Term bars: per-term energies of the whole system, the selected residue pair and A vs B."""
 from __future__ import annotations
 
+import math
+
 import numpy as np
 import pyqtgraph as pg
 
@@ -27,18 +29,16 @@ class EnergyTickAxis(pg.AxisItem):
     """Bottom axis of a term-bar plot: compact labels (``-4k``) and only as many major ticks as
     fit side by side, so that a narrow plot does not print its labels over each other."""
 
-    def tickValues(self, minVal, maxVal, size):  # noqa: N802 (pyqtgraph's name)
-        levels = super().tickValues(minVal, maxVal, size)
-        if not levels:
-            return levels
-        spacing, values = levels[0]
+    def tickSpacing(self, minVal, maxVal, size):  # noqa: N802 (pyqtgraph's name)
+        """One level of ticks, a 1-2-5 step with at most one label per :data:`TICK_ROOM` px."""
+        span = abs(maxVal - minVal)
+        if span == 0 or size <= 0:
+            return super().tickSpacing(minVal, maxVal, size)
         room = max(2, int(size // TICK_ROOM))
-        step = 1
-        while len(values[::step]) > room:
-            step += 1
-        if step > 1:     # keep 0 among the ticks: thin outwards from it
-            values = [v for v in values if round(v / spacing) % step == 0]
-        return [(spacing * step, values)]
+        raw = span / room
+        mag = 10.0 ** math.floor(math.log10(raw))
+        step = next(m * mag for m in (1, 2, 5, 10) if m * mag >= raw)
+        return [(step, 0)]
 
     def tickStrings(self, values, scale, spacing):  # noqa: N802
         return ["0" if v == 0 else compact(float(v)).replace(".0k", "k") for v in values]
