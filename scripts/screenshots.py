@@ -62,8 +62,8 @@ def main(out_dir: str) -> int:
     qapp.setStyleSheet(resources.text("window.qss"))
     offscreen = qapp.platformName() == "offscreen"
     w = MainWindow()
+    from app.gui import screen_fit
     if offscreen:     # no real screen (the offscreen one is 800 x 600): the README's 1600 x 1000
-        from app.gui import screen_fit
         w.resize(1600, 1000)
         screen_fit.arrange_docks(w, w.docks, screen_fit.arrangement_for(w.size()))
         screen_fit.size_docks(w, w.docks, screen_fit.arrangement_for(w.size()))
@@ -112,17 +112,20 @@ def main(out_dir: str) -> int:
     if w.checks.check is None or w.checks.check.report.options.overlap != 0.4:
         wait_for(w.checks.clashesChecked, 20000)
     w.docks["clashes"].raise_()
-    w.resizeDocks([w.docks["clashes"], w.docks["atoms"]], [560, 400], Qt.Orientation.Horizontal)
+    if offscreen:   # the README's 1600 x 1000 layout; on a real screen the user's layout stays
+        w.resizeDocks([w.docks["clashes"], w.docks["atoms"]], [560, 400], Qt.Orientation.Horizontal)
     w.clash_panel.table.selectRow(0)
     i, j = w.selection.pair
     pi, pj = int(w.map.position[i]), int(w.map.position[j])
     w.map.plot.setRange(xRange=(pj - 18, pj + 18), yRange=(pi - 18, pi + 18), padding=0)
     shot("06_clash_check_panel")
-    w.resizeDocks([w.docks["clashes"], w.docks["atoms"]], [300, 460], Qt.Orientation.Horizontal)
+    if offscreen:
+        w.resizeDocks([w.docks["clashes"], w.docks["atoms"]], [300, 460], Qt.Orientation.Horizontal)
     w.fit_map()
     w.docks["models"].raise_()
     w.docks["bars"].hide(); w.docks["series"].hide()     # give the comparison the whole width
-    w.resizeDocks([w.docks["models"]], [330], Qt.Orientation.Vertical)
+    if offscreen:
+        w.resizeDocks([w.docks["models"]], [330], Qt.Orientation.Vertical)
     w.model_panel.compare_button.click()
     wait_for(w.checks.electrostaticsCompared, 30000)
     w.model_panel.severity.selectRow(0)
@@ -130,8 +133,11 @@ def main(out_dir: str) -> int:
     w.docks["bars"].show(); w.docks["series"].show()
     w.docks["roster"].raise_()
     w.docks["ledger"].raise_()
-    w.resizeDocks([w.docks["ledger"], w.docks["bars"]], [700, 900], Qt.Orientation.Horizontal)
-    w.resizeDocks([w.docks["ledger"]], [250], Qt.Orientation.Vertical)
+    if offscreen:
+        w.resizeDocks([w.docks["ledger"], w.docks["bars"]], [700, 900], Qt.Orientation.Horizontal)
+        w.resizeDocks([w.docks["ledger"]], [250], Qt.Orientation.Vertical)
+    else:
+        screen_fit.size_docks(w, w.docks, w.arrangement)
     w.open_spec(LoadSpec(str(SCENARIO / "complex_clash.pdb"), str(SCENARIO / "relax.dcd")))
     wait_for(w.computeFinished)
     if w.trajectory.state.result is None:

@@ -291,7 +291,8 @@ class MainWindow(QMainWindow):
             self.frame_toolbar.setVisible(self.trajectory.active)
             if self.trajectory.active:
                 self.docks["series"].raise_()
-                self.resizeDocks([self.docks["ledger"]], [330], Qt.Orientation.Vertical)
+                self.resizeDocks([self.docks["ledger"]], [screen_fit.trajectory_bottom_height(self.size())],
+                                 Qt.Orientation.Vertical)
         elif kind == "compare":
             self.second = snaps[0]
         else:  # recompute

@@ -52,6 +52,12 @@ def bottom_height(size: QSize) -> int:
     return max(200, min(320, int(size.height() * 0.3)))
 
 
+def trajectory_bottom_height(size: QSize) -> int:
+    """Height of the bottom docks with a trajectory open (the pair's time series needs more):
+    330 px where the window is tall enough, less on a laptop screen."""
+    return max(bottom_height(size), min(330, int(size.height() * 0.38)))
+
+
 def map_width(size: QSize) -> int:
     """Width the map needs in a window of ``size``: its square plot as tall as the room above
     the bottom docks, plus the residue labels and the colour bar (px)."""

@@ -32,6 +32,9 @@ def record_table(name: str, model=None, size_from_rows: int | None = None) -> QT
     t.setTextElideMode(Qt.TextElideMode.ElideRight)
     t.viewport().installEventFilter(ElidedCellTips(t))
     t.viewport().installEventFilter(_RefitOnResize(t))
+    # columns are sized from the first rows: after a sort those are other rows
+    t.horizontalHeader().sortIndicatorChanged.connect(
+        lambda *_: fit_columns(t) if t.property("naturalWidths") is not None else None)
     return t
 
 
