@@ -5,8 +5,14 @@ States: the clash scenario on open; the clash pair selected with an atom pair's 
 ledger filtered to chain A - chain B and sorted by total; the map ordered by clustered
 interaction profiles; compare mode (fixed minus clash); the clash check panel with its map rings;
 the model comparison (LJ vs exp-6 severity, electrostatics models); the trajectory with the clash
-pair's time series; the mean over frames.  Run offscreen:
+pair's time series; the mean over frames.
+
+Offscreen, the window is 1600 x 1000 (the README's screenshots):
     QT_QPA_PLATFORM=offscreen .venv/bin/python scripts/screenshots.py [OUT_DIR]
+Under a real X server the window opens as it does for a user, fitted to the screen, and the
+shots show the whole screen, e.g. a 1366 x 768 laptop:
+    xvfb-run -a -s "-screen 0 1366x768x24" env QT_QPA_PLATFORM=xcb \
+        .venv/bin/python scripts/screenshots.py docs/screenshots/1366x768
 """
 from __future__ import annotations
 
@@ -51,9 +57,16 @@ def main(out_dir: str) -> int:
     QSettings.setPath(QSettings.Format.IniFormat, QSettings.Scope.UserScope, tempfile.mkdtemp())
     qapp.setOrganizationName("TesseraScreens"); qapp.setApplicationName("TesseraScreens")
     qapp.setStyle("Fusion")
+    import resources
     from app.gui.main_window import MainWindow
+    qapp.setStyleSheet(resources.text("window.qss"))
+    offscreen = qapp.platformName() == "offscreen"
     w = MainWindow()
-    w.resize(1600, 1000)
+    from app.gui import screen_fit
+    if offscreen:     # no real screen (the offscreen one is 800 x 600): the README's 1600 x 1000
+        w.resize(1600, 1000)
+        screen_fit.arrange_docks(w, w.docks, screen_fit.arrangement_for(w.size()))
+        screen_fit.size_docks(w, w.docks, screen_fit.arrangement_for(w.size()))
     w.show()
     w.open_spec(LoadSpec(str(SCENARIO / "complex_clash.pdb")))
     wait_for(w.computeFinished)
@@ -62,7 +75,9 @@ def main(out_dir: str) -> int:
     def shot(name):
         settle()
         path = out / f"{name}.png"
-        w.grab().save(str(path))
+        # offscreen: the window alone; on a real screen: the whole screen, as a user sees it
+        image = w.grab() if offscreen else w.screen().grabWindow(0)
+        image.save(str(path))
         print("wrote", path)
 
     shot("01_scenario_opened")
@@ -97,17 +112,20 @@ def main(out_dir: str) -> int:
     if w.checks.check is None or w.checks.check.report.options.overlap != 0.4:
         wait_for(w.checks.clashesChecked, 20000)
     w.docks["clashes"].raise_()
-    w.resizeDocks([w.docks["clashes"], w.docks["atoms"]], [560, 400], Qt.Orientation.Horizontal)
+    if offscreen:   # the README's 1600 x 1000 layout; on a real screen the user's layout stays
+        w.resizeDocks([w.docks["clashes"], w.docks["atoms"]], [560, 400], Qt.Orientation.Horizontal)
     w.clash_panel.table.selectRow(0)
     i, j = w.selection.pair
     pi, pj = int(w.map.position[i]), int(w.map.position[j])
     w.map.plot.setRange(xRange=(pj - 18, pj + 18), yRange=(pi - 18, pi + 18), padding=0)
     shot("06_clash_check_panel")
-    w.resizeDocks([w.docks["clashes"], w.docks["atoms"]], [300, 460], Qt.Orientation.Horizontal)
+    if offscreen:
+        w.resizeDocks([w.docks["clashes"], w.docks["atoms"]], [300, 460], Qt.Orientation.Horizontal)
     w.fit_map()
     w.docks["models"].raise_()
     w.docks["bars"].hide(); w.docks["series"].hide()     # give the comparison the whole width
-    w.resizeDocks([w.docks["models"]], [330], Qt.Orientation.Vertical)
+    if offscreen:
+        w.resizeDocks([w.docks["models"]], [330], Qt.Orientation.Vertical)
     w.model_panel.compare_button.click()
     wait_for(w.checks.electrostaticsCompared, 30000)
     w.model_panel.severity.selectRow(0)
@@ -115,8 +133,11 @@ def main(out_dir: str) -> int:
     w.docks["bars"].show(); w.docks["series"].show()
     w.docks["roster"].raise_()
     w.docks["ledger"].raise_()
-    w.resizeDocks([w.docks["ledger"], w.docks["bars"]], [700, 900], Qt.Orientation.Horizontal)
-    w.resizeDocks([w.docks["ledger"]], [250], Qt.Orientation.Vertical)
+    if offscreen:
+        w.resizeDocks([w.docks["ledger"], w.docks["bars"]], [700, 900], Qt.Orientation.Horizontal)
+        w.resizeDocks([w.docks["ledger"]], [250], Qt.Orientation.Vertical)
+    else:
+        screen_fit.size_docks(w, w.docks, w.arrangement)
     w.open_spec(LoadSpec(str(SCENARIO / "complex_clash.pdb"), str(SCENARIO / "relax.dcd")))
     wait_for(w.computeFinished)
     if w.trajectory.state.result is None:

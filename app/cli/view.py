@@ -13,6 +13,8 @@ from energy.errors import EnergyError
 
 #: Exit status when the window cannot open for want of a display (``make run`` accepts it).
 EXIT_NO_DISPLAY = 3
+#: Exit status when Qt's platform plugin cannot load (missing system libraries).
+EXIT_MISSING_LIBRARIES = 2
 
 
 def configure_parser(p: argparse.ArgumentParser) -> None:
@@ -36,6 +38,11 @@ def run(files) -> int:
               "a window run: tessera scan samples/scenario/complex_clash.pdb (README: 'Headless "
               "commands')", file=sys.stderr)
         return EXIT_NO_DISPLAY
+    from app.cli.display_check import diagnose
+    advice = diagnose()      # before any QApplication: Qt would abort with a generic message
+    if advice:
+        print(f"tessera: {advice}", file=sys.stderr)
+        return EXIT_MISSING_LIBRARIES
     try:
         from app.gui.main import run_app
     except ImportError as exc:

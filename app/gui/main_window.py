@@ -4,12 +4,12 @@ from __future__ import annotations
 import os
 from pathlib import Path
 
-from PySide6.QtCore import QByteArray, Qt, Signal
+from PySide6.QtCore import Qt, Signal
 from PySide6.QtGui import QAction, QKeySequence
 from PySide6.QtWidgets import QDockWidget, QFileDialog, QLabel, QMainWindow, QProgressBar, QPushButton, QToolBar
 
 import resources
-from app.gui import exports
+from app.gui import exports, screen_fit
 from app.gui.controllers.checks import ChecksController
 from app.gui.controllers.trajectory import TrajectoryController
 from app.gui.dialogs.errors import show_error
@@ -99,22 +99,11 @@ class MainWindow(QMainWindow):
                 ("series", "Pair over time", self.time_series, Qt.DockWidgetArea.BottomDockWidgetArea)):
             dock = QDockWidget(title, self)
             dock.setObjectName(f"dock_{key}")
-            dock.setWidget(widget)
+            dock.setWidget(screen_fit.scrollable(widget) if key == "settings" else widget)
             self.addDockWidget(area, dock)
             self.docks[key] = dock
-        self.tabifyDockWidget(self.docks["roster"], self.docks["settings"])
-        self.tabifyDockWidget(self.docks["roster"], self.docks["clashes"])
-        self.docks["roster"].raise_()
-        self.splitDockWidget(self.docks["ledger"], self.docks["bars"], Qt.Orientation.Horizontal)
-        self.tabifyDockWidget(self.docks["ledger"], self.docks["models"])
-        self.tabifyDockWidget(self.docks["bars"], self.docks["series"])
-        self.docks["ledger"].raise_(); self.docks["bars"].raise_()
         self.trajectory = TrajectoryController(self, self.frame_bar, self.time_series)
         self.checks = ChecksController(self, self.clash_panel, self.model_panel)
-        self.resizeDocks([self.docks["roster"], self.docks["atoms"]], [300, 460], Qt.Orientation.Horizontal)
-        self.resizeDocks([self.docks["ledger"]], [250], Qt.Orientation.Vertical)
-        self.resizeDocks([self.docks["ledger"], self.docks["bars"]], [700, 560], Qt.Orientation.Horizontal)
-        self.resizeDocks([self.docks["atoms"], self.docks["profile"]], [300, 420], Qt.Orientation.Vertical)
 
         self._build_status()
         self.jobs.phase.connect(self.phase_label.setText)
@@ -222,18 +211,13 @@ class MainWindow(QMainWindow):
         self.recent_menu.setEnabled(bool(items))
 
     def _restore_layout(self) -> None:
-        geo = self.app_settings.store.value("window/geometry")
-        state = self.app_settings.store.value("window/state")
-        if isinstance(geo, QByteArray):
-            self.restoreGeometry(geo)
-        else:
-            self.resize(1500, 940)
-        if isinstance(state, QByteArray):
-            self.restoreState(state)
+        """Size and place the window on its screen and arrange the docks (app.gui.screen_fit)."""
+        screen_fit.set_dock_minimums(self.docks)
+        self.arrangement = screen_fit.place_window(self, self.docks, self.app_settings.store)
+        self._screen_guard = screen_fit.ScreenGuard(self)
 
     def closeEvent(self, ev) -> None:
-        self.app_settings.store.setValue("window/geometry", self.saveGeometry())
-        self.app_settings.store.setValue("window/state", self.saveState())
+        screen_fit.save_window(self, self.app_settings.store)
         self.frame_bar.stop()
         self.jobs.shutdown()
         super().closeEvent(ev)
@@ -379,7 +363,8 @@ class MainWindow(QMainWindow):
             self.frame_toolbar.setVisible(self.trajectory.active)
             if self.trajectory.active:
                 self.docks["series"].raise_()
-                self.resizeDocks([self.docks["ledger"]], [330], Qt.Orientation.Vertical)
+                self.resizeDocks([self.docks["ledger"]], [screen_fit.trajectory_bottom_height(self.size())],
+                                 Qt.Orientation.Vertical)
         elif kind == "compare":
             self.second = snaps[0]
         else:  # recompute

@@ -4,7 +4,7 @@ from __future__ import annotations
 from PySide6.QtWidgets import QLabel, QVBoxLayout, QWidget
 
 from app.gui.models.atom_table import AtomTableModel
-from app.gui.views.tables import record_table, show_row
+from app.gui.views.tables import fit_columns, record_table, show_row
 
 
 class AtomContributionsView(QWidget):
@@ -25,7 +25,7 @@ class AtomContributionsView(QWidget):
     def show_contributions(self, system, contrib, caption: str) -> None:
         self.model.set_contributions(system, contrib)
         self.caption.setText(caption)
-        self.table.resizeColumnsToContents()
+        fit_columns(self.table)
 
     def _on_row(self, current, _prev) -> None:
         if self._syncing or not current.isValid():

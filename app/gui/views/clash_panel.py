@@ -12,7 +12,6 @@ from PySide6.QtWidgets import (
     QCheckBox,
     QComboBox,
     QDoubleSpinBox,
-    QHBoxLayout,
     QLabel,
     QSplitter,
     QTableView,
@@ -21,7 +20,8 @@ from PySide6.QtWidgets import (
 )
 
 from app.gui.models.array_table import ArrayTableModel, Column
-from app.gui.views.tables import record_table, show_row
+from app.gui.views.flow_layout import FlowLayout
+from app.gui.views.tables import fit_columns, record_table, show_row
 from energy.analysis.clashes import DEFAULT_OVERLAP, ClashOptions
 from energy.output.clash_report import atom_label
 
@@ -63,11 +63,11 @@ class ClashCheckView(QWidget):
         self.counts_model = ArrayTableModel(self)
         self.counts = _table("clashCounts"); self.counts.setModel(self.counts_model)
 
-        top = QHBoxLayout(); top.setContentsMargins(4, 2, 4, 2)
-        top.addWidget(QLabel("Overlap ≥")); top.addWidget(self.overlap)
-        top.addWidget(QLabel("Radii")); top.addWidget(self.radii)
-        top2 = QHBoxLayout(); top2.setContentsMargins(4, 0, 4, 2)
-        top2.addWidget(self.hydrogens); top2.addWidget(self.mark); top2.addStretch(1)
+        top = FlowLayout()
+        top.add_group(QLabel("Overlap ≥"), self.overlap)
+        top.add_group(QLabel("Radii"), self.radii)
+        top2 = FlowLayout(margins=(4, 0, 4, 2))
+        top2.add_group(self.hydrogens); top2.add_group(self.mark)
         split = QSplitter(Qt.Orientation.Vertical)
         split.addWidget(self.table)
         box = QWidget(); bl = QVBoxLayout(box); bl.setContentsMargins(0, 0, 0, 0); bl.setSpacing(1)
@@ -145,8 +145,8 @@ class ClashCheckView(QWidget):
             f"radii, {scope}); {len(check.residue_pairs)} residue pair(s), {len(hit)} residue(s). "
             + ("Pick a row to select it everywhere." if n else "")
             + "".join(f"<br><i>{note}</i>" for note in rep.notes))
-        self.table.resizeColumnsToContents()
-        self.counts.resizeColumnsToContents()
+        fit_columns(self.table)
+        fit_columns(self.counts)
         self._on_atom_pair(self.selection.atom_pair or ())
 
     def _worst_of(self, residue: int) -> float:

@@ -4,12 +4,14 @@ reports back with :meth:`FrameBar.set_shown`, so playing never runs ahead of the
 from __future__ import annotations
 
 from PySide6.QtCore import Qt, QTimer, Signal
+from PySide6.QtGui import QTextDocument
 from PySide6.QtWidgets import (
     QButtonGroup,
     QHBoxLayout,
     QLabel,
     QProgressBar,
     QRadioButton,
+    QSizePolicy,
     QSlider,
     QSpinBox,
     QToolButton,
@@ -17,6 +19,41 @@ from PySide6.QtWidgets import (
 )
 
 PLAY_INTERVAL_MS = 150
+
+
+class ElidedLabel(QLabel):
+    """A one-line label that takes the width it is given: a text too long for it is shown
+    elided (as plain text), whole in its tool tip.  It never sets the window's minimum width."""
+
+    def __init__(self, text: str = "", parent=None):
+        super().__init__(parent)
+        self._full = ""
+        self.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Preferred)
+        self.setMinimumWidth(60)
+        self.set_full_text(text)
+
+    def set_full_text(self, text: str) -> None:
+        self._full = text
+        self._fit()
+
+    def text(self) -> str:
+        """The whole text (what is shown may be elided)."""
+        return self._full
+
+    def resizeEvent(self, ev) -> None:  # noqa: N802 (Qt's name)
+        super().resizeEvent(ev)
+        self._fit()
+
+    def _fit(self) -> None:
+        doc = QTextDocument(); doc.setHtml(self._full)
+        plain = doc.toPlainText()
+        fm = self.fontMetrics()
+        if fm.horizontalAdvance(plain) <= self.width():
+            super().setText(self._full)
+            self.setToolTip("")
+        else:
+            super().setText(fm.elidedText(plain, Qt.TextElideMode.ElideRight, self.width()))
+            self.setToolTip(plain)
 
 
 class FrameBar(QWidget):
@@ -41,30 +78,32 @@ class FrameBar(QWidget):
         self.forward = QToolButton(); self.forward.setText("▶"); self.forward.setToolTip("Next frame")
         self.last = QToolButton(); self.last.setText("▶|"); self.last.setToolTip("Last frame")
         self.slider = QSlider(Qt.Orientation.Horizontal); self.slider.setObjectName("frameSlider")
-        self.slider.setMinimumWidth(260)
+        self.slider.setMinimumWidth(100)
         self.spin = QSpinBox(); self.spin.setObjectName("frameSpin"); self.spin.setPrefix("frame ")
         self.of_label = QLabel("")
         self.this_frame = QRadioButton("This frame"); self.this_frame.setObjectName("modeFrame")
         self.mean = QRadioButton("Mean over frames"); self.mean.setObjectName("modeMean")
         self.this_frame.setChecked(True)
         group = QButtonGroup(self); group.addButton(self.this_frame); group.addButton(self.mean)
-        self.status = QLabel(""); self.status.setObjectName("frameStatus")
+        self.status = ElidedLabel(""); self.status.setObjectName("frameStatus")
         self.scan_progress = QProgressBar(); self.scan_progress.setObjectName("scanProgress")
-        self.scan_progress.setMaximumWidth(170); self.scan_progress.setFormat("scan %v/%m frames")
+        self.scan_progress.setMaximumWidth(170)
+        self.scan_progress.setToolTip("Frames of the trajectory scanned so far")
+        self.scan_progress.setFormat("scan %v/%m")
         self.stop_scan = QToolButton(); self.stop_scan.setObjectName("stopScan"); self.stop_scan.setText("Stop scan")
         self.stop_scan.setToolTip("Stop the trajectory scan; the frames done so far are kept")
         self.stop_scan.clicked.connect(self.stopScanRequested)
         self.set_scanning(False)
 
-        lay = QHBoxLayout(self); lay.setContentsMargins(6, 2, 6, 2)
+        lay = QHBoxLayout(self); lay.setContentsMargins(4, 2, 4, 2); lay.setSpacing(4)
         for w in (self.title, self.first, self.back, self.play, self.forward, self.last):
             lay.addWidget(w)
         lay.addWidget(self.slider, 1)
         lay.addWidget(self.spin); lay.addWidget(self.of_label)
-        lay.addSpacing(12)
-        lay.addWidget(QLabel("Show")); lay.addWidget(self.this_frame); lay.addWidget(self.mean)
-        lay.addSpacing(12)
-        lay.addWidget(self.status)
+        lay.addSpacing(6)
+        lay.addWidget(self.this_frame); lay.addWidget(self.mean)
+        lay.addSpacing(6)
+        lay.addWidget(self.status, 1)
         lay.addWidget(self.scan_progress); lay.addWidget(self.stop_scan)
 
         self.slider.valueChanged.connect(self._on_value)
@@ -119,7 +158,7 @@ class FrameBar(QWidget):
             self.this_frame.setChecked(True)
 
     def set_status(self, text: str) -> None:
-        self.status.setText(text)
+        self.status.set_full_text(text)
 
     def set_scanning(self, on: bool, done: int = 0, total: int = 0) -> None:
         self.scan_progress.setVisible(on); self.stop_scan.setVisible(on)

@@ -7,7 +7,8 @@ from PySide6.QtCore import Qt, Signal
 from PySide6.QtWidgets import QHBoxLayout, QLabel, QPushButton, QSplitter, QTableView, QVBoxLayout, QWidget
 
 from app.gui.models.array_table import ArrayTableModel, Column
-from app.gui.views.tables import record_table
+from app.gui.views.flow_layout import FlowLayout
+from app.gui.views.tables import fit_columns, record_table
 from energy.output.clash_report import atom_label
 
 TOP_CLASHES = 10
@@ -42,8 +43,8 @@ class ModelComparisonView(QWidget):
         self.elec_model = ArrayTableModel(self)
         self.elec = _table("electrostaticsTable"); self.elec.setModel(self.elec_model)
 
-        row = QHBoxLayout(); row.setContentsMargins(0, 0, 0, 0)
-        row.addWidget(QLabel("<b>Electrostatics models</b>")); row.addStretch(1); row.addWidget(self.compare_button)
+        row = FlowLayout(margins=(0, 0, 0, 0))
+        row.add_group(QLabel("<b>Electrostatics models</b>")); row.add_group(self.compare_button, right=True)
         left_w, right_w = QWidget(), QWidget()
         left = QVBoxLayout(left_w); left.setContentsMargins(0, 0, 2, 0)
         left.addWidget(self.severity_caption); left.addWidget(self.severity, 1)
@@ -90,7 +91,7 @@ class ModelComparisonView(QWidget):
             f"<b>Clash severity, LJ 12-6 vs exp-6</b>: top {n} of {len(rep)} clash(es), frame "
             f"{check.frame_index}; exp-6 α = {rep.options.exp6_alpha:.3f}. Sum LJ "
             f"{rep.lj.sum():,.1f}, sum exp-6 {rep.exp6.sum():,.1f} kcal/mol.")
-        self.severity.resizeColumnsToContents()
+        fit_columns(self.severity)
 
     def _on_severity_row(self, current, _prev) -> None:
         if not current.isValid():
@@ -121,7 +122,7 @@ class ModelComparisonView(QWidget):
         self.elec_caption.setText(
             f"Coulomb energy of the top {n} inter-chain pairs (by |Coulomb| now), every model with "
             f"cutoff {c.cutoff:g} Å; ε = 1 except ε = 4r. Pick a row to select the pair.")
-        self.elec.resizeColumnsToContents()
+        fit_columns(self.elec)
 
     def _on_elec_row(self, current, _prev) -> None:
         if not current.isValid():

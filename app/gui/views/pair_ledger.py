@@ -7,7 +7,6 @@ from PySide6.QtWidgets import (
     QAbstractItemView,
     QCheckBox,
     QComboBox,
-    QHBoxLayout,
     QHeaderView,
     QLabel,
     QLineEdit,
@@ -16,7 +15,8 @@ from PySide6.QtWidgets import (
 )
 
 from app.gui.models.pair_table import PairTableModel
-from app.gui.views.tables import record_table
+from app.gui.views.flow_layout import FlowLayout
+from app.gui.views.tables import fit_columns, record_table
 
 ANY = ""
 
@@ -36,12 +36,13 @@ class PairLedgerView(QWidget):
         self.chain_a = QComboBox(); self.chain_b = QComboBox()
         self.hide_self = QCheckBox("Hide within-residue"); self.hide_self.setObjectName("ledgerHideSelf")
         self.count = QLabel("")
-        top = QHBoxLayout(); top.setContentsMargins(4, 2, 4, 2)
-        top.addWidget(self.text, 2)
-        top.addWidget(QLabel("Chain")); top.addWidget(self.chain)
-        top.addWidget(self.between); top.addWidget(self.chain_a); top.addWidget(QLabel("and"))
-        top.addWidget(self.chain_b); top.addWidget(self.hide_self); top.addStretch(1)
-        top.addWidget(self.count)
+        self.text.setMinimumWidth(self.text.fontMetrics().horizontalAdvance(self.text.placeholderText()) + 40)
+        top = FlowLayout()
+        top.add_group(self.text)
+        top.add_group(QLabel("Chain"), self.chain)
+        top.add_group(self.between, self.chain_a, QLabel("and"), self.chain_b)
+        top.add_group(self.hide_self)
+        top.add_group(self.count, right=True)
 
         self.table = record_table("ledgerTable", self.model)
         self.table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.Interactive)
@@ -89,7 +90,7 @@ class PairLedgerView(QWidget):
         else:
             self.table.horizontalHeader().setSortIndicator(-1, Qt.SortOrder.AscendingOrder)
         self._refilter()
-        self.table.resizeColumnsToContents()
+        fit_columns(self.table)
 
     def set_between(self, a: str, b: str, on: bool = True) -> None:
         self.chain_a.setCurrentIndex(max(0, self.chain_a.findData(a)))

@@ -14,10 +14,11 @@ import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import QPointF, QRectF, Qt, Signal
 from PySide6.QtGui import QColor, QCursor, QFont, QFontMetrics
-from PySide6.QtWidgets import QComboBox, QHBoxLayout, QLabel, QToolTip, QVBoxLayout, QWidget
+from PySide6.QtWidgets import QComboBox, QLabel, QToolTip, QVBoxLayout, QWidget
 
 import resources
 from app.gui.models.array_table import format_energy
+from app.gui.views.flow_layout import FlowLayout, compact_combo
 from energy.analysis.ordering import ORDERS, axis_order_and_tree, dendrogram_segments
 from energy.terms.registry import long_label, map_quantities
 
@@ -122,8 +123,7 @@ class PairMapView(QWidget):
         self._cursor = None                        # (row, col) display positions
         self._dense_cache = {}
 
-        bar = QHBoxLayout()
-        bar.setContentsMargins(4, 2, 4, 2)
+        bar = FlowLayout()
         self.quantity_box = QComboBox(); self.quantity_box.setObjectName("mapQuantity")
         for key, text in map_quantities().items():
             self.quantity_box.addItem(text, key)
@@ -134,10 +134,10 @@ class PairMapView(QWidget):
         for p in CLIPS:
             self.clip_box.addItem("full range" if p == 100 else f"{p:g}th percentile", p)
         self.clip_box.setCurrentIndex(CLIPS.index(99.0))
+        compact_combo(self.quantity_box, 16); compact_combo(self.order_box, 20)
         for label, w in (("Show", self.quantity_box), ("Axis order", self.order_box),
                          ("Colour limit", self.clip_box)):
-            bar.addWidget(QLabel(label)); bar.addWidget(w)
-        bar.addStretch(1)
+            bar.add_group(QLabel(label), w)
         self.hover_label = QLabel(" "); self.hover_label.setObjectName("mapHover")
         self.hover_label.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
 

@@ -11,9 +11,10 @@ import math
 import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import Qt
-from PySide6.QtWidgets import QCheckBox, QComboBox, QHBoxLayout, QLabel, QVBoxLayout, QWidget
+from PySide6.QtWidgets import QCheckBox, QComboBox, QLabel, QVBoxLayout, QWidget
 
 from app.gui.models.array_table import format_energy
+from app.gui.views.flow_layout import FlowLayout, compact_combo
 from energy.decomposition.atom_pairs import pair_curve
 
 E0 = 0.1
@@ -85,13 +86,14 @@ class DistanceProfileView(QWidget):
         for lim in CLIP_LIMITS:
             self.scale_box.addItem(f"Linear, clipped at ±{lim:g}", lim)
         self.info = QLabel(" "); self.info.setObjectName("profileInfo"); self.info.setWordWrap(True)
-        bar = QHBoxLayout(); bar.setContentsMargins(4, 2, 4, 2)
-        bar.addWidget(QLabel("Energy axis")); bar.addWidget(self.scale_box); bar.addStretch(1)
+        compact_combo(self.scale_box, 12)
+        bar = FlowLayout()
+        bar.add_group(QLabel("Energy axis"), self.scale_box)
         self.key = QLabel(""); self.key.setObjectName("profileKey"); self.key.setWordWrap(True)
         self.show_both = QCheckBox("LJ and exp-6 curves"); self.show_both.setObjectName("profileBoth")
         self.show_both.setChecked(True)
         self.show_both.setToolTip("Overlay the curve of the other repulsion model for the selected atom pair")
-        bar.addWidget(self.show_both)
+        bar.add_group(self.show_both, right=True)
 
         self.axis = EnergyAxis("left")
         self.plot = pg.PlotWidget(axisItems={"left": self.axis}, background="w")

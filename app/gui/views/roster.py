@@ -7,7 +7,7 @@ from PySide6.QtCore import QItemSelectionModel, Signal
 from PySide6.QtWidgets import QFormLayout, QHBoxLayout, QLabel, QLineEdit, QPushButton, QVBoxLayout, QWidget
 
 from app.gui.models.array_table import ArrayTableModel, Column, format_energy
-from app.gui.views.tables import record_table
+from app.gui.views.tables import fit_columns, record_table
 
 
 class ResidueRosterView(QWidget):
@@ -62,7 +62,7 @@ class ResidueRosterView(QWidget):
         self.model.set_columns(cols, ds.n)
         self._lower = np.array([s.lower() for s in ds.labels], dtype=str)
         self._refilter()
-        self.table.resizeColumnsToContents()
+        fit_columns(self.table)
 
     def set_groups_text(self, a: str, b: str) -> None:
         self.group_a.setText(a); self.group_b.setText(b)

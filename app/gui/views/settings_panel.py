@@ -19,6 +19,7 @@ from PySide6.QtWidgets import (
 )
 
 from app.gui.settings import UNITS
+from app.gui.views.flow_layout import compact_combo
 from energy.errors import SettingsError
 from energy.model.settings import EXP6_ALPHA_MATCHING_LJ, EnergySettings
 
@@ -58,6 +59,7 @@ class ComputeSettingsPanel(QWidget):
                               "at the minimum (docs/physics.md)")
         self.alpha_default = QPushButton("LJ-matched"); self.alpha_default.setObjectName("exp6AlphaDefault")
         self.alpha_default.clicked.connect(lambda: self.alpha.setValue(EXP6_ALPHA_MATCHING_LJ))
+        compact_combo(self.electrostatics, 16); compact_combo(self.vdw, 16)
         self.unit = QComboBox(); self.unit.setObjectName("unit")
         for u in UNITS:
             self.unit.addItem(u, u)

@@ -1,8 +1,12 @@
 """Table views shared by the panels: one look and behaviour for every record table."""
 from __future__ import annotations
 
-from PySide6.QtCore import QItemSelectionModel, Qt
-from PySide6.QtWidgets import QAbstractItemView, QTableView
+from PySide6.QtCore import QEvent, QItemSelectionModel, QObject, Qt
+from PySide6.QtWidgets import QAbstractItemView, QTableView, QToolTip
+
+#: Text columns are narrowed to fit the table's width, but not below this (px); number columns
+#: keep the width of their contents (an elided number would read as another number).
+MIN_TEXT_COLUMN = 56
 
 
 def record_table(name: str, model=None, size_from_rows: int | None = None) -> QTableView:
@@ -25,7 +29,109 @@ def record_table(name: str, model=None, size_from_rows: int | None = None) -> QT
     t.horizontalHeader().setStretchLastSection(True)
     if size_from_rows is not None:
         t.horizontalHeader().setResizeContentsPrecision(size_from_rows)
+    t.setTextElideMode(Qt.TextElideMode.ElideRight)
+    t.viewport().installEventFilter(ElidedCellTips(t))
+    t.viewport().installEventFilter(_RefitOnResize(t))
+    # columns are sized from the first rows: after a sort those are other rows
+    t.horizontalHeader().sortIndicatorChanged.connect(
+        lambda *_: fit_columns(t) if t.property("naturalWidths") is not None else None)
     return t
+
+
+def _is_number_column(table: QTableView, column: int) -> bool:
+    """Right-aligned cells are numbers (ArrayTableModel aligns every non-text column right)."""
+    model = table.model()
+    if model is None or model.rowCount() == 0:
+        return False
+    align = model.data(model.index(0, column), Qt.ItemDataRole.TextAlignmentRole)
+    return align is not None and bool(int(align) & int(Qt.AlignmentFlag.AlignRight))
+
+
+def fit_columns(table: QTableView, recompute: bool = True) -> None:
+    """Columns sized to their contents, then the text columns narrowed (widest first, down to
+    :data:`MIN_TEXT_COLUMN`) so that the table fits its width without scrolling; narrowed cells
+    are elided and show their full text as a tool tip.  When even that does not fit, every
+    column keeps its contents' width and the table scrolls (eliding all the labels to nothing
+    would only hide them)."""
+    header = table.horizontalHeader()
+    model = table.model()
+    if model is None or model.columnCount() == 0:
+        return
+    if recompute or table.property("naturalWidths") is None:
+        table.resizeColumnsToContents()
+        table.setProperty("naturalWidths", [header.sectionSize(c) for c in range(model.columnCount())])
+    natural = list(table.property("naturalWidths") or [])
+    if len(natural) != model.columnCount():
+        return
+    room = table.viewport().width()
+    text = [c for c in range(len(natural)) if not _is_number_column(table, c) and not header.isSectionHidden(c)]
+    fixed = sum(w for c, w in enumerate(natural) if c not in text and not header.isSectionHidden(c))
+    widths = {c: natural[c] for c in text}
+    budget = room - fixed
+    if budget >= MIN_TEXT_COLUMN * len(text) and sum(widths.values()) > budget and text:
+        # the largest cap L with sum(min(w, max(L, MIN))) <= budget (water-filling)
+        lo, hi = MIN_TEXT_COLUMN, max(widths.values())
+        while lo < hi:
+            mid = (lo + hi + 1) // 2
+            if sum(min(w, mid) for w in widths.values()) <= budget:
+                lo = mid
+            else:
+                hi = mid - 1
+        widths = {c: min(w, lo) for c, w in widths.items()}
+    last = len(natural) - 1
+    for c, w in widths.items():
+        if c != last or not header.stretchLastSection():
+            header.resizeSection(c, w)
+    for c, w in enumerate(natural):
+        if c not in widths and (c != last or not header.stretchLastSection()):
+            header.resizeSection(c, w)
+
+
+class _RefitOnResize(QObject):
+    """Refit a table's columns (:func:`fit_columns`) when its width changes."""
+
+    def __init__(self, table: QTableView):
+        super().__init__(table)
+        self.table = table
+
+    def eventFilter(self, obj, ev) -> bool:  # noqa: N802 (Qt's name)
+        if ev.type() == QEvent.Type.Resize and ev.oldSize().width() != ev.size().width() \
+                and self.table.property("naturalWidths") is not None:
+            fit_columns(self.table, recompute=False)
+        return False
+
+
+class ElidedCellTips(QObject):
+    """A cell whose text does not fit its column shows the whole text as a tool tip (cells with
+    a tool tip of their own keep it)."""
+
+    def __init__(self, table: QTableView):
+        super().__init__(table)
+        self.table = table
+
+    def eventFilter(self, obj, ev) -> bool:  # noqa: N802
+        if ev.type() != QEvent.Type.ToolTip:
+            return False
+        index = self.table.indexAt(ev.pos())
+        if not index.isValid() or index.data(Qt.ItemDataRole.ToolTipRole):
+            return False
+        text = index.data(Qt.ItemDataRole.DisplayRole)
+        if text is None:
+            return False
+        if elided(self.table, index):
+            QToolTip.showText(ev.globalPos(), str(text), self.table.viewport(), self.table.visualRect(index))
+        else:
+            QToolTip.hideText()
+        return True
+
+
+def elided(table: QTableView, index) -> bool:
+    """Whether the cell at ``index`` is too narrow for its text."""
+    text = index.data(Qt.ItemDataRole.DisplayRole)
+    if text is None:
+        return False
+    margin = 2 * (table.style().pixelMetric(table.style().PixelMetric.PM_FocusFrameHMargin, None, table) + 1)
+    return table.fontMetrics().horizontalAdvance(str(text)) + margin > table.visualRect(index).width()
 
 
 def show_row(table: QTableView, row: int) -> None:

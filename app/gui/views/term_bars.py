@@ -1,6 +1,8 @@
 """Term bars: per-term energies of the whole system, the selected residue pair and A vs B."""
 from __future__ import annotations
 
+import math
+
 import numpy as np
 import pyqtgraph as pg
 
@@ -19,6 +21,29 @@ def compact(v: float) -> str:
     return f"{v:.3g}" if a >= 0.01 else f"{v:.2g}"
 
 
+#: Room one energy label of the bottom axis needs (px): fewer ticks when a plot is narrow.
+TICK_ROOM = 46
+
+
+class EnergyTickAxis(pg.AxisItem):
+    """Bottom axis of a term-bar plot: compact labels (``-4k``) and only as many major ticks as
+    fit side by side, so that a narrow plot does not print its labels over each other."""
+
+    def tickSpacing(self, minVal, maxVal, size):  # noqa: N802 (pyqtgraph's name)
+        """One level of ticks, a 1-2-5 step with at most one label per :data:`TICK_ROOM` px."""
+        span = abs(maxVal - minVal)
+        if span == 0 or size <= 0:
+            return super().tickSpacing(minVal, maxVal, size)
+        room = max(2, int(size // TICK_ROOM))
+        raw = span / room
+        mag = 10.0 ** math.floor(math.log10(raw))
+        step = next(m * mag for m in (1, 2, 5, 10) if m * mag >= raw)
+        return [(step, 0)]
+
+    def tickStrings(self, values, scale, spacing):  # noqa: N802
+        return ["0" if v == 0 else compact(float(v)).replace(".0k", "k") for v in values]
+
+
 class TermBarsView(pg.GraphicsLayoutWidget):
     def __init__(self, parent=None):
         super().__init__(parent)
@@ -28,7 +53,7 @@ class TermBarsView(pg.GraphicsLayoutWidget):
         self.titles = {"system": "Whole system", "pair": "Selected pair", "groups": "Group A vs B"}
         self.plots, self.bars, self.texts = {}, {}, {}
         for col, key in enumerate(self.values):
-            p = self.addPlot(row=0, col=col)
+            p = self.addPlot(row=0, col=col, axisItems={"bottom": EnergyTickAxis("bottom")})
             p.setMenuEnabled(False); p.hideButtons(); p.setMouseEnabled(x=False, y=False)
             p.getAxis("left").enableAutoSIPrefix(False)
             p.showGrid(x=True, alpha=0.15)
