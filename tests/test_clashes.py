@@ -1,4 +1,4 @@
-"""Clash finder (energy/clashes.py, energy/clashes_cli.py, energy/vdw_radii.py).
+"""Clash finder (energy/clashes.py, app/cli/overlaps.py, energy/vdw_radii.py).
 
 External references:
 * Bondi radii: A. Bondi, J. Phys. Chem. 68, 441-451 (1964), Table I (values written here from
@@ -407,7 +407,7 @@ def test_scenario_fixed_variant_has_no_heavy_atom_clash(scenario_systems):
 def test_cli_clashes_writes_json_and_csv(tmp_path, capsys):
     from app.cli.main import main
     out_json, out_csv = tmp_path / "c.json", tmp_path / "c.csv"
-    rc = main(["clashes", str(SCENARIO / "complex_clash.pdb"), "--json", str(out_json),
+    rc = main(["overlaps", str(SCENARIO / "complex_clash.pdb"), "--json", str(out_json),
                "--csv", str(out_csv), "--top", "3"])
     assert rc == 0
     text = capsys.readouterr().out
@@ -431,7 +431,7 @@ def test_cli_clashes_writes_json_and_csv(tmp_path, capsys):
 ])
 def test_cli_errors_are_one_line(argv, needle, capsys):
     from app.cli.main import main
-    rc = main(["clashes", str(SCENARIO / "complex_clash.pdb"), *argv])
+    rc = main(["overlaps", str(SCENARIO / "complex_clash.pdb"), *argv])
     err = capsys.readouterr().err
     assert rc == 2 and needle in err and err.count("\n") == 1
 
@@ -439,7 +439,7 @@ def test_cli_errors_are_one_line(argv, needle, capsys):
 def test_cli_rejects_negative_lj_threshold(capsys):
     from app.cli.main import main
     with pytest.raises(SystemExit):
-        main(["clashes", str(SCENARIO / "complex_clash.pdb"), "--lj-above", "-3"])
+        main(["overlaps", str(SCENARIO / "complex_clash.pdb"), "--lj-above", "-3"])
     assert ">= 0" in capsys.readouterr().err
 
 
@@ -510,7 +510,7 @@ def test_cli_exp6_alpha_option(tmp_path):
     out = {}
     for alpha in ("13.772", "10"):
         path = tmp_path / f"c{alpha}.json"
-        assert main(["clashes", str(SCENARIO / "complex_clash.pdb"), "--exp6-alpha", alpha,
+        assert main(["overlaps", str(SCENARIO / "complex_clash.pdb"), "--exp6-alpha", alpha,
                      "--json", str(path), "--quiet"]) == 0
         doc = json.loads(path.read_text())
         assert doc["options"]["exp6_alpha"] == pytest.approx(float(alpha))

@@ -35,7 +35,7 @@ def add_settings_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("--vdw", choices=("lj", "exp6"), default="lj",
                    help="repulsion-dispersion form: the force field's LJ 12-6, or exp-6 with the same "
                         "minimum per pair")
-    p.add_argument("--exp6-alpha", type=float, default=None, metavar="A",
+    p.add_argument("--exp6-alpha", type=float, default=None, metavar="ALPHA",
                    help="exp-6 steepness (default 13.772, matching the LJ curvature at the minimum)")
     p.add_argument("--dielectric", type=float, default=1.0,
                    help="relative dielectric (plain), or D in eps = D*r (distance-dependent)")

@@ -2,7 +2,7 @@
 
 ``tessera`` with no arguments (or ``tessera view FILES...``, or plain ``tessera FILES...``) opens
 the desktop window; ``tessera scan ...`` runs the headless decomposition.  Each subcommand lives
-in its own module (:mod:`app.cli.scan`, :mod:`app.cli.compare`, :mod:`app.cli.clashes`,
+in its own module (:mod:`app.cli.scan`, :mod:`app.cli.compare`, :mod:`app.cli.overlaps`,
 :mod:`app.cli.view`), imported only when it runs, which keeps start-up short.  Expected failures
 print one line on stderr and exit with status 2; nothing is left half-written.
 """
@@ -20,7 +20,7 @@ SUBCOMMANDS = {
     "scan": ("scan", "compute every term and the residue-pair decomposition"),
     "view": ("view", "open the desktop window"),
     "compare": ("compare", "difference map of two structures of the same system"),
-    "clashes": ("clashes", "rank overlapping atom pairs (steric clashes)"),
+    "overlaps": ("overlaps", "rank overlapping atom pairs (steric clashes)"),
 }
 
 

@@ -17,7 +17,7 @@ The LJ energy of a pair is the force field's plain form eps_ij [(Rmin_ij/r)^12 -
 with no cutoff and no switching (1-4 pairs: their own 1-4 Rmin and eps), the form of
 ``docs/physics.md``.
 
-No Qt here; the viewer and the command line (:mod:`app.cli.clashes`) both use this module;
+No Qt here; the viewer and the command line (:mod:`app.cli.overlaps`) both use this module;
 labels, JSON, CSV and the text table are in :mod:`energy.output.clash_report`.
 """
 from __future__ import annotations

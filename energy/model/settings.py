@@ -82,14 +82,14 @@ class EnergySettings:
         -------
         str
             Cutoff (and switching), electrostatics and vdW model, e.g.
-            ``"no cutoff, Coulomb eps=1, LJ 12-6"``.
+            ``"no cutoff, Coulomb ε 1, LJ 12-6"`` (the window's own symbols: ε, Å, α).
         """
-        cut = "no cutoff" if self.cutoff_angstrom is None else f"cutoff {self.cutoff_angstrom:g} A"
+        cut = "no cutoff" if self.cutoff_angstrom is None else f"cutoff {self.cutoff_angstrom:g} Å"
         if self.switch_angstrom is not None:
-            cut += f" (LJ switch from {self.switch_angstrom:g} A)"
-        el = {"plain": f"Coulomb eps={self.dielectric:g}",
-              "reaction-field": f"reaction field eps_rf={self.solvent_dielectric:g}",
-              "distance-dependent": f"eps={self.dielectric:g}r",
-              "shifted": f"shifted-force Coulomb eps={self.dielectric:g}"}[self.electrostatics]
-        vdw = "LJ 12-6" if self.vdw == "lj" else f"exp-6 alpha={self.exp6_alpha:.3f}"
+            cut += f" (LJ switch from {self.switch_angstrom:g} Å)"
+        el = {"plain": f"Coulomb ε {self.dielectric:g}",
+              "reaction-field": f"reaction field, solvent ε {self.solvent_dielectric:g}",
+              "distance-dependent": f"Coulomb ε = {self.dielectric:g}r",
+              "shifted": f"shifted-force Coulomb ε {self.dielectric:g}"}[self.electrostatics]
+        vdw = "LJ 12-6" if self.vdw == "lj" else f"exp-6 α {self.exp6_alpha:.3f}"
         return f"{cut}, {el}, {vdw}"

@@ -64,7 +64,7 @@ class ClashCheckView(QWidget):
         self.counts = _table("clashCounts"); self.counts.setModel(self.counts_model)
 
         top = FlowLayout()
-        top.add_group(QLabel("Overlap ≥"), self.overlap)
+        top.add_group(QLabel("Flag overlaps from"), self.overlap)
         top.add_group(QLabel("Radii"), self.radii)
         top2 = FlowLayout(margins=(4, 0, 4, 2))
         top2.add_group(self.hydrogens); top2.add_group(self.mark)

@@ -12,7 +12,7 @@ from app.gui.views.profile_plot import EnergyAxis, symlog
 from energy.terms.registry import BONDED_TERMS
 
 #: Curves drawn: key, legend name, colour.  ``bonded`` is the sum of the bonded terms.
-CURVES = (("coulomb", "Coulomb", "#1f77b4"), ("lj", "van der Waals", "#e6550d"),
+CURVES = (("coulomb", "Coulomb", "#1f77b4"), ("lj", "LJ", "#e6550d"),
           ("bonded", "Bonded (sum)", "#31a354"), ("total", "Total", "#222222"))
 
 

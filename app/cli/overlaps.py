@@ -1,4 +1,4 @@
-"""``tessera clashes``: the command-line face of :mod:`energy.analysis.clashes`.
+"""``tessera overlaps``: the command-line face of :mod:`energy.analysis.clashes`.
 
 ``energy/cli.py`` adds the subcommand and calls :func:`configure_parser` and :func:`run`; errors
 are raised as :class:`energy.errors.EnergyError` and printed there as one line.
@@ -39,7 +39,7 @@ def _energy_value(text: str) -> float:
 
 def configure_parser(p: argparse.ArgumentParser) -> None:
     add_input_arguments(p)
-    p.add_argument("--overlap", type=_overlap_value, default=DEFAULT_OVERLAP, metavar="A",
+    p.add_argument("--overlap", type=_overlap_value, default=DEFAULT_OVERLAP, metavar="ANGSTROM",
                    help=f"flag pairs whose spheres overlap by at least A angstrom (default "
                         f"{DEFAULT_OVERLAP}; 'off' to use only --lj-above)")
     p.add_argument("--radii", choices=RADII_SOURCES, default="bondi",
@@ -57,7 +57,7 @@ def configure_parser(p: argparse.ArgumentParser) -> None:
                    help="measure hydrogen-bonding pairs with the ordinary radii too")
     p.add_argument("--periodic", action="store_true",
                    help="minimum image in the frame's orthorhombic unit cell (default: none)")
-    p.add_argument("--exp6-alpha", type=float, default=None, metavar="A",
+    p.add_argument("--exp6-alpha", type=float, default=None, metavar="ALPHA",
                    help="steepness of the exp-6 energy reported beside the LJ energy of each clash "
                         "(default 13.772, matching the LJ curvature at the minimum)")
     p.add_argument("--top", type=int, default=20, metavar="N",
