@@ -13,7 +13,7 @@ from PySide6.QtCore import QObject, QThread, Signal
 
 from app.state.document import LoadSpec, Snapshot
 from energy.decomposition.pipeline import compute_steps
-from energy.errors import EnergyError
+from energy.errors import EnergyError, one_line
 from energy.io.loaders import load_system
 
 
@@ -24,8 +24,14 @@ def failure_message(exc: BaseException) -> tuple[str, str]:
         return str(exc), ""
     if isinstance(exc, OSError):
         name = getattr(exc, "filename", None)
-        return f"{name + ': ' if name else ''}{exc.strerror or exc}", ""
-    return f"unexpected error: {exc}", traceback.format_exc()
+        return one_line(f"{str(name) + ': ' if name else ''}{exc.strerror or exc}"), ""
+    return unexpected_message(exc), traceback.format_exc()
+
+
+def unexpected_message(exc: BaseException) -> str:
+    """One line for an exception that is a bug (its traceback goes under "Details")."""
+    return one_line(f"unexpected error ({type(exc).__name__}: {one_line(exc, 120)}); this is a bug, "
+                    "please report it with the input files (details below)")
 
 class Cancelled(Exception):
     pass
@@ -86,13 +92,8 @@ class EnergyWorker(QObject):
             self.finished.emit(out)
         except Cancelled:
             self.cancelled.emit()
-        except EnergyError as exc:
-            self.failed.emit(str(exc), "")
-        except OSError as exc:
-            name = getattr(exc, "filename", None)
-            self.failed.emit(f"{name + ': ' if name else ''}{exc.strerror or exc}", "")
-        except Exception as exc:  # unexpected: message plus traceback under Details
-            self.failed.emit(f"unexpected error: {exc}", traceback.format_exc())
+        except Exception as exc:  # expected failures: one line; unexpected: plus the traceback
+            self.failed.emit(*failure_message(exc))
 
 
 class WorkerHandle(QObject):

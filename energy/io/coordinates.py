@@ -6,7 +6,8 @@ import warnings
 
 import numpy as np
 
-from energy.errors import InputMismatchError, StructureFileError
+from energy.errors import InputMismatchError, StructureFileError, one_line
+from energy.io.coordinate_text import check_coordinate_text
 from energy.model.system import Frame
 
 #: Coordinate formats without atom names: read positions only (the topology gives the atoms).
@@ -50,6 +51,8 @@ def open_coordinates(path, n_atoms: int, names, topology_kind: str = "topology",
 
     path = os.fspath(path)
     suffix = path.rsplit(".", 1)[-1].lower() if "." in os.path.basename(path) else ""
+    if suffix not in TRAJECTORY_SUFFIXES:
+        check_coordinate_text(path)
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
@@ -61,7 +64,7 @@ def open_coordinates(path, n_atoms: int, names, topology_kind: str = "topology",
                 universe = mda.Universe(path)
                 file_names = [str(x) for x in universe.atoms.names]
     except Exception as exc:  # MDAnalysis raises many kinds; all mean "cannot read"
-        raise StructureFileError(path, f"cannot read {what}: {exc}") from None
+        raise StructureFileError(path, f"cannot read {what}: {third_party_message(exc)}") from None
     if len(universe.atoms) != n_atoms:
         raise InputMismatchError(f"{path} has {len(universe.atoms)} atoms but the {topology_kind} "
                                  f"has {n_atoms}")
@@ -74,6 +77,22 @@ def open_coordinates(path, n_atoms: int, names, topology_kind: str = "topology",
             raise InputMismatchError(f"atom names differ between the {topology_kind} and {path} "
                                      f"({len(bad)} atoms), e.g. {shown}")
     return universe
+
+
+def third_party_message(exc: BaseException) -> str:
+    """A library's exception as one short line (the caller puts the file name first)."""
+    return one_line(str(exc), 160) or type(exc).__name__
+
+
+def read_timestep(universe, index: int, path):
+    """Timestep ``index`` of ``universe``; any failure of the reader (a truncated or damaged
+    frame, models of different sizes) becomes a :class:`StructureFileError` naming the file."""
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            return universe.trajectory[int(index)]
+    except Exception as exc:  # MDAnalysis raises OSError, ValueError, IndexError, EOFError ...
+        raise StructureFileError(path, f"cannot read frame {index}: {third_party_message(exc)}") from None
 
 
 def frame_from_timestep(ts, path, index: int) -> Frame:
@@ -93,8 +112,11 @@ def read_frame(coords_path, n_atoms: int, names, frame: int = 0, topology_kind: 
     """
     path = os.fspath(coords_path)
     universe = open_coordinates(path, n_atoms, names, topology_kind)
-    n_frames = len(universe.trajectory)
+    try:
+        n_frames = len(universe.trajectory)
+    except Exception as exc:
+        raise StructureFileError(path, f"cannot count the frames: {third_party_message(exc)}") from None
     if not 0 <= frame < n_frames:
         raise StructureFileError(path, f"frame {frame} requested but the file has {n_frames} "
                                        f"frame(s) (0..{n_frames - 1})")
-    return frame_from_timestep(universe.trajectory[frame], path, frame)
+    return frame_from_timestep(read_timestep(universe, frame, path), path, frame)

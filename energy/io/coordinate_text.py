@@ -1,0 +1,127 @@
+"""Strict check of the numbers in text coordinate files, before a library reads them.
+
+OpenMM and MDAnalysis convert coordinate fields with Python's ``float``, which also takes
+``1_000``, ``nan``, ``inf`` and digits of other scripts.  :func:`check_coordinate_text` reads
+the coordinate (and unit-cell) fields of the text formats first and refuses any that is not a
+plain ASCII number (:func:`energy.io.numbers.parse_float`), naming the file and line:
+
+* PDB (``.pdb``, ``.ent``): columns 31-38, 39-46, 47-54 of ATOM/HETATM records; the six cell
+  fields of CRYST1;
+* CHARMM coordinates (``.crd``, ``.cor``): fields 5-7 of each atom record;
+* mmCIF (``.cif``, ``.mmcif``, ``.pdbx``): ``_atom_site.Cartn_x/y/z`` and ``_cell.length_*`` /
+  ``_cell.angle_*``.
+
+Other formats are binary (their values are checked after reading) or left to their reader.
+"""
+from __future__ import annotations
+
+import gzip
+import os
+import re
+
+from energy.errors import StructureFileError
+from energy.io.numbers import parse_float
+
+#: Coordinates of a text file may reach this magnitude before the geometry checks judge them.
+_TEXT_BOUND = 1.0e30
+_CIF_TOKEN = re.compile(r"'[^']*'|\"[^\"]*\"|\S+")
+_CIF_CELL = {"_cell.length_a", "_cell.length_b", "_cell.length_c", "_cell.angle_alpha",
+             "_cell.angle_beta", "_cell.angle_gamma"}
+
+
+def _lines(path):
+    opener = gzip.open if os.fspath(path).lower().endswith(".gz") else open
+    try:
+        with opener(path, "rt", encoding="utf-8", errors="replace") as handle:
+            return handle.read().splitlines()
+    except (OSError, EOFError) as exc:
+        raise StructureFileError(path, f"cannot read the file: {getattr(exc, 'strerror', None) or exc}") from None
+
+
+def _field(path, lineno, text, what):
+    return parse_float(text.strip(), what, path, lineno, bound=_TEXT_BOUND)
+
+
+def _check_pdb(path, lines) -> None:
+    for lineno, line in enumerate(lines, 1):
+        record = line[:6]
+        if record in ("ATOM  ", "HETATM"):
+            if len(line.rstrip()) < 54:
+                raise StructureFileError(path, f"{record.strip()} record too short for its coordinates "
+                                               f"(columns 31-54): {len(line.rstrip())} characters", lineno)
+            for axis, lo in (("x", 30), ("y", 38), ("z", 46)):
+                _field(path, lineno, line[lo:lo + 8], f"{record.strip()} {axis} coordinate (columns "
+                                                      f"{lo + 1}-{lo + 8})")
+        elif record == "CRYST1":
+            fields = (("a", 6, 15), ("b", 15, 24), ("c", 24, 33), ("alpha", 33, 40), ("beta", 40, 47),
+                      ("gamma", 47, 54))
+            for name, lo, hi in fields:
+                if line[lo:hi].strip():
+                    _field(path, lineno, line[lo:hi], f"CRYST1 {name} (columns {lo + 1}-{hi})")
+
+
+def _check_crd(path, lines) -> None:
+    i = 0
+    while i < len(lines) and lines[i].lstrip().startswith("*"):
+        i += 1
+    for lineno in range(i + 2, len(lines) + 1):  # the line after the title holds the atom count
+        words = lines[lineno - 1].split()
+        if not words:
+            continue
+        if len(words) < 7:
+            raise StructureFileError(path, "CRD atom record: expected 'atomno resno resname atomname x y z "
+                                           "...'", lineno)
+        for axis, word in zip("xyz", words[4:7]):
+            _field(path, lineno, word, f"CRD {axis} coordinate")
+
+
+def _check_cif(path, lines) -> None:
+    i = 0
+    while i < len(lines):
+        line = lines[i].strip()
+        if line.split()[:1] and line.split()[0].lower() in _CIF_CELL and len(line.split()) >= 2:
+            _field(path, i + 1, line.split()[1], line.split()[0])
+        if line.lower() != "loop_":
+            i += 1
+            continue
+        i += 1
+        columns = []
+        while i < len(lines) and lines[i].strip().startswith("_"):
+            columns.append(lines[i].split()[0].lower())
+            i += 1
+        wanted = {k: columns.index(f"_atom_site.cartn_{axis}") for k, axis in enumerate("xyz")
+                  if f"_atom_site.cartn_{axis}" in columns}
+        tokens = []
+        while i < len(lines):
+            text = lines[i].strip()
+            if text.startswith(("_", "loop_", "#", "data_")) or text.lower() == "loop_":
+                break
+            tokens.extend((i + 1, t) for t in _CIF_TOKEN.findall(text))
+            i += 1
+        if wanted and columns:
+            for start in range(0, len(tokens) - len(columns) + 1, len(columns)):
+                for k, column in wanted.items():
+                    lineno, token = tokens[start + column]
+                    _field(path, lineno, token, f"_atom_site.Cartn_{'xyz'[k]}")
+
+
+def check_coordinate_text(path) -> None:
+    """Refuse a text coordinate file whose coordinate or cell fields are not plain numbers.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        Any coordinate file; formats other than PDB, CRD and mmCIF pass unread.
+
+    Raises
+    ------
+    StructureFileError
+        A field is not an ASCII number, or not finite (file, line and the field in the message).
+    """
+    path = os.fspath(path)
+    name = path.lower()[:-3] if path.lower().endswith(".gz") else path.lower()
+    suffix = name.rsplit(".", 1)[-1] if "." in os.path.basename(name) else ""
+    checker = {"pdb": _check_pdb, "ent": _check_pdb, "crd": _check_crd, "cor": _check_crd,
+               "cif": _check_cif, "mmcif": _check_cif, "pdbx": _check_cif}.get(suffix)
+    if checker is not None:
+        checker(path, _lines(path))
