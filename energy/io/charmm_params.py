@@ -7,6 +7,9 @@ Stream files (``read rtf card`` / ``read param card`` blocks) are recognised: RT
 skipped except for their MASS records, parameter blocks are read.  ``!`` starts a comment, a
 trailing ``-`` continues a line, keywords and types are case-insensitive (types are upper-cased).
 
+A parameter text ends with an ``END`` line (CHARMM stops reading there); a file or stream
+block without one is refused as truncated.
+
 Several files are merged in order: a later definition of the same type combination replaces the
 earlier one (for a dihedral, all terms of the quadruplet from the later file replace the earlier
 file's terms; within one file, consecutive lines add terms and a repeated periodicity replaces).
@@ -268,15 +271,26 @@ class _FileReader:
         self.out.nbfix[canonical_pair(*words[:2])] = (abs(emin), rmin, e14, r14)
 
 
+def _first_word(line: str) -> str:
+    words = line.split("!", 1)[0].split()
+    return words[0].lower() if words else ""
+
+
 def _read_one(path) -> CharmmParameters:
+    """One parameter or stream file.  A parameter text (the file, or each ``read param`` /
+    ``read rtf`` block of a stream file) must end with an ``END`` line, as CHARMM requires: a
+    text without one was truncated."""
     try:
         with open(path, encoding="utf-8", errors="replace") as handle:
             lines = handle.read().splitlines()
     except OSError as exc:
         raise StructureFileError(path, f"cannot read parameter file: {exc.strerror or exc}") from None
     reader = _FileReader(str(path))
-    is_stream = any(ln.split("!", 1)[0].lower().split()[:1] == ["read"] for ln in lines)
+    is_stream = any(_first_word(ln) == "read" for ln in lines)
     if not is_stream:
+        if not any(_first_word(ln) == "end" for ln in lines):
+            raise StructureFileError(path, "no END line: CHARMM parameter files end with END, so this "
+                                           "one was truncated", len(lines))
         reader.feed(lines)
         return reader.out
     i = 0
@@ -285,8 +299,11 @@ def _read_one(path) -> CharmmParameters:
         if words[:1] == ["read"] and len(words) >= 2:
             start = i + 1
             i = start
-            while i < len(lines) and lines[i].split("!", 1)[0].strip().lower()[:3] != "end":
+            while i < len(lines) and _first_word(lines[i])[:3] != "end" and _first_word(lines[i]) != "read":
                 i += 1
+            if i >= len(lines) or _first_word(lines[i]) == "read":
+                raise StructureFileError(path, f"the 'read {words[1]}' block has no END line: the file was "
+                                               "truncated", start)
             block = lines[start:i]
             if words[1].startswith("para"):
                 reader.section = None

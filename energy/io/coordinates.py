@@ -24,7 +24,8 @@ def is_trajectory_path(path) -> bool:
     return "." in name and name.rsplit(".", 1)[-1].lower() in TRAJECTORY_SUFFIXES
 
 
-def open_coordinates(path, n_atoms: int, names, topology_kind: str = "topology", what: str = "coordinates"):
+def open_coordinates(path, n_atoms: int, names, topology_kind: str = "topology", what: str = "coordinates",
+                     residues=None):
     """An MDAnalysis Universe over a coordinate file or trajectory, checked against the topology.
 
     Parameters
@@ -39,13 +40,17 @@ def open_coordinates(path, n_atoms: int, names, topology_kind: str = "topology",
         How the topology is named in messages ("PSF", "topology").
     what : str
         How the file is named in the "cannot read" message.
+    residues : (resnames, resindex), optional
+        Per-atom residue names (n_atoms,) str and residue index (n_atoms,) int of the topology:
+        where the file has residues, their names and where each residue starts must agree
+        (a residue number may differ: files are renumbered).
 
     Raises
     ------
     StructureFileError
         Unreadable file.
     InputMismatchError
-        Atom count or atom names differ between topology and file.
+        Atom count, atom names or residues differ between topology and file.
     """
     import MDAnalysis as mda
 
@@ -76,7 +81,33 @@ def open_coordinates(path, n_atoms: int, names, topology_kind: str = "topology",
                               for i, a, b in bad[:5])
             raise InputMismatchError(f"atom names differ between the {topology_kind} and {path} "
                                      f"({len(bad)} atoms), e.g. {shown}")
+        if residues is not None:
+            _check_residues(universe, residues, path, topology_kind)
     return universe
+
+
+def _check_residues(universe, residues, path, topology_kind) -> None:
+    """Residue names (first 4 letters: the PDB field) and residue starts must agree."""
+    resnames, resindex = np.asarray(residues[0]).astype(str), np.asarray(residues[1])
+    atoms = universe.atoms
+    file_names = np.array([str(r).strip().upper()[:4] for r in atoms.resnames])
+    ours = np.char.upper(np.char.strip(resnames)).astype("U4")
+    bad = np.flatnonzero(file_names != ours)
+    if len(bad):
+        i = int(bad[0])
+        raise InputMismatchError(f"residue names differ between the {topology_kind} and {path} "
+                                 f"({len(bad)} atoms), e.g. atom {i + 1}: {topology_kind} {resnames[i]!r} vs "
+                                 f"coordinates {str(atoms.resnames[i])!r}")
+    file_res = np.asarray(atoms.resindices)
+    starts_ours = np.r_[True, resindex[1:] != resindex[:-1]]
+    starts_file = np.r_[True, file_res[1:] != file_res[:-1]]
+    bad = np.flatnonzero(starts_ours != starts_file)
+    if len(bad):
+        i = int(bad[0])
+        raise InputMismatchError(f"the residues of {path} do not follow the {topology_kind}'s: atom {i + 1} "
+                                 f"{'starts' if starts_file[i] else 'does not start'} a residue in the file but "
+                                 f"{'does' if starts_ours[i] else 'does not'} in the {topology_kind} "
+                                 "(atoms out of order?)")
 
 
 def third_party_message(exc: BaseException) -> str:
@@ -104,14 +135,16 @@ def frame_from_timestep(ts, path, index: int) -> Frame:
     return Frame(positions=positions, box=box, index=index, source=os.fspath(path))
 
 
-def read_frame(coords_path, n_atoms: int, names, frame: int = 0, topology_kind: str = "PSF") -> Frame:
-    """Read one frame (0-based) of coordinates and check it against the topology.
+def read_frame(coords_path, n_atoms: int, names, frame: int = 0, topology_kind: str = "PSF",
+               residues=None) -> Frame:
+    """Read one frame (0-based) of coordinates and check it against the topology (``residues``:
+    see :func:`open_coordinates`).
 
     Raises StructureFileError (unreadable file, missing frame, non-finite coordinates) or
     InputMismatchError (atom count or names differ).
     """
     path = os.fspath(coords_path)
-    universe = open_coordinates(path, n_atoms, names, topology_kind)
+    universe = open_coordinates(path, n_atoms, names, topology_kind, residues=residues)
     try:
         n_frames = len(universe.trajectory)
     except Exception as exc:
