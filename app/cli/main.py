@@ -74,11 +74,21 @@ def write_crash_log(argv, exc: BaseException) -> str | None:
     return None
 
 
+#: Exceptions raised where Python cannot raise them (a library's ``__del__`` on a reader that
+#: failed to open a damaged file): kept here instead of printed as a traceback on stderr.
+UNRAISABLE: list[str] = []
+
+
+def _quiet_unraisable(info) -> None:
+    UNRAISABLE.append(f"{info.exc_type.__name__}: {one_line(info.exc_value, 200)} in {info.object!r:.80}")
+
+
 def main(argv=None) -> int:
     """Parse ``argv`` (default: the process's arguments), run the subcommand, return its exit
     status: 0 on success, 2 on an expected failure (one line on stderr), 130 on Ctrl-C."""
     from energy._kernels.runtime import tune_memory
     tune_memory()
+    sys.unraisablehook = _quiet_unraisable
     argv = list(sys.argv[1:] if argv is None else argv)
     if not argv or (argv[0] not in SUBCOMMANDS and not argv[0].startswith("-")):
         argv = ["view", *argv]

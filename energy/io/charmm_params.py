@@ -8,7 +8,10 @@ skipped except for their MASS records, parameter blocks are read.  ``!`` starts 
 trailing ``-`` continues a line, keywords and types are case-insensitive (types are upper-cased).
 
 A parameter text ends with an ``END`` line (CHARMM stops reading there); a file or stream
-block without one is refused as truncated.
+block without one is refused as truncated, and so is anything but ``RETURN`` after it.  Outside
+comments and titles a line holds printable ASCII only (a control character or a byte beyond
+ASCII inside a type name would silently make it another type); the ATOMS section holds MASS
+records only.
 
 Several files are merged in order: a later definition of the same type combination replaces the
 earlier one (for a dihedral, all terms of the quadruplet from the later file replace the earlier
@@ -25,6 +28,7 @@ and Rmin >= 0, and > 0 wherever the well depth is not 0; E14FAC within 0..1; CMA
 """
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -32,6 +36,7 @@ import numpy as np
 from energy.errors import StructureFileError, quote_field
 from energy.io.numbers import is_number, parse_float, parse_int
 
+_PRINTABLE_ASCII = re.compile(r"[ -~\t]*\Z")
 #: Largest periodicity of a dihedral or improper cosine term (CHARMM's limit; common practice).
 MAX_PERIODICITY = 6
 #: Largest CMAP grid size accepted (points per axis; CHARMM's grids have 24).
@@ -141,23 +146,34 @@ class _FileReader:
         self.path = path
         self.out = CharmmParameters(e14fac=None, nbxmod=None)  # None: not set in this file
         self.section = None
+        self.ended = False  # an END line was read: only RETURN may follow
         self.cmap_key, self.cmap_size, self.cmap_values, self.cmap_line = None, 0, [], 0
 
     def feed(self, lines, first_lineno=1):
         for lineno, text in _logical_lines(self.path, lines, first_lineno):
             if text.startswith("*"):
                 continue  # title line
+            if _PRINTABLE_ASCII.match(text) is None:
+                raise StructureFileError(self.path, "non-ASCII or control character outside a comment: "
+                                                    f"{quote_field(text)}", lineno)
             words = text.upper().split()
+            if self.ended and words[0] != "RETURN":
+                raise StructureFileError(self.path, f"{quote_field(text)} after END: the END line closes the "
+                                                    "parameters (a misplaced END would hide what follows)", lineno)
             keyword = SECTION_KEYWORDS.get(words[0][:4], SECTION_KEYWORDS.get(words[0], "no"))
             if keyword != "no" and not (self.section == "CMAP" and is_number(words[0])):
                 self._close_cmap()
                 self.section = keyword
+                self.ended = keyword is None
                 if keyword == "NONBONDED":
                     self._nonbonded_header(lineno, words)
                 continue
             if words[0] == "MASS":
                 self._mass(lineno, words)
-            elif self.section in (None, "SKIP", "ATOMS"):
+            elif self.section == "ATOMS":
+                raise StructureFileError(self.path, "ATOMS section: expected MASS records, got "
+                                                    f"{quote_field(text)}", lineno)
+            elif self.section in (None, "SKIP"):
                 continue
             else:
                 getattr(self, "_" + self.section.lower())(lineno, words)
@@ -306,10 +322,10 @@ def _read_one(path) -> CharmmParameters:
                                                "truncated", start)
             block = lines[start:i]
             if words[1].startswith("para"):
-                reader.section = None
+                reader.section, reader.ended = None, False
                 reader.feed(block, start + 1)
             else:  # topology block: only its MASS records matter here
-                reader.section = None
+                reader.section, reader.ended = None, False
                 reader.feed([ln if ln.split()[:1] and ln.split()[0].upper() == "MASS" else ""
                              for ln in block], start + 1)
         i += 1

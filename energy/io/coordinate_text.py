@@ -6,7 +6,8 @@ the coordinate (and unit-cell) fields of the text formats first and refuses any 
 plain ASCII number (:func:`energy.io.numbers.parse_float`), naming the file and line:
 
 * PDB (``.pdb``, ``.ent``): columns 31-38, 39-46, 47-54 of ATOM/HETATM records; the six cell
-  fields of CRYST1;
+  fields of CRYST1; every MODEL must list the same atoms (name, residue, chain, number) in the
+  same order as the first, or a frame would silently pair coordinates with the wrong atoms;
 * CHARMM coordinates (``.crd``, ``.cor``): fields 5-7 of each atom record;
 * mmCIF (``.cif``, ``.mmcif``, ``.pdbx``): ``_atom_site.Cartn_x/y/z`` and ``_cell.length_*`` /
   ``_cell.angle_*``.
@@ -42,9 +43,37 @@ def _field(path, lineno, text, what):
     return parse_float(text.strip(), what, path, lineno, bound=_TEXT_BOUND)
 
 
+def _model_atom(line: str) -> str:
+    """The identity of an atom record: name, alternate location, residue name, chain, number."""
+    return line[12:27]
+
+
+def _compare_models(path, first, model, number, lineno) -> None:
+    if len(model) != len(first):
+        raise StructureFileError(path, f"model {number} has {len(model)} atoms but model 1 has {len(first)}: "
+                                       "every model must hold the same atoms", lineno)
+    for k, (a, b) in enumerate(zip(first, model)):
+        if a != b:
+            raise StructureFileError(path, f"model {number} differs from model 1 at atom {k + 1}: "
+                                           f"{b.strip()!r} instead of {a.strip()!r}", lineno)
+
+
 def _check_pdb(path, lines) -> None:
+    models: list[list[str]] = []
+    current: list[str] | None = None
     for lineno, line in enumerate(lines, 1):
         record = line[:6]
+        if record == "MODEL ":
+            if current is not None and len(models) > 1:
+                _compare_models(path, models[0], current, len(models), lineno)
+            current = []
+            models.append(current)
+        elif record == "ENDMDL" and current is not None:
+            if len(models) > 1:
+                _compare_models(path, models[0], current, len(models), lineno)
+            current = None
+        if record in ("ATOM  ", "HETATM") and current is not None:
+            current.append(_model_atom(line))
         if record in ("ATOM  ", "HETATM"):
             if len(line.rstrip()) < 54:
                 raise StructureFileError(path, f"{record.strip()} record too short for its coordinates "

@@ -128,10 +128,11 @@ def read_timestep(universe, index: int, path):
 
 def frame_from_timestep(ts, path, index: int) -> Frame:
     """A :class:`Frame` from an MDAnalysis timestep; refuses non-finite coordinates."""
-    positions = np.array(ts.positions, dtype=np.float64)
+    with np.errstate(invalid="ignore", over="ignore"):  # a damaged frame: judged right below
+        positions = np.array(ts.positions, dtype=np.float64)
+        box = None if ts.dimensions is None else np.array(ts.dimensions, dtype=np.float64)
     if not np.all(np.isfinite(positions)):
         raise StructureFileError(path, f"frame {index} holds non-finite (NaN/inf) coordinates")
-    box = None if ts.dimensions is None else np.array(ts.dimensions, dtype=np.float64)
     return Frame(positions=positions, box=box, index=index, source=os.fspath(path))
 
 

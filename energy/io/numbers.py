@@ -56,6 +56,8 @@ def parse_float(word: str, what: str, path, line: int | None = None, *, low: flo
         raise StructureFileError(path, f"{what}: expected a number (ASCII digits, sign, decimal point, "
                                        f"exponent), got {quote_field(word)}", line)
     value = float(word)
+    if value == 0.0 and re.search(r"[1-9]", re.split(r"[eE]", word)[0]):
+        raise StructureFileError(path, f"{what}: {quote_field(word)} is out of range (it underflows to 0)", line)
     if not math.isfinite(value) or abs(value) > bound:
         raise StructureFileError(path, f"{what}: {quote_field(word)} is out of range (|value| <= {bound:g})",
                                  line)

@@ -16,6 +16,8 @@ Nothing in the file is trusted:
   !NCRTERM when the header carries the ``CMAP`` flag (CHARMM, psfgen and ParmEd write these
   sections, with count 0 when empty);
 * every atom index lies in 1..NATOM, and the atoms of one entry are distinct;
+* atom records hold printable ASCII only (a control character inside a name or type would
+  silently make it another);
 * numbers are parsed strictly (:mod:`energy.io.numbers`): charges within +-100 e, masses
   within 0..10^6 amu.
 """
@@ -40,6 +42,7 @@ CHARGE_BOUND_E = 100.0
 MASS_BOUND_AMU = 1.0e6
 _RESID = re.compile(rf"([+-]?[0-9]{{1,{MAX_INT_DIGITS}}})([A-Za-z]*)\Z")
 _NAME = re.compile(r"[A-Za-z][A-Za-z0-9_]*\Z")
+_PRINTABLE_ASCII = re.compile(r"[ -~\t]*\Z")
 _INDEX_LINE = re.compile(r"[0-9 \t+-]*\Z")
 
 
@@ -106,6 +109,9 @@ def _parse_atom_line(path, lineno: int, text: str, serial: int):
     Whitespace-separated fields ``serial segid resid resname name type charge mass ...``; a blank
     segment id (8 fields) is accepted.  The serial must be ``serial``.
     """
+    if _PRINTABLE_ASCII.match(text) is None:
+        raise StructureFileError(path, f"!NATOM record {serial}: non-ASCII or control character in "
+                                       f"{quote_field(text.strip())}", lineno)
     words = text.split()
     if len(words) >= 9 and _RESID.match(words[2]):
         seg, resid, resname, name, atype, charge, mass = words[1:8]
