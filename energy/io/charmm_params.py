@@ -271,6 +271,10 @@ class _FileReader:
         eps = parse_float(words[2], f"NONBONDED {words[0]} epsilon", self.path, lineno)
         half = _radius(self.path, lineno, words[3], f"NONBONDED {words[0]} Rmin/2", eps)
         eps14 = rmin14 = None
+        if len(words) in (5, 6):
+            raise StructureFileError(self.path, f"NONBONDED {words[0]}: the 1-4 columns need all three values "
+                                                f"('ignored eps14 Rmin14/2'), got {quote_field(' '.join(words))}",
+                                     lineno)
         if len(words) >= 7:
             eps14 = parse_float(words[5], f"NONBONDED {words[0]} eps14", self.path, lineno)
             rmin14 = _radius(self.path, lineno, words[6], f"NONBONDED {words[0]} Rmin14/2", eps14)
@@ -281,6 +285,9 @@ class _FileReader:
         emin = parse_float(words[2], "NBFIX Emin", self.path, lineno)
         rmin = _radius(self.path, lineno, words[3], "NBFIX Rmin", emin)
         e14 = r14 = None
+        if len(words) == 5:
+            raise StructureFileError(self.path, "NBFIX: Emin14 needs Rmin14 too, got "
+                                                f"{quote_field(' '.join(words))}", lineno)
         if len(words) >= 6:
             e14 = abs(parse_float(words[4], "NBFIX Emin14", self.path, lineno))
             r14 = _radius(self.path, lineno, words[5], "NBFIX Rmin14", e14)

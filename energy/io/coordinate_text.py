@@ -5,10 +5,14 @@ OpenMM and MDAnalysis convert coordinate fields with Python's ``float``, which a
 the coordinate (and unit-cell) fields of the text formats first and refuses any that is not a
 plain ASCII number (:func:`energy.io.numbers.parse_float`), naming the file and line:
 
-* PDB (``.pdb``, ``.ent``): columns 31-38, 39-46, 47-54 of ATOM/HETATM records; the six cell
-  fields of CRYST1; every MODEL must list the same atoms (name, residue, chain, number) in the
-  same order as the first, or a frame would silently pair coordinates with the wrong atoms;
-* CHARMM coordinates (``.crd``, ``.cor``): fields 5-7 of each atom record;
+* PDB (``.pdb``, ``.ent``): columns 31-38, 39-46, 47-54 of ATOM/HETATM records, which hold at
+  most the format's 80 columns (a widened field shifts every column after it); the six cell
+  fields of CRYST1, which must form a cell (:func:`energy.io.validation.check_cell`); every
+  MODEL must list the same atoms (name, residue, chain, number) in the same order as the first,
+  or a frame would silently pair coordinates with the wrong atoms;
+* CHARMM coordinates (``.crd``, ``.cor``): fields 5-7 of each atom record, which must also be
+  what MDAnalysis reads (it takes them from fixed windows and silently cuts the leading digits
+  of a number wider than its column: :func:`compare_with_reader`);
 * mmCIF (``.cif``, ``.mmcif``, ``.pdbx``): ``_atom_site.Cartn_x/y/z`` and ``_cell.length_*`` /
   ``_cell.angle_*``.
 
@@ -20,8 +24,11 @@ import gzip
 import os
 import re
 
+import numpy as np
+
 from energy.errors import StructureFileError
 from energy.io.numbers import parse_float
+from energy.io.validation import check_cell
 
 #: Coordinates of a text file may reach this magnitude before the geometry checks judge them.
 _TEXT_BOUND = 1.0e30
@@ -75,24 +82,32 @@ def _check_pdb(path, lines) -> None:
         if record in ("ATOM  ", "HETATM") and current is not None:
             current.append(_model_atom(line))
         if record in ("ATOM  ", "HETATM"):
-            if len(line.rstrip()) < 54:
+            width = len(line.rstrip())
+            if width < 54:
                 raise StructureFileError(path, f"{record.strip()} record too short for its coordinates "
-                                               f"(columns 31-54): {len(line.rstrip())} characters", lineno)
+                                               f"(columns 31-54): {width} characters", lineno)
+            if width > 80:
+                raise StructureFileError(path, f"{record.strip()} record of {width} characters, longer than the "
+                                               "format's 80 columns: a field was widened, so the columns no longer "
+                                               "line up", lineno)
             for axis, lo in (("x", 30), ("y", 38), ("z", 46)):
                 _field(path, lineno, line[lo:lo + 8], f"{record.strip()} {axis} coordinate (columns "
                                                       f"{lo + 1}-{lo + 8})")
         elif record == "CRYST1":
             fields = (("a", 6, 15), ("b", 15, 24), ("c", 24, 33), ("alpha", 33, 40), ("beta", 40, 47),
                       ("gamma", 47, 54))
-            for name, lo, hi in fields:
-                if line[lo:hi].strip():
-                    _field(path, lineno, line[lo:hi], f"CRYST1 {name} (columns {lo + 1}-{hi})")
+            values = [_field(path, lineno, line[lo:hi], f"CRYST1 {name} (columns {lo + 1}-{hi})")
+                      for name, lo, hi in fields if line[lo:hi].strip()]
+            if len(values) == 6:
+                check_cell(values, f"{path}:{lineno}")
 
 
-def _check_crd(path, lines) -> None:
+def _check_crd(path, lines):
+    """The coordinates of a CHARMM CRD file, (n, 3) float64, parsed strictly."""
     i = 0
     while i < len(lines) and lines[i].lstrip().startswith("*"):
         i += 1
+    xyz = []
     for lineno in range(i + 2, len(lines) + 1):  # the line after the title holds the atom count
         words = lines[lineno - 1].split()
         if not words:
@@ -100,8 +115,8 @@ def _check_crd(path, lines) -> None:
         if len(words) < 7:
             raise StructureFileError(path, "CRD atom record: expected 'atomno resno resname atomname x y z "
                                            "...'", lineno)
-        for axis, word in zip("xyz", words[4:7]):
-            _field(path, lineno, word, f"CRD {axis} coordinate")
+        xyz.append([_field(path, lineno, word, f"CRD {axis} coordinate") for axis, word in zip("xyz", words[4:7])])
+    return np.array(xyz, dtype=np.float64).reshape(-1, 3)
 
 
 def _check_cif(path, lines) -> None:
@@ -134,13 +149,18 @@ def _check_cif(path, lines) -> None:
                     _field(path, lineno, token, f"_atom_site.Cartn_{'xyz'[k]}")
 
 
-def check_coordinate_text(path) -> None:
+def check_coordinate_text(path):
     """Refuse a text coordinate file whose coordinate or cell fields are not plain numbers.
 
     Parameters
     ----------
     path : str or os.PathLike
         Any coordinate file; formats other than PDB, CRD and mmCIF pass unread.
+
+    Returns
+    -------
+    (n, 3) float64 array or None
+        The coordinates of a CRD file (for :func:`compare_with_reader`); None otherwise.
 
     Raises
     ------
@@ -153,4 +173,28 @@ def check_coordinate_text(path) -> None:
     checker = {"pdb": _check_pdb, "ent": _check_pdb, "crd": _check_crd, "cor": _check_crd,
                "cif": _check_cif, "mmcif": _check_cif, "pdbx": _check_cif}.get(suffix)
     if checker is not None:
-        checker(path, _lines(path))
+        return checker(path, _lines(path))
+    return None
+
+
+def compare_with_reader(path, parsed, positions) -> None:
+    """Refuse a file whose coordinates a library read differently from its fields (MDAnalysis
+    reads CRD coordinates from fixed windows, and cuts a wide number's leading digits).
+
+    Parameters
+    ----------
+    parsed : (n, 3) float64 array or None
+        What :func:`check_coordinate_text` parsed (None: nothing to compare).
+    positions : (n, 3) array
+        The library's first frame (float32 in MDAnalysis: compared to 1e-6 relative).
+    """
+    if parsed is None or len(parsed) != len(positions):
+        return
+    got = np.asarray(positions, dtype=np.float64)
+    off = np.abs(got - parsed) > 1e-3 + 1e-6 * np.abs(parsed)
+    if off.any():
+        i = int(np.flatnonzero(off.any(axis=1))[0])
+        raise StructureFileError(path, f"atom {i + 1}: the coordinate fields hold "
+                                       f"({', '.join(f'{v:.6g}' for v in parsed[i])}) but the reader took "
+                                       f"({', '.join(f'{v:.6g}' for v in got[i])}): a number overflows its "
+                                       "column")

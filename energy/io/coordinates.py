@@ -7,7 +7,7 @@ import warnings
 import numpy as np
 
 from energy.errors import InputMismatchError, StructureFileError, one_line
-from energy.io.coordinate_text import check_coordinate_text
+from energy.io.coordinate_text import check_coordinate_text, compare_with_reader
 from energy.model.system import Frame
 
 #: Coordinate formats without atom names: read positions only (the topology gives the atoms).
@@ -56,8 +56,7 @@ def open_coordinates(path, n_atoms: int, names, topology_kind: str = "topology",
 
     path = os.fspath(path)
     suffix = path.rsplit(".", 1)[-1].lower() if "." in os.path.basename(path) else ""
-    if suffix not in TRAJECTORY_SUFFIXES:
-        check_coordinate_text(path)
+    parsed = check_coordinate_text(path) if suffix not in TRAJECTORY_SUFFIXES else None
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
@@ -70,6 +69,7 @@ def open_coordinates(path, n_atoms: int, names, topology_kind: str = "topology",
                 file_names = [str(x) for x in universe.atoms.names]
     except Exception as exc:  # MDAnalysis raises many kinds; all mean "cannot read"
         raise StructureFileError(path, f"cannot read {what}: {third_party_message(exc)}") from None
+    compare_with_reader(path, parsed, universe.atoms.positions)
     if len(universe.atoms) != n_atoms:
         raise InputMismatchError(f"{path} has {len(universe.atoms)} atoms but the {topology_kind} "
                                  f"has {n_atoms}")

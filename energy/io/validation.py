@@ -21,6 +21,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from energy._kernels.coincident import closest_pair_below
 from energy._kernels.neighbors import ResidueAtoms, residue_spheres
 from energy._kernels.pbc import box_matrix, minimum_image_vectors, perpendicular_widths
 from energy.errors import GeometryError, InputMismatchError
@@ -132,17 +133,6 @@ def check_residue_spans(positions, system, box=None) -> None:
         "was wrapped across a periodic cell; make molecules whole or give the cell")
 
 
-def _first_exact_duplicate(x):
-    """(i, j) of the first two atoms with identical coordinates, or None (O(n log n))."""
-    order = np.lexsort((x[:, 2], x[:, 1], x[:, 0]))
-    s = x[order]
-    same = np.flatnonzero(np.all(s[1:] == s[:-1], axis=1))
-    if not len(same):
-        return None
-    k = int(same[0])
-    return tuple(sorted((int(order[k]), int(order[k + 1]))))
-
-
 def _wrapped_with_face_images(x, box):
     """Coordinates wrapped into the cell, plus images of the atoms within the coincidence floor of
     a face; returns (points, atom of each point)."""
@@ -164,36 +154,46 @@ def _wrapped_with_face_images(x, box):
     return np.concatenate(points) @ h, np.concatenate(owners)
 
 
-def check_coincident_atoms(positions, system=None, box=None) -> None:
-    """Refuse two atoms closer than :data:`COINCIDENT_ANGSTROM` (minimum image with ``box``)."""
+def _close_pair(points):
+    """Two points closer than the floor (the numba sweep; a k-d tree when it is crowded)."""
+    pair = closest_pair_below(points, COINCIDENT_ANGSTROM)
+    if pair != "crowded":
+        return pair
     from scipy.spatial import cKDTree
+    order = np.lexsort((points[:, 2], points[:, 1], points[:, 0]))  # identical points first:
+    same = np.flatnonzero(np.all(points[order][1:] == points[order][:-1], axis=1))  # a k-d tree
+    if len(same):                                                   # cannot split them
+        return int(order[same[0]]), int(order[same[0] + 1])
+    d, idx = cKDTree(points).query(points, k=2, distance_upper_bound=COINCIDENT_ANGSTROM)
+    close = np.flatnonzero(np.isfinite(d[:, 1]))
+    return (int(close[0]), int(idx[close[0], 1])) if len(close) else None
 
+
+def check_coincident_atoms(positions, system=None, box=None) -> None:
+    """Refuse two atoms closer than :data:`COINCIDENT_ANGSTROM` (minimum image with ``box``).
+
+    Parameters
+    ----------
+    positions : (n_atoms, 3) float64 array, A
+    system : MolecularSystem, optional
+        Names the atoms in messages.
+    box : (6,) array or None
+        The unit cell; images of atoms near a face are tested too.
+    """
     x = np.ascontiguousarray(positions, dtype=np.float64)
     if len(x) < 2:
         return
-    pair = _first_exact_duplicate(x)
-    distance = 0.0
     periodic = box is not None and not np.all(np.asarray(box)[:3] == 0)
-    if pair is None:
-        points, owners = _wrapped_with_face_images(x, box) if periodic else (x, np.arange(len(x)))
-        if periodic:
-            exact = _first_exact_duplicate(points)
-            if exact is not None:
-                pair = tuple(sorted((int(owners[exact[0]]), int(owners[exact[1]]))))
-        if pair is None:
-            tree = cKDTree(points)
-            d, idx = tree.query(points[:len(x)], k=2, distance_upper_bound=COINCIDENT_ANGSTROM)
-            close = np.flatnonzero(np.isfinite(d[:, 1]))
-            if len(close):
-                i = int(close[0])
-                pair = tuple(sorted((i, int(owners[idx[i, 1]]))))
-                distance = float(d[i, 1])
-    if pair is None:
+    points, owners = _wrapped_with_face_images(x, box) if periodic else (x, np.arange(len(x)))
+    found = _close_pair(points)
+    if found is None:
         return
+    i, j = sorted((int(owners[found[0]]), int(owners[found[1]])))
+    d = float(np.linalg.norm(points[found[0]] - points[found[1]]))
     image = " (periodic images)" if periodic else ""
-    raise GeometryError(f"{_atom_label(system, pair[0])} and {_atom_label(system, pair[1])} are "
-                        f"{distance:.4f} A apart{image}, closer than {COINCIDENT_ANGSTROM:g} A: coincident "
-                        "atoms give infinite energies; check the coordinates")
+    raise GeometryError(f"{_atom_label(system, i)} and {_atom_label(system, j)} are {d:.4f} A apart{image}, "
+                        f"closer than {COINCIDENT_ANGSTROM:g} A: coincident atoms give infinite energies; "
+                        "check the coordinates")
 
 
 def check_frame(system, frame) -> None:
