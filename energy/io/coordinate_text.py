@@ -14,7 +14,7 @@ plain ASCII number (:func:`energy.io.numbers.parse_float`), naming the file and 
   what MDAnalysis reads (it takes them from fixed windows and silently cuts the leading digits
   of a number wider than its column: :func:`compare_with_reader`);
 * mmCIF (``.cif``, ``.mmcif``, ``.pdbx``): ``_atom_site.Cartn_x/y/z`` and ``_cell.length_*`` /
-  ``_cell.angle_*``.
+  ``_cell.angle_*``; lines of at most 2048 characters (CIF 1.1).
 
 Other formats are binary (their values are checked after reading) or left to their reader.
 """
@@ -119,7 +119,15 @@ def _check_crd(path, lines):
     return np.array(xyz, dtype=np.float64).reshape(-1, 3)
 
 
+#: Longest line of a CIF file (CIF 1.1 specification, IUCr: lines are at most 2048 characters).
+CIF_MAX_LINE = 2048
+
+
 def _check_cif(path, lines) -> None:
+    for lineno, line in enumerate(lines, 1):
+        if len(line) > CIF_MAX_LINE:
+            raise StructureFileError(path, f"line of {len(line)} characters: CIF lines are at most "
+                                           f"{CIF_MAX_LINE} characters", lineno)
     i = 0
     while i < len(lines):
         line = lines[i].strip()

@@ -57,6 +57,8 @@ def open_coordinates(path, n_atoms: int, names, topology_kind: str = "topology",
     path = os.fspath(path)
     suffix = path.rsplit(".", 1)[-1].lower() if "." in os.path.basename(path) else ""
     parsed = check_coordinate_text(path) if suffix not in TRAJECTORY_SUFFIXES else None
+    if suffix == "dcd":
+        _check_dcd_header(path)
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
@@ -84,6 +86,19 @@ def open_coordinates(path, n_atoms: int, names, topology_kind: str = "topology",
         if residues is not None:
             _check_residues(universe, residues, path, topology_kind)
     return universe
+
+
+def _check_dcd_header(path) -> None:
+    """A DCD starts with its 84-byte header record, ``CORD`` (or ``VELD``) first: refuse anything
+    else before MDAnalysis's reader fails on it (and leaves a half-built reader behind)."""
+    try:
+        with open(path, "rb") as handle:
+            head = handle.read(8)
+    except OSError as exc:
+        raise StructureFileError(path, f"cannot read the trajectory: {exc.strerror or exc}") from None
+    if len(head) < 8 or head[4:8] not in (b"CORD", b"VELD") or head[:4] not in (
+            (84).to_bytes(4, "little"), (84).to_bytes(4, "big")):
+        raise StructureFileError(path, "not a DCD file: it does not start with the 84-byte CORD header record")
 
 
 def _check_residues(universe, residues, path, topology_kind) -> None:

@@ -378,9 +378,9 @@ CASES = [
      "A truncated trajectory: the frame asked for is not complete.", "Copy the trajectory again."),
     ("dcd_not_a_dcd.dcd", "trajectory: a damaged header",
      lambda: b"\x00" * 16 + DCD[16:], "dcd",
-     "PATH: cannot read coordinates: Reading DCD header failed: format of DCD file is wrong",
-     "The trajectory reader cannot read the file (its message is shortened to one line; it used to "
-     "be an OSError without the file name).",
+     "PATH: not a DCD file: it does not start with the 84-byte CORD header record",
+     "The file is no DCD, or its header was damaged (this used to end in an OSError without the "
+     "file name; messages of the trajectory reader are shortened to one line with the file name).",
      "Check the file and its format."),
     ("dcd_nan_coordinates.dcd", "trajectory: nan coordinates",
      lambda: dcd_bytes([BASE_XYZ, [(float("nan"), 0.0, 0.0)] + SHIFTED_XYZ[1:]]), "dcd",
