@@ -68,6 +68,18 @@ class EnergyError(Exception):
     def __str__(self) -> str:
         return str(self.args[0]) if self.args else ""
 
+    def __reduce__(self):
+        """Pickle as (class, message, attributes): subclasses take other constructor arguments,
+        and worker processes send their errors back pickled."""
+        return _rebuild, (type(self), self.args, self.__dict__)
+
+
+def _rebuild(cls, args, attributes):
+    error = cls.__new__(cls)
+    Exception.__init__(error, *args)
+    error.__dict__.update(attributes)
+    return error
+
 
 class StructureFileError(EnergyError, ValueError):
     """A file could not be read or holds a malformed record.

@@ -456,7 +456,8 @@ def test_load_rejects_atom_name_mismatch_naming_both():
 
 
 def test_load_rejects_nan_coordinates():
-    with pytest.raises(StructureFileError, match="non-finite"):
+    # refused by the strict reading of the PDB's coordinate columns (energy.io.coordinate_text)
+    with pytest.raises(StructureFileError, match=r"x coordinate \(columns 31-38\): expected a number .* got 'nan'"):
         load_psf_system(PEP_PSF, [PEP_PRM], _write_pdb_with_atoms(PEP_PDB, nan=True))
 
 

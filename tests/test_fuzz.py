@@ -35,12 +35,14 @@ def test_damaged_inputs_give_equal_finite_totals_or_one_line_energy_errors(fuzze
 
 
 def test_reference_totals_are_those_of_the_undamaged_files(fuzzer):
+    from fuzzing import PEPTIDE
+
     from energy.decomposition.pipeline import compute
     from energy.io.loaders import load_system
-    from fuzzing import PEPTIDE
     loaded = load_system(str(PEPTIDE / "probe_peptide.psf"), str(PEPTIDE / "probe_peptide.pdb"),
                          [str(PEPTIDE / "probe_ff.prm")])
-    assert fuzzer.reference["psf+pdb", 0] == {k: float(v) for k, v in compute(loaded.system, loaded.frame).totals.items()}
+    totals = compute(loaded.system, loaded.frame).totals
+    assert fuzzer.reference["psf+pdb", 0] == {k: float(v) for k, v in totals.items()}
 
 
 def _case(strict=True):

@@ -519,3 +519,12 @@ def test_json_output_of_a_good_run_parses_strictly(tmp_path):
     doc = json.loads((tmp_path / "o.json").read_text(), parse_constant=refuse)
     assert all(math.isfinite(v) for v in doc["totals"].values())
     assert os.path.exists(tmp_path / "o.json")
+
+
+def test_errors_survive_pickling_between_processes():
+    # worker processes (energy.analysis.trajectory_parallel) send their errors back pickled
+    import pickle
+    for error in (StructureFileError("a.psf", "bad record", 3), NonFiniteEnergyError("lj", "residue pair X - Y"),
+                  GeometryError("two atoms coincide")):
+        back = pickle.loads(pickle.dumps(error))
+        assert type(back) is type(error) and str(back) == str(error) and back.__dict__ == error.__dict__

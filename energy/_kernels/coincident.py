@@ -49,6 +49,8 @@ def closest_pair_below(points: np.ndarray, floor: float):
     floor : float, A
     """
     x = np.ascontiguousarray(points, dtype=np.float64)
+    if not x.flags.writeable:  # one compiled variant (numba compiles read-only arrays apart)
+        x = x.copy()
     if len(x) < 2:
         return None
     axis = int(np.argmax(np.ptp(x, axis=0)))

@@ -40,7 +40,8 @@ class EnergyResult:
     ``totals``: term -> kcal/mol (all of :data:`TERMS` plus ``total``).
     ``interactions``: system attribute (``bonds``, ``angles``, ..., ``exceptions``) -> (n,) energies
       aligned with that table's rows; for ``exceptions`` a dict with ``coulomb``, ``lj``, ``distance``.
-    ``residue_pairs``: the sparse decomposition.  ``timings``: seconds per phase.
+    ``residue_pairs``: the sparse decomposition.  ``timings``: seconds per phase (``compute``: the
+    terms and the decomposition; ``checks``: the geometry checks before them, not included).
     """
 
     settings: EnergySettings
@@ -128,6 +129,7 @@ def prepare_system(system: MolecularSystem) -> None:
 def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySettings | None = None):
     """Generator: yields ``(done, total)``, returns an :class:`EnergyResult`."""
     settings = settings or EnergySettings()
+    t_checks = time.perf_counter()
     _validate_frame(system, frame)
     t0 = time.perf_counter()
     x = frame.positions
@@ -205,7 +207,7 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
     t_end = time.perf_counter()
     timings = {"bonded": t_bonded - t0, "neighbour_search": t_search - t_bonded,
                "nonbonded": t_kernel - t_search, "aggregate": t_end - t_kernel,
-               "compute": t_end - t0}
+               "compute": t_end - t0, "checks": t0 - t_checks}
     return EnergyResult(settings=settings, totals=totals, interactions=interactions,
                         residue_pairs=residue_pairs, timings=timings, periodic=periodic,
                         n_atom_pairs=rows.n_atom_pairs, unlisted=rows.unlisted)

@@ -43,7 +43,7 @@ def _lines(path):
         with opener(path, "rt", encoding="utf-8", errors="replace") as handle:
             return handle.read().splitlines()
     except (OSError, EOFError) as exc:
-        raise StructureFileError(path, f"cannot read the file: {getattr(exc, 'strerror', None) or exc}") from None
+        raise StructureFileError(path, f"cannot read coordinates: {getattr(exc, 'strerror', None) or exc}") from None
 
 
 def _field(path, lineno, text, what):
