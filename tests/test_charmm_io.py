@@ -98,11 +98,13 @@ PSF_TEXT = """PSF EXT
 
 @pytest.mark.parametrize("old, new, expect_line, expect", [
     ("PSF EXT", "PDB EXT", 1, "first line must start with 'PSF'"),
-    ("-0.100000", "minus0.1", 7, "malformed !NATOM record"),
-    ("1         2         1         3", "1         2         1", 13, "expected 4 atom indices"),
-    ("1         2         1         3", "1         2         x         3", 12, "integer"),
-    ("2         1         3", "2         1         9", None, "outside 1..3"),
-    ("         3 !NATOM", "         4 !NATOM", 10, "expected 4 atom records"),
+    ("-0.100000", "minus0.1", 7, "!NATOM atom 1 charge (e): expected a number"),
+    ("1         2         1         3", "1         2         1", 11,
+     "!NBOND: the header says 2 bonds but the section holds 1 and 1 stray indices"),
+    ("1         2         1         3", "1         2         x         3", 12,
+     "!NBOND atom index: expected an integer, got 'x'"),
+    ("2         1         3", "2         1         9", 12, "!NBOND: atom index 9 outside 1..3"),
+    ("         3 !NATOM", "         4 !NATOM", 6, "!NATOM: the header says 4 atoms but the section holds 3"),
 ])
 def test_psf_malformed_lines_raise_with_file_and_line(tmp_path, old, new, expect_line, expect):
     path = tmp_path / "bad.psf"
@@ -126,8 +128,14 @@ names_st = st.text(alphabet="ABCDEFGHIJKLMNOPQRSTUVWXYZ0123456789", min_size=1, 
 @st.composite
 def topologies(draw):
     n = draw(st.integers(1, 12))
-    idx = st.integers(0, n - 1)
-    rows = lambda k: draw(st.lists(st.tuples(*[idx] * k), max_size=10))  # noqa: E731
+
+    def rows(k):  # entries name distinct atoms (each half of a CMAP entry: a dihedral)
+        half = min(k, 4)
+        if n < half:
+            return []
+        atoms = st.permutations(list(range(n))).map(lambda p: tuple(p[:half]))
+        entry = st.tuples(atoms, atoms).map(lambda t: t[0] + t[1]) if k == 8 else atoms
+        return draw(st.lists(entry, max_size=10))
     return dict(names=draw(st.lists(names_st, min_size=n, max_size=n)),
                 types=draw(st.lists(names_st.map(lambda s: "T" + s), min_size=n, max_size=n)),
                 charges=draw(st.lists(st.floats(-2, 2).map(lambda x: round(x, 6)), min_size=n,
@@ -289,7 +297,7 @@ def test_later_file_overrides_earlier(prm_file, tmp_path):
 
 @pytest.mark.parametrize("old, new, expect", [
     ("tb  tc   450.0  0.96", "tb  tc   450.0", "BONDS: expected"),
-    ("TB  TA  TC   50.0  111.0", "TB  TA  TC   50.0  oops", "ANGLES: expected numbers"),
+    ("TB  TA  TC   50.0  111.0", "TB  TA  TC   50.0  oops", "ANGLES theta0: expected a number"),
     (" 1.3 1.4 1.5 1.6", " 1.3 1.4", "needs 16 values"),
     ("TB  TA  TC  TB   0.20  3 180.0", "TB  TA  TC  TB   0.20  2.5 180.0", "periodicity"),
     ("TB  0.0  -0.022  1.32", "TB  0.0  -0.022", "NONBONDED: expected"),
@@ -448,7 +456,8 @@ def test_load_rejects_atom_name_mismatch_naming_both():
 
 
 def test_load_rejects_nan_coordinates():
-    with pytest.raises(StructureFileError, match="non-finite"):
+    # refused by the strict reading of the PDB's coordinate columns (energy.io.coordinate_text)
+    with pytest.raises(StructureFileError, match=r"x coordinate \(columns 31-38\): expected a number .* got 'nan'"):
         load_psf_system(PEP_PSF, [PEP_PRM], _write_pdb_with_atoms(PEP_PDB, nan=True))
 
 

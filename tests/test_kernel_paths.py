@@ -54,7 +54,7 @@ def test_all_pairs_in_blocks_keeps_totals_and_lists_every_large_pair(monkeypatch
     from energy._kernels import residue_rows
     from energy.errors import SettingsError
     system, frame = random_system(np.random.default_rng(7), n_residues=60, atoms_per_residue=(1, 6),
-                                  box=60.0, n_exceptions=30)
+                                  box=40.0, n_exceptions=30)  # residues < 50 A wide: energy.io.validation
     listed = compute(system, frame, EnergySettings())
     monkeypatch.setattr(residue_rows, "ALL_PAIRS_LISTED_LIMIT", 10)
     monkeypatch.setattr(residue_rows, "BLOCK_PAIRS", 97)      # many blocks, rows split unevenly

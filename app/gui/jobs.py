@@ -15,7 +15,7 @@ from PySide6.QtCore import QObject, QThread, Signal
 from app.state.document import Snapshot
 from energy.analysis.compare import compare_results
 from energy.decomposition.pipeline import compute_steps
-from energy.errors import EnergyError
+from energy.errors import EnergyError, one_line
 from energy.io.loaders import load_system
 
 
@@ -26,8 +26,14 @@ def failure_message(exc: BaseException) -> tuple[str, str]:
         return str(exc), ""
     if isinstance(exc, OSError):
         name = getattr(exc, "filename", None)
-        return f"{name + ': ' if name else ''}{exc.strerror or exc}", ""
-    return f"unexpected error: {exc}", traceback.format_exc()
+        return one_line(f"{str(name) + ': ' if name else ''}{exc.strerror or exc}"), ""
+    return unexpected_message(exc), traceback.format_exc()
+
+
+def unexpected_message(exc: BaseException) -> str:
+    """One line for an exception that is a bug (its traceback goes under "Details")."""
+    return one_line(f"unexpected error ({type(exc).__name__}: {one_line(exc, 120)}); this is a bug, "
+                    "please report it with the input files (details below)")
 
 
 
@@ -112,7 +118,7 @@ class EnergyWorker(QObject):
             self.finished.emit(JobResult(out, comparison, pair))
         except Cancelled:
             self.cancelled.emit()
-        except Exception as exc:  # noqa: BLE001  (every failure reaches the window as a message)
+        except Exception as exc:  # expected failures: one line; unexpected: plus the traceback
             self.failed.emit(*failure_message(exc))
 
 

@@ -31,6 +31,7 @@ from energy._kernels.geometry import minimum_image
 from energy._kernels.pair_key import ordered_pair_keys, pair_keys
 from energy.analysis.vdw_radii import bondi_radius
 from energy.errors import SettingsError
+from energy.io.validation import check_frame
 from energy.model.settings import EXP6_ALPHA_MATCHING_LJ
 from energy.model.system import Frame, MolecularSystem
 from energy.terms.exclusions import excluded_and_14
@@ -411,6 +412,7 @@ def find_clashes(system: MolecularSystem, frame: Frame, options: ClashOptions | 
     x = np.asarray(frame.positions, float)
     if x.shape != (n, 3):
         raise SettingsError(f"the frame has {len(x)} atoms, the system {n}")
+    check_frame(system, frame)  # coincident atoms, a degenerate cell, ...: before any energy
     searched = np.ones(n, bool) if opt.include_hydrogens else system.is_heavy
     atoms = np.flatnonzero(searched)
     radii, fallback = atom_radii(system, opt.radii)

@@ -26,7 +26,6 @@ from __future__ import annotations
 
 import os
 import time
-import warnings
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -35,8 +34,8 @@ from energy._kernels.geometry import minimum_image
 from energy.analysis.pair_statistics import COLUMNS, PairStatistics
 from energy.decomposition.atom_pairs import interaction_energy
 from energy.decomposition.pipeline import compute, run_to_end
-from energy.errors import EnergyError
-from energy.io.coordinates import frame_from_timestep, open_coordinates
+from energy.errors import EnergyError, StructureFileError
+from energy.io.coordinates import frame_from_timestep, open_coordinates, read_timestep, third_party_message
 from energy.io.loaders import load_system
 from energy.io.selection import select_atoms, universe_for
 from energy.model.settings import EnergySettings
@@ -218,7 +217,10 @@ class TrajectorySource:
         self.system = loaded.system
         self.path = request.trajectory_path
         self.universe = open_trajectory(self.path, self.system.n_atoms, self.system.names)
-        self.n_frames = len(self.universe.trajectory)
+        try:
+            self.n_frames = len(self.universe.trajectory)
+        except Exception as exc:  # a damaged trajectory: the reader's own exception kinds
+            raise StructureFileError(self.path, f"cannot count the frames: {third_party_message(exc)}") from None
         n_res = self.system.n_residues
         for i, j in request.pairs:
             if j >= n_res:
@@ -251,10 +253,7 @@ class TrajectorySource:
             if not 0 <= k < self.n_frames:
                 raise TrajectoryError(f"{self.path}: frame {k} requested but the file has "
                                       f"{self.n_frames} frame(s)")
-            with warnings.catch_warnings():
-                warnings.simplefilter("ignore")
-                ts = self.universe.trajectory[int(k)]
-            yield frame_from_timestep(ts, self.path, int(k))
+            yield frame_from_timestep(read_timestep(self.universe, int(k), self.path), self.path, int(k))
 
     # -- one frame ------------------------------------------------------------------------
     def _pair_distances(self, frame: Frame, periodic: bool) -> np.ndarray:

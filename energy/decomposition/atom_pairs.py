@@ -16,6 +16,7 @@ from energy._kernels.pair_key import pair_keys, split_keys
 from energy._kernels.pbc import is_orthorhombic, minimum_image_vectors, periodic_cell
 from energy.decomposition.residue_pairs import is_member, sorted_unique
 from energy.io.selection import select_atoms, universe_for
+from energy.io.validation import check_frame
 from energy.model.settings import EnergySettings
 from energy.model.system import Frame, MolecularSystem
 from energy.terms.nonbonded import KernelConstants, exception_energies, pair_energies
@@ -213,6 +214,7 @@ def interaction_energy(system, frame, settings, atoms_a, atoms_b) -> dict:
         ``coulomb``, ``lj``, ``total`` (float, kcal/mol) and ``n_pairs`` (int, atom pairs listed,
         exception pairs included).
     """
+    check_frame(system, frame)  # the geometry checks, before any energy
     e = atom_pair_energies(system, frame, settings, atoms_a, atoms_b)
     c, l = float(e.coulomb.sum()), float(e.lj.sum())
     return {"coulomb": c, "lj": l, "total": c + l, "n_pairs": int(len(e))}

@@ -17,8 +17,9 @@ from energy._kernels.csr import all_pairs_rows, locate_pairs
 from energy._kernels.neighbors import ResidueAtoms, residue_spheres, spatial_layout
 from energy._kernels.pair_key import ordered_pair_keys, split_keys
 from energy._kernels.pbc import is_orthorhombic, periodic_cell, perpendicular_widths
+from energy.decomposition.finiteness import check_finite
 from energy.decomposition.residue_pairs import BondedAttribution, ResiduePairEnergies, assemble, sorted_unique
-from energy.errors import InputMismatchError
+from energy.io.validation import check_frame
 from energy.model.settings import EnergySettings
 from energy.model.system import Frame, MolecularSystem
 from energy.terms import registry
@@ -39,7 +40,8 @@ class EnergyResult:
     ``totals``: term -> kcal/mol (all of :data:`TERMS` plus ``total``).
     ``interactions``: system attribute (``bonds``, ``angles``, ..., ``exceptions``) -> (n,) energies
       aligned with that table's rows; for ``exceptions`` a dict with ``coulomb``, ``lj``, ``distance``.
-    ``residue_pairs``: the sparse decomposition.  ``timings``: seconds per phase.
+    ``residue_pairs``: the sparse decomposition.  ``timings``: seconds per phase (``compute``: the
+    terms and the decomposition; ``checks``: the geometry checks before them, not included).
     """
 
     settings: EnergySettings
@@ -55,14 +57,8 @@ class EnergyResult:
 
 
 def _validate_frame(system: MolecularSystem, frame: Frame):
-    if frame.positions.shape[0] != system.n_atoms:
-        raise InputMismatchError(f"the coordinates hold {frame.positions.shape[0]} atoms but the "
-                                 f"topology has {system.n_atoms}")
-    bad = ~np.isfinite(frame.positions).all(axis=1)
-    if bad.any():
-        i = int(np.flatnonzero(bad)[0])
-        raise InputMismatchError(f"{int(bad.sum())} atom(s) have non-finite coordinates, first: atom "
-                                 f"{i + 1} {system.names[i]} of {system.residues.label(system.resindex[i])}")
+    """The geometry checks of :mod:`energy.io.validation`, before any energy is computed."""
+    check_frame(system, frame)
 
 
 def _exception_residue_keys(system):
@@ -170,6 +166,7 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
         If a cutoff is used in a unit cell narrower than twice the cutoff.
     """
     settings = settings or EnergySettings()
+    t_checks = time.perf_counter()
     _validate_frame(system, frame)
     t0 = time.perf_counter()
     x = frame.positions
@@ -243,10 +240,11 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
                              rows.min_heavy,
                              rows.count > 0, contributions)
     totals["total"] = float(sum(totals[t] for t in TERMS))
+    check_finite(system, frame, settings, totals, interactions, residue_pairs)
     t_end = time.perf_counter()
     timings = {"bonded": t_bonded - t0, "neighbour_search": t_search - t_bonded,
                "nonbonded": t_kernel - t_search, "aggregate": t_end - t_kernel,
-               "compute": t_end - t0}
+               "compute": t_end - t0, "checks": t0 - t_checks}
     return EnergyResult(settings=settings, totals=totals, interactions=interactions,
                         residue_pairs=residue_pairs, timings=timings, periodic=periodic,
                         n_atom_pairs=rows.n_atom_pairs, unlisted=rows.unlisted)

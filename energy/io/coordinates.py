@@ -6,7 +6,8 @@ import warnings
 
 import numpy as np
 
-from energy.errors import InputMismatchError, StructureFileError
+from energy.errors import InputMismatchError, StructureFileError, one_line
+from energy.io.coordinate_text import check_coordinate_text, compare_with_reader
 from energy.model.system import Frame
 
 #: Coordinate formats without atom names: read positions only (the topology gives the atoms).
@@ -34,7 +35,8 @@ def is_trajectory_path(path) -> bool:
     return "." in name and name.rsplit(".", 1)[-1].lower() in TRAJECTORY_SUFFIXES
 
 
-def open_coordinates(path, n_atoms: int, names, topology_kind: str = "topology", what: str = "coordinates"):
+def open_coordinates(path, n_atoms: int, names, topology_kind: str = "topology", what: str = "coordinates",
+                     residues=None):
     """An MDAnalysis Universe over a coordinate file or trajectory, checked against the topology.
 
     Parameters
@@ -49,6 +51,10 @@ def open_coordinates(path, n_atoms: int, names, topology_kind: str = "topology",
         How the topology is named in messages ("PSF", "topology").
     what : str
         How the file is named in the "cannot read" message.
+    residues : (resnames, resindex), optional
+        Per-atom residue names (n_atoms,) str and residue index (n_atoms,) int of the topology:
+        where the file has residues, their names and where each residue starts must agree
+        (a residue number may differ: files are renumbered).
 
     Returns
     -------
@@ -60,12 +66,15 @@ def open_coordinates(path, n_atoms: int, names, topology_kind: str = "topology",
     StructureFileError
         Unreadable file.
     InputMismatchError
-        Atom count or atom names differ between topology and file.
+        Atom count, atom names or residues differ between topology and file.
     """
     import MDAnalysis as mda
 
     path = os.fspath(path)
     suffix = path.rsplit(".", 1)[-1].lower() if "." in os.path.basename(path) else ""
+    parsed = check_coordinate_text(path) if suffix not in TRAJECTORY_SUFFIXES else None
+    if suffix == "dcd":
+        _check_dcd_header(path)
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
@@ -77,7 +86,8 @@ def open_coordinates(path, n_atoms: int, names, topology_kind: str = "topology",
                 universe = mda.Universe(path)
                 file_names = [str(x) for x in universe.atoms.names]
     except Exception as exc:  # MDAnalysis raises many kinds; all mean "cannot read"
-        raise StructureFileError(path, f"cannot read {what}: {exc}") from None
+        raise StructureFileError(path, f"cannot read {what}: {third_party_message(exc)}") from None
+    compare_with_reader(path, parsed, universe.atoms.positions)
     if len(universe.atoms) != n_atoms:
         raise InputMismatchError(f"{path} has {len(universe.atoms)} atoms but the {topology_kind} "
                                  f"has {n_atoms}")
@@ -89,7 +99,62 @@ def open_coordinates(path, n_atoms: int, names, topology_kind: str = "topology",
                               for i, a, b in bad[:5])
             raise InputMismatchError(f"atom names differ between the {topology_kind} and {path} "
                                      f"({len(bad)} atoms), e.g. {shown}")
+        if residues is not None:
+            _check_residues(universe, residues, path, topology_kind)
     return universe
+
+
+def _check_dcd_header(path) -> None:
+    """A DCD starts with its 84-byte header record, ``CORD`` (or ``VELD``) first: refuse anything
+    else before MDAnalysis's reader fails on it (and leaves a half-built reader behind)."""
+    try:
+        with open(path, "rb") as handle:
+            head = handle.read(8)
+    except OSError as exc:
+        raise StructureFileError(path, f"cannot read the trajectory: {exc.strerror or exc}") from None
+    if len(head) < 8 or head[4:8] not in (b"CORD", b"VELD") or head[:4] not in (
+            (84).to_bytes(4, "little"), (84).to_bytes(4, "big")):
+        raise StructureFileError(path, "not a DCD file: it does not start with the 84-byte CORD header record")
+
+
+def _check_residues(universe, residues, path, topology_kind) -> None:
+    """Residue names (first 4 letters: the PDB field) and residue starts must agree."""
+    resnames, resindex = np.asarray(residues[0]).astype(str), np.asarray(residues[1])
+    atoms = universe.atoms
+    file_names = np.array([str(r).strip().upper()[:4] for r in atoms.resnames])
+    ours = np.char.upper(np.char.strip(resnames)).astype("U4")
+    bad = np.flatnonzero(file_names != ours)
+    if len(bad):
+        i = int(bad[0])
+        raise InputMismatchError(f"residue names differ between the {topology_kind} and {path} "
+                                 f"({len(bad)} atoms), e.g. atom {i + 1}: {topology_kind} {resnames[i]!r} vs "
+                                 f"coordinates {str(atoms.resnames[i])!r}")
+    file_res = np.asarray(atoms.resindices)
+    starts_ours = np.r_[True, resindex[1:] != resindex[:-1]]
+    starts_file = np.r_[True, file_res[1:] != file_res[:-1]]
+    bad = np.flatnonzero(starts_ours != starts_file)
+    if len(bad):
+        i = int(bad[0])
+        raise InputMismatchError(f"the residues of {path} do not follow the {topology_kind}'s: atom {i + 1} "
+                                 f"{'starts' if starts_file[i] else 'does not start'} a residue in the file but "
+                                 f"{'does' if starts_ours[i] else 'does not'} in the {topology_kind} "
+                                 "(atoms out of order?)")
+
+
+def third_party_message(exc: BaseException) -> str:
+    """A library's exception as one short line (the caller puts the file name first)."""
+    return one_line(str(exc), 160) or type(exc).__name__
+
+
+def read_timestep(universe, index: int, path):
+    """Timestep ``index`` of ``universe``; any failure of the reader (a truncated or damaged
+    frame, models of different sizes) becomes a :class:`StructureFileError` naming the file."""
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            return universe.trajectory[int(index)]
+    except Exception as exc:  # MDAnalysis raises OSError, ValueError, IndexError, EOFError ...
+        raise StructureFileError(path, f"cannot read frame {index}: {third_party_message(exc)}") from None
 
 
 def frame_from_timestep(ts, path, index: int) -> Frame:
@@ -114,15 +179,18 @@ def frame_from_timestep(ts, path, index: int) -> Frame:
     StructureFileError
         If a coordinate is NaN or infinite.
     """
-    positions = np.array(ts.positions, dtype=np.float64)
+    with np.errstate(invalid="ignore", over="ignore"):  # a damaged frame: judged right below
+        positions = np.array(ts.positions, dtype=np.float64)
+        box = None if ts.dimensions is None else np.array(ts.dimensions, dtype=np.float64)
     if not np.all(np.isfinite(positions)):
         raise StructureFileError(path, f"frame {index} holds non-finite (NaN/inf) coordinates")
-    box = None if ts.dimensions is None else np.array(ts.dimensions, dtype=np.float64)
     return Frame(positions=positions, box=box, index=index, source=os.fspath(path))
 
 
-def read_frame(coords_path, n_atoms: int, names, frame: int = 0, topology_kind: str = "PSF") -> Frame:
-    """Read one frame (0-based) of coordinates and check it against the topology.
+def read_frame(coords_path, n_atoms: int, names, frame: int = 0, topology_kind: str = "PSF",
+               residues=None) -> Frame:
+    """Read one frame (0-based) of coordinates and check it against the topology (``residues``:
+    see :func:`open_coordinates`).
 
     Raises StructureFileError (unreadable file, missing frame, non-finite coordinates) or
     InputMismatchError (atom count or names differ).
@@ -146,9 +214,12 @@ def read_frame(coords_path, n_atoms: int, names, frame: int = 0, topology_kind: 
         Positions (n_atoms, 3) float64 A, unit cell (A, degrees) or None, ``index`` ``frame``.
     """
     path = os.fspath(coords_path)
-    universe = open_coordinates(path, n_atoms, names, topology_kind)
-    n_frames = len(universe.trajectory)
+    universe = open_coordinates(path, n_atoms, names, topology_kind, residues=residues)
+    try:
+        n_frames = len(universe.trajectory)
+    except Exception as exc:
+        raise StructureFileError(path, f"cannot count the frames: {third_party_message(exc)}") from None
     if not 0 <= frame < n_frames:
         raise StructureFileError(path, f"frame {frame} requested but the file has {n_frames} "
                                        f"frame(s) (0..{n_frames - 1})")
-    return frame_from_timestep(universe.trajectory[frame], path, frame)
+    return frame_from_timestep(read_timestep(universe, frame, path), path, frame)

@@ -88,7 +88,8 @@ def load_system(structure, coords=None, params=(), frame: int = 0, add_hydrogens
         t_read = time.perf_counter()
         system = build_charmm_system(psf, parameter_set)
         t_param = time.perf_counter()
-        fr = read_frame(coords, psf.n_atoms, psf.names, frame)
+        fr = read_frame(coords, psf.n_atoms, psf.names, frame,
+                        residues=(psf.resnames, system.resindex))
         t_coords = time.perf_counter()
         timings = {"read": (t_read - t0) + (t_coords - t_param), "parameterise": t_param - t_read}
     elif suffix in STRUCTURE_SUFFIXES:
@@ -103,7 +104,8 @@ def load_system(structure, coords=None, params=(), frame: int = 0, add_hydrogens
         if coords is not None or frame:
             from energy.io.charmm_system import read_frame
             t1 = time.perf_counter()
-            fr = read_frame(coords or structure, system.n_atoms, system.names, frame)
+            fr = read_frame(coords or structure, system.n_atoms, system.names, frame,
+                            residues=(system.residues.resname[system.resindex], system.resindex))
             timings["read"] += time.perf_counter() - t1
     else:
         raise StructureFileError(structure, f"unknown structure format {suffix!r}: expected a PSF "

@@ -304,7 +304,9 @@ class Frame:
     """Coordinates of one conformation.
 
     ``positions`` (n_atoms, 3) float64 in A; ``box`` is ``None`` (not periodic) or the unit cell
-    as MDAnalysis gives it, ``[a, b, c, alpha, beta, gamma]`` (A, degrees).  ``index`` is the
+    as MDAnalysis gives it, ``[a, b, c, alpha, beta, gamma]`` (A, degrees); all-zero edges mean
+    no cell.  Nothing here checks the values: every computation passes the frame through
+    :func:`energy.io.validation.check_frame` first.  ``index`` is the
     frame number in its trajectory (0 for a single structure).
     """
 
@@ -318,9 +320,9 @@ class Frame:
         object.__setattr__(self, "positions", pos)
         if self.box is not None:
             box = np.asarray(self.box, dtype=np.float64)
-            if box.shape != (6,) or not np.all(box[:3] > 0):
+            if box.shape != (6,) or np.all(box[:3] == 0):
                 box = None  # MDAnalysis reports "no box" as zeros
-            else:
+            else:  # kept as given: energy.io.validation.check_cell refuses a cell that is no cell
                 box = _frozen_array(box, np.float64)
             object.__setattr__(self, "box", box)
 

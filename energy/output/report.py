@@ -12,6 +12,7 @@ import os
 
 import numpy as np
 
+from energy.errors import NonFiniteEnergyError
 from energy.output.blocked import blocked_pair_csv
 from energy.output.files import atomic_open, atomic_write_text
 from energy.terms.registry import TERMS, TermNames
@@ -19,12 +20,30 @@ from energy.terms.registry import TERMS, TermNames
 UNITS = {"energy": "kcal/mol", "distance": "angstrom"}
 
 
+def require_finite(system, result) -> None:
+    """Refuse to write a result holding a non-finite energy (a total, a residue pair's term or
+    the unlisted sums); the pipeline refuses them first (:mod:`energy.decomposition.finiteness`),
+    this keeps every writer honest on its own.
 
-
-
-
-
-
+    Raises
+    ------
+    NonFiniteEnergyError
+        Naming the term and the first residue pair.
+    """
+    for term in (*TERMS, "total"):
+        if not np.isfinite(float(result.totals[term])):
+            raise NonFiniteEnergyError(term, "the total; nothing was written")
+    rp = result.residue_pairs
+    for term in TERMS:
+        bad = np.flatnonzero(~np.isfinite(rp.values[term]))
+        if len(bad):
+            k = int(bad[0])
+            label = system.residues.label if system is not None else lambda i: f"#{int(i)}"
+            raise NonFiniteEnergyError(term, f"residue pair {label(rp.pair_i[k])} - {label(rp.pair_j[k])}; "
+                                             "nothing was written")
+    for key in ("coulomb", "lj"):
+        if result.unlisted and not np.isfinite(result.unlisted[key]):
+            raise NonFiniteEnergyError(key, "the unlisted residue pairs; nothing was written")
 
 
 def residue_records(system) -> list[dict]:
@@ -271,16 +290,29 @@ def _pair_csv(labels, cols) -> str:
     return out.getvalue()
 
 
-def write_json(path, doc: dict) -> None:
-    """Write ``doc`` as indented JSON to ``path``, atomically (NaN and inf are refused).
+def _first_non_finite(value, where="document"):
+    """The key path of the first non-finite float in a JSON-like ``value``, or None."""
+    if isinstance(value, float):
+        return None if np.isfinite(value) else where
+    if isinstance(value, dict):
+        items = value.items()
+    elif isinstance(value, (list, tuple)):
+        items = enumerate(value)
+    else:
+        return None
+    for key, item in items:
+        found = _first_non_finite(item, f"{where}.{key}")
+        if found:
+            return found
+    return None
 
-    Parameters
-    ----------
-    path : str or os.PathLike
-        The file to write.
-    doc : dict
-        A JSON-ready document.
-    """
+
+def write_json(path, doc: dict) -> None:
+    """Write ``doc`` as JSON, atomically; a non-finite number is refused before anything is
+    written (:class:`NonFiniteEnergyError` naming its key)."""
+    where = _first_non_finite(doc)
+    if where is not None:
+        raise NonFiniteEnergyError(where.split(".")[-1], f"{where} in the JSON document; nothing was written")
     atomic_write_text(path, json.dumps(doc, indent=1, allow_nan=False) + "\n")
 
 
@@ -299,6 +331,7 @@ def write_scan_json(path, doc: dict, result, rows=None) -> None:
         Only these rows of the residue-pair table (e.g. the solute rows of a run with solvent
         blocks, :func:`energy.output.blocked.solute_rows`); all rows when None.
     """
+    require_finite(None, result)
     text = json.dumps(doc, indent=1, allow_nan=False)
     head, tail = text.split(json.dumps(_PAIRS_PLACEHOLDER), 1)
     with atomic_open(path, "w") as fh:
@@ -336,6 +369,7 @@ def write_csv_dir(folder, system, result, blocked=None) -> list[str]:
     list of str
         The two paths written.
     """
+    require_finite(system, result)
     folder = os.fspath(folder)
     os.makedirs(folder, exist_ok=True)
     paths = [os.path.join(folder, "residues.csv"), os.path.join(folder, "residue_pairs.csv")]

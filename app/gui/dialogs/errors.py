@@ -8,14 +8,18 @@ import traceback
 
 from PySide6.QtWidgets import QMessageBox
 
+from energy.errors import one_line
+
 log = logging.getLogger(__name__)
 
 
 def show_error(parent, title: str, message: str, details: str = "") -> None:
+    """A modal warning with ``message`` as one capped line (:func:`energy.errors.one_line`) and
+    ``details`` (a traceback) under "Show Details..."."""
     box = QMessageBox(parent)
     box.setIcon(QMessageBox.Icon.Warning)
     box.setWindowTitle(title)
-    box.setText(message)
+    box.setText(one_line(message))
     if details:
         box.setDetailedText(details)
     box.setStandardButtons(QMessageBox.StandardButton.Ok)
@@ -28,7 +32,8 @@ def install_excepthook(parent_getter) -> None:
         text = "".join(traceback.format_exception(kind, value, tb))
         log.error("unexpected error\n%s", text)
         try:
-            show_error(parent_getter(), "Unexpected error", f"{kind.__name__}: {value}", text)
+            show_error(parent_getter(), "Unexpected error", f"{kind.__name__}: {value}; this is a bug, "
+                       "please report it (details below)", text)
         except Exception:  # never raise from the hook
             sys.__excepthook__(kind, value, tb)
     sys.excepthook = hook
