@@ -23,3 +23,9 @@ ADK_DCD = _mdat.DCD
 SCENARIO_DIR = os.path.join(REPO, "samples", "scenario")
 SCENARIO_CLASH_PDB = os.path.join(SCENARIO_DIR, "complex_clash.pdb")
 SCENARIO_FIXED_PDB = os.path.join(SCENARIO_DIR, "complex_fixed.pdb")
+
+_MDAT_DATA = os.path.join(os.path.dirname(_mdat.__file__), "data")
+
+#: MDAnalysisTests 2.11: PDB 2JUY (neopetrosiamide), solution NMR, 24 models with hydrogens,
+#: the placeholder CRYST1 1.000 1.000 1.000, one methionine sulfoxide (SME 24), 3 disulfides.
+NMR_NEOPETROSIAMIDE_PDB = os.path.join(_MDAT_DATA, "nmr_neopetrosiamide.pdb")

@@ -406,6 +406,9 @@ class MainWindow(QMainWindow):
         if unlisted and not ds.is_difference:
             size += (f" | {unlisted['n_pairs']:,} residue pairs under {unlisted['below']:g} kcal/mol "
                      "not listed (no cutoff; totals include them)")
+        cell_note = getattr(snap.result, "cell_note", "")
+        if cell_note and not ds.is_difference:
+            size += f" | {cell_note}"
         self.size_label.setText(size)
         self.time_label.setText(f"last computation {self.last_compute_s:.2f} s"
                                 if self.last_compute_s is not None else "")

@@ -34,6 +34,7 @@ import numpy as np
 from energy.analysis.pair_statistics import COLUMNS, PairStatistics
 from energy.errors import EnergyError
 from energy.io.coordinates import frame_from_timestep
+from energy.io.whole import whole_frame
 from energy.model.settings import EnergySettings
 from energy.model.system import Frame
 
@@ -184,7 +185,7 @@ class TrajectorySource:
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")
                 ts = self.universe.trajectory[int(k)]
-            yield frame_from_timestep(ts, self.path, int(k))
+            yield whole_frame(self.system, frame_from_timestep(ts, self.path, int(k)))
 
     # -- one frame ------------------------------------------------------------------------
     def _pair_distances(self, frame: Frame, periodic: bool) -> np.ndarray:
@@ -254,7 +255,8 @@ class TrajectorySource:
         record = FrameRecord(index=frame.index, totals={k: float(result.totals[k]) for k in COLUMNS},
                              pair_values=values,
                              pair_distance=self._pair_distances(frame, result.periodic),
-                             selection=selection, seconds=time.perf_counter() - t0)
+                             selection=selection, seconds=time.perf_counter() - t0,
+                             cell_note=result.cell_note)
         return record, rp
 
 
@@ -279,6 +281,8 @@ class FrameRecord:
     pair_distance: np.ndarray
     selection: dict | None = None
     seconds: float = 0.0
+    #: Why the frame's unit cell was not used (energy.model.cell), or "".
+    cell_note: str = ""
 
 
 @dataclass
@@ -339,6 +343,10 @@ class TrajectoryResult:
         out = {c: np.array([r.pair_values[k, n] for r in self.records]) for n, c in enumerate(COLUMNS)}
         out["min_heavy_distance"] = np.array([r.pair_distance[k] for r in self.records])
         return out
+
+    def cell_notes(self) -> list[str]:
+        """The distinct notes on ignored unit cells over the frames, in order of first appearance."""
+        return list(dict.fromkeys(r.cell_note for r in self.records if r.cell_note))
 
     def selection_series(self) -> dict | None:
         if self.request.select_a is None:

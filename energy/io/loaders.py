@@ -12,6 +12,7 @@ import time
 from dataclasses import dataclass, field
 
 from energy.errors import StructureFileError
+from energy.io.whole import whole_frame
 from energy.model.system import Frame, MolecularSystem
 
 STRUCTURE_SUFFIXES = (".pdb", ".ent", ".cif", ".mmcif", ".pdbx")
@@ -81,4 +82,5 @@ def load_system(structure, coords=None, params=(), frame: int = 0, add_hydrogens
     else:
         raise StructureFileError(structure, f"unknown structure format {suffix!r}: expected a PSF "
                                  "(with --params and coordinates) or a PDB/mmCIF file")
+    fr = whole_frame(system, fr)  # molecules split across a periodic box: whole again
     return LoadedSystem(system, fr, timings, structure, coords or "", params)

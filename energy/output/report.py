@@ -108,7 +108,8 @@ def scan_document(loaded, result, selection=None, extra_timings=None) -> dict:
         "force_field": system.force_field,
         "n_atoms": system.n_atoms,
         "n_residues": system.n_residues,
-        "settings": {**result.settings.as_dict(), "periodic": result.periodic},
+        "settings": {**result.settings.as_dict(), "periodic": result.periodic,
+                     "cell_note": result.cell_note or None},
         "totals": {k: float(result.totals[k]) for k in (*TERMS, "total")},
         "n_atom_pairs_within_cutoff": result.n_atom_pairs,
         "unlisted_pairs": result.unlisted,
@@ -183,8 +184,10 @@ def summary_text(loaded, result, top: int = 8, selection=None) -> str:
     lines = [f"{loaded.structure_path}: {system.n_atoms} atoms, {system.n_residues} residues; "
              f"{system.force_field}",
              f"settings: {result.settings.describe()}"
-             + ("; periodic (minimum image)" if result.periodic else ""),
-             "", "per-term totals (kcal/mol):"]
+             + ("; periodic (minimum image)" if result.periodic else "")]
+    if result.cell_note:
+        lines.append(f"note: {result.cell_note}")
+    lines += ["", "per-term totals (kcal/mol):"]
     for t in (*TERMS, "total"):
         lines.append(f"  {t:<13}{result.totals[t]:>16.4f}")
     rp = result.residue_pairs
