@@ -29,3 +29,7 @@ _MDAT_DATA = os.path.join(os.path.dirname(_mdat.__file__), "data")
 #: MDAnalysisTests 2.11: PDB 2JUY (neopetrosiamide), solution NMR, 24 models with hydrogens,
 #: the placeholder CRYST1 1.000 1.000 1.000, one methionine sulfoxide (SME 24), 3 disulfides.
 NMR_NEOPETROSIAMIDE_PDB = os.path.join(_MDAT_DATA, "nmr_neopetrosiamide.pdb")
+
+#: MDAnalysisTests 2.11: PDB 1BD2 (T-cell receptor / MHC class I complex, X-ray) as gzipped
+#: mmCIF; chain D has unobserved residues 133-136 and 170-172 (internal breaks).
+MMCIF_1BD2_GZ = os.path.join(_MDAT_DATA, "mmcif", "1BD2.cif.gz")

@@ -6,7 +6,12 @@ import argparse
 import os
 import time
 
-from app.cli.arguments import add_input_arguments, add_settings_arguments, settings_from_args
+from app.cli.arguments import (
+    add_input_arguments,
+    add_settings_arguments,
+    preparation_from_args,
+    settings_from_args,
+)
 from energy import prepare_kernels
 from energy.decomposition.atom_pairs import selection_interaction
 from energy.decomposition.pipeline import compute, prepare_system
@@ -23,6 +28,8 @@ def configure_parser(p: argparse.ArgumentParser) -> None:
     p.add_argument("--select-b", metavar="SEL", help="MDAnalysis selection B")
     p.add_argument("--json", metavar="OUT.json", help="write the full result as JSON")
     p.add_argument("--csv-dir", metavar="DIR", help="write residues.csv and residue_pairs.csv")
+    p.add_argument("--write-prepared", metavar="FILE.pdb",
+                   help="write the structure as prepared (repaired, hydrogens added...) as a PDB")
     p.add_argument("--top", type=int, default=8, help="pairs shown in the summary (default 8)")
     p.add_argument("--quiet", action="store_true", help="no summary or progress on stdout/stderr")
     traj = p.add_argument_group("trajectories")
@@ -37,6 +44,18 @@ def configure_parser(p: argparse.ArgumentParser) -> None:
     traj.add_argument("--persistence-threshold", type=float, default=-1.0, metavar="E",
                       help="a residue pair 'persists' in frames where its total is below E kcal/mol "
                            "(default -1.0)")
+
+
+def write_prepared(loaded, path) -> None:
+    """``--write-prepared``: the prepared structure of the built-in route as a PDB."""
+    from energy.io.preparation import write_prepared_pdb
+    if loaded.preparation is None:
+        raise EnergyError("--write-prepared writes a PDB/mmCIF as prepared for the built-in force "
+                          "field; a PSF system is used as it is")
+    if not os.path.isdir(os.path.dirname(os.path.abspath(path))):
+        raise EnergyError(f"{path}: the output folder does not exist")
+    write_prepared_pdb(loaded.prepared_topology, loaded.frame.positions, path)
+    loaded.preparation.prepared_pdb = os.fspath(path)
 
 
 def run(args) -> int:
@@ -56,7 +75,9 @@ def run(args) -> int:
     prepare_kernels(settings)
     prepare_seconds = time.perf_counter() - t0
     loaded = load_system(args.structure, args.coords, args.params, frame=args.frame,
-                         add_hydrogens=args.add_hydrogens)
+                         preparation=preparation_from_args(args))
+    if args.write_prepared:
+        write_prepared(loaded, args.write_prepared)
     t0 = time.perf_counter()
     prepare_system(loaded.system)
     prepare_system_seconds = time.perf_counter() - t0

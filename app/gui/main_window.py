@@ -409,6 +409,9 @@ class MainWindow(QMainWindow):
         cell_note = getattr(snap.result, "cell_note", "")
         if cell_note and not ds.is_difference:
             size += f" | {cell_note}"
+        prep = getattr(snap.loaded, "preparation", None)
+        if prep is not None and not ds.is_difference and prep.summary_lines():
+            size += f" | prepared: {prep.short_text()}"
         self.size_label.setText(size)
         self.time_label.setText(f"last computation {self.last_compute_s:.2f} s"
                                 if self.last_compute_s is not None else "")

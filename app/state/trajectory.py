@@ -120,7 +120,8 @@ def std_pairs(stats) -> ResiduePairEnergies:
 
 def make_request(spec, settings) -> TrajectoryRequest:
     return TrajectoryRequest(structure=spec.structure, coords=spec.coords, params=tuple(spec.params),
-                             add_hydrogens=spec.add_hydrogens, settings=settings)
+                             add_hydrogens=spec.add_hydrogens, settings=settings,
+                             preparation=None if spec.params else spec.preparation())
 
 
 def scan_steps(loaded, request: TrajectoryRequest, store: PairSeriesStore | None, frames=None):

@@ -78,6 +78,9 @@ class TrajectoryRequest:
     select_b: str | None = None
     persistence_threshold: float = -1.0
     chunk_frames: int = CHUNK_FRAMES
+    #: How a PDB/mmCIF is prepared (energy.io.preparation.PreparationOptions); None: only
+    #: ``add_hydrogens``.
+    preparation: object = None
 
     def __post_init__(self):
         absolute = lambda p: None if p is None else os.path.abspath(os.fspath(p))  # noqa: E731
@@ -149,6 +152,16 @@ def open_trajectory(path: str, n_atoms: int, names):
     return open_coordinates(path, n_atoms, names, "topology", "the trajectory")
 
 
+class _ModelFrames:
+    """The models of a multi-model structure behind the part of MDAnalysis' Universe interface
+    that :class:`TrajectorySource` reads (``len(u.trajectory)``, ``u.trajectory[k].positions`` and
+    ``.dimensions``), in double precision."""
+
+    def __init__(self, models, box):
+        from types import SimpleNamespace
+        self.trajectory = [SimpleNamespace(positions=m, dimensions=box) for m in models]
+
+
 class TrajectorySource:
     """The parameterised system and an open trajectory (one per process; not thread-safe)."""
 
@@ -160,11 +173,18 @@ class TrajectorySource:
         self.request = request
         if loaded is None:
             loaded = load_system(request.structure, request.coords, request.params, frame=0,
-                                 add_hydrogens=request.add_hydrogens)
+                                 add_hydrogens=request.add_hydrogens, preparation=request.preparation)
         self.loaded = loaded
         self.system = loaded.system
         self.path = request.trajectory_path
-        self.universe = open_trajectory(self.path, self.system.n_atoms, self.system.names)
+        if request.coords is None and loaded.preparation is not None:
+            # A multi-model PDB/mmCIF: its models, as parsed for the topology (same atoms, same
+            # names, same order), are the frames.
+            from energy.io.loaders import model_frame
+            model_frame(self.path, loaded.models, loaded.frame.box, 0)  # refuses models that cannot be mapped
+            self.universe = _ModelFrames(loaded.models, loaded.frame.box)
+        else:
+            self.universe = open_trajectory(self.path, self.system.n_atoms, self.system.names)
         self.n_frames = len(self.universe.trajectory)
         n_res = self.system.n_residues
         for i, j in request.pairs:

@@ -25,38 +25,48 @@ _KNOWN_FORCES = {"HarmonicBondForce", "HarmonicAngleForce", "PeriodicTorsionForc
                  "NonbondedForce", "CMAPTorsionForce", "CMMotionRemover"}
 
 
-def _read_openmm_structure(path: str):
-    from openmm import app
-    ext = os.path.splitext(path)[1].lower()
-    try:
-        if ext in (".cif", ".mmcif", ".pdbx"):
-            return app.PDBxFile(path)
-        return app.PDBFile(path)
-    except FileNotFoundError:
-        raise StructureFileError(path, "file not found") from None
-    except Exception as exc:  # OpenMM raises bare Exceptions/ValueErrors on malformed files
-        raise StructureFileError(path, f"could not read the structure ({exc})") from None
-
-
-def _unmatched_message(ff, topology, add_hydrogens: bool, ff_names) -> str:
-    unmatched = ff.getUnmatchedResidues(topology)
-    known = {name for name in ff._templates}
-    has_h = any(a.element is not None and a.element.symbol == "H" for a in topology.atoms())
-    names_known = [r for r in unmatched if r.name in known]
-    labels = [f"{r.chain.id.strip() + ':' if r.chain.id.strip() else ''}{r.name}{r.id}" for r in unmatched[:12]]
-    more = f" and {len(unmatched) - 12} more" if len(unmatched) > 12 else ""
-    head = f"{len(unmatched)} residue(s) match no template of {', '.join(ff_names)}: {', '.join(labels)}{more}. "
-    if not has_h and not add_hydrogens:
-        return "the structure has no hydrogen atoms: add them with --add-hydrogens. " + head
-    if names_known and not add_hydrogens:
-        head += "Residues with standard names but missing or extra atoms may need --add-hydrogens. "
-    return head + ("Remove unsupported residues (ligands, modified residues) from the file, or use "
-                   "the PSF route with parameter files that cover them.")
-
-
 def _clean_openmm_message(exc: Exception) -> str:
     text = str(exc).split("For more information")[0].strip()
     return " ".join(text.split())
+
+
+def build_force_field(force_field=DEFAULT_FORCE_FIELD, extra_files=()):
+    """OpenMM ``ForceField`` of ``force_field`` plus the template files ``extra_files``.
+
+    Raises
+    ------
+    StructureFileError
+        An extra file that is missing or not a force-field XML OpenMM can read (with its path).
+    """
+    from openmm import app
+    ff = app.ForceField(*force_field)
+    for path in extra_files:
+        if not os.path.isfile(path):
+            raise StructureFileError(path, "force-field file not found")
+        try:
+            ff.loadFile(path)
+        except Exception as exc:  # OpenMM raises ValueError/ParseError/KeyError on bad XML
+            raise StructureFileError(path, f"not a force-field XML file OpenMM can read "
+                                     f"({_clean_openmm_message(exc)})") from None
+    return ff
+
+
+def _unmatched_error(path, ff, topology, options, label, unmatched=None, gaps=()):
+    from openmm import app
+
+    from energy.io.preparation import modified_parents
+    from energy.io.residue_messages import unmatched_message
+    from energy.io.structure_text import read_structure_text
+    unmatched = ff.getUnmatchedResidues(topology) if unmatched is None else unmatched
+    has_h = any(a.element is not None and a.element.symbol == "H" for a in topology.atoms())
+    app.Modeller._loadStandardHydrogenDefinitions()
+    standard = set(app.Modeller._residueHydrogens) | {"HOH"}
+    message = unmatched_message(unmatched, has_hydrogens=has_h, add_hydrogens=options.adds_hydrogens,
+                                repair=options.repair, standard_names=standard,
+                                modified_parents={} if options.repair else
+                                modified_parents(read_structure_text(path)),
+                                force_field_label=label, gaps=gaps)
+    return UnknownResidueError(f"{path}: {message}")
 
 
 def _atom_types(ff, topology):
@@ -175,37 +185,58 @@ def system_from_openmm(omm_system, topology, types=None, force_field="", source_
         force_field=force_field, source_files=tuple(source_files))
 
 
-def load_builtin(path: str, add_hydrogens: bool = False, force_field=DEFAULT_FORCE_FIELD, ph: float = 7.0):
-    """Read ``path`` (PDB/mmCIF) and parameterise it.
+def load_builtin(path: str, add_hydrogens: bool = False, force_field=DEFAULT_FORCE_FIELD, ph: float = 7.0,
+                 options=None):
+    """Read ``path`` (PDB/mmCIF, ``.gz`` too), prepare it and parameterise it.
 
-    Returns ``(MolecularSystem, Frame, openmm Topology, seconds spent reading the file)``.
+    Returns ``(MolecularSystem, Frame, openmm Topology, seconds spent reading the file)``; see
+    :func:`load_builtin_prepared` for the preparation record and the models.
     """
-    import time
+    from energy.io.preparation import PreparationOptions
+    options = options or PreparationOptions(add_hydrogens=add_hydrogens, ph=ph)
+    system, frame, topology, prepared = load_builtin_prepared(path, options, force_field)
+    return system, frame, topology, prepared.read_seconds
 
-    from openmm import app, unit
-    t0 = time.perf_counter()
-    structure = _read_openmm_structure(path)
-    read_seconds = time.perf_counter() - t0
-    ff = app.ForceField(*force_field)
-    modeller = app.Modeller(structure.topology, structure.positions)
-    if add_hydrogens:
-        try:
-            modeller.addHydrogens(ff, pH=ph)
-        except Exception as exc:
-            raise UnknownResidueError(
-                f"{path}: could not add hydrogens: {_clean_openmm_message(exc)} Remove or rename "
-                "unsupported residues (ligands, modified residues), or use the PSF route with "
-                "parameter files that cover them.") from None
-    topology = modeller.topology
+
+def load_builtin_prepared(path: str, options, force_field=DEFAULT_FORCE_FIELD):
+    """Read, prepare (:mod:`energy.io.preparation`) and parameterise ``path``.
+
+    Parameters
+    ----------
+    path : str
+        PDB or mmCIF file, optionally gzip-compressed.
+    options : energy.io.preparation.PreparationOptions
+    force_field : tuple of str
+        OpenMM force-field files (default Amber 14 + TIP3P); ``options.forcefield_files`` add to it.
+
+    Returns
+    -------
+    (MolecularSystem, Frame, openmm.app.Topology, energy.io.preparation.PreparedStructure)
+
+    Raises
+    ------
+    StructureFileError, UnknownResidueError
+    """
+    from openmm import app
+
+    from energy.io.preparation import UnmatchedResidues, prepare_structure
+    label = " + ".join([*force_field, *(os.path.basename(f) for f in options.forcefield_files)])
+    ff = build_force_field(force_field, options.forcefield_files)
+    try:
+        prepared = prepare_structure(path, options, ff, label)
+    except UnmatchedResidues as exc:
+        raise _unmatched_error(path, ff, exc.topology, options, label, exc.residues, exc.gaps) from None
+    except UnknownResidueError as exc:
+        raise UnknownResidueError(f"{path}: {exc}") from None
+    topology = prepared.topology
     if ff.getUnmatchedResidues(topology):
-        raise UnknownResidueError(f"{path}: " + _unmatched_message(ff, topology, add_hydrogens, force_field))
+        raise _unmatched_error(path, ff, topology, options, label, gaps=prepared.record.gaps)
     try:
         omm_system = ff.createSystem(topology, nonbondedMethod=app.NoCutoff, constraints=None,
                                      rigidWater=False, removeCMMotion=False)
     except ValueError as exc:
         raise UnknownResidueError(f"{path}: the force field could not parameterise the structure: "
                                   f"{_clean_openmm_message(exc)}") from None
-    positions = np.array(modeller.positions.value_in_unit(unit.angstrom))
     system = system_from_openmm(omm_system, topology, _atom_types(ff, topology),
-                                force_field=" + ".join(force_field), source_files=(path,))
-    return system, Frame(positions, _box_from_topology(topology), 0, path), topology, read_seconds
+                                force_field=label, source_files=(path, *options.forcefield_files))
+    return system, Frame(prepared.positions, _box_from_topology(topology), 0, path), topology, prepared

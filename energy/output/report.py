@@ -113,6 +113,7 @@ def scan_document(loaded, result, selection=None, extra_timings=None) -> dict:
         "totals": {k: float(result.totals[k]) for k in (*TERMS, "total")},
         "n_atom_pairs_within_cutoff": result.n_atom_pairs,
         "unlisted_pairs": result.unlisted,
+        "preparation": None if getattr(loaded, "preparation", None) is None else loaded.preparation.as_dict(),
         "residues": residue_records(system),
         "pairs": _PAIRS_PLACEHOLDER,
         "timings": timings,
@@ -187,6 +188,9 @@ def summary_text(loaded, result, top: int = 8, selection=None) -> str:
              + ("; periodic (minimum image)" if result.periodic else "")]
     if result.cell_note:
         lines.append(f"note: {result.cell_note}")
+    preparation = getattr(loaded, "preparation", None)
+    if preparation is not None:
+        lines += [f"preparation: {line}" for line in preparation.summary_lines()]
     lines += ["", "per-term totals (kcal/mol):"]
     for t in (*TERMS, "total"):
         lines.append(f"  {t:<13}{result.totals[t]:>16.4f}")
