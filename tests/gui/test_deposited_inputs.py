@@ -14,3 +14,22 @@ def test_status_bar_notes_the_ignored_placeholder_cell(qtbot, window, tmp_path):
     note = window.snapshot.result.cell_note
     assert note.startswith("unit cell ignored: CRYST1 1 x 1 x 1 A")
     assert note in window.size_label.text()
+
+
+def test_open_dialog_carries_the_preparation_options(qtbot):
+    """The open dialog's repair, pH, template and leave-out controls reach the LoadSpec, and the
+    LoadSpec survives the recent-files round trip."""
+    from app.gui.dialogs.open_dialog import OpenStructureDialog
+    dialog = OpenStructureDialog()
+    qtbot.addWidget(dialog)
+    dialog.structure.edit.setText("/data/1a28.pdb.gz")
+    dialog.repair.setChecked(True)
+    dialog.ph.setValue(6.5)
+    dialog.forcefield_files.setText("/data/lig.xml; /data/cof.xml")
+    dialog.drop_unmatched.setChecked(True)
+    spec = dialog.spec()
+    assert (spec.repair, spec.ph, spec.forcefield_files, spec.drop_unmatched) == (
+        True, 6.5, ("/data/lig.xml", "/data/cof.xml"), True)
+    assert LoadSpec.from_dict(spec.as_dict()) == spec
+    options = spec.preparation()
+    assert options.repair and options.adds_hydrogens and options.ph == 6.5
