@@ -31,7 +31,7 @@ from energy.io.coordinates import TRAJECTORY_SUFFIXES
 #: File-dialog filter of coordinate files: single structures and every trajectory format the
 #: engine reads (energy.io.coordinates.TRAJECTORY_SUFFIXES).
 COORDINATE_FILTER = ("Coordinates (" + " ".join(f"*.{s}" for s in
-                     ("pdb", "crd", "cor", *sorted(TRAJECTORY_SUFFIXES))) + ");;All files (*)")
+                     ("pdb", "crd", "cor", *sorted(TRAJECTORY_SUFFIXES), "gz")) + ");;All files (*)")
 
 
 class _PathField(QWidget):
