@@ -48,13 +48,14 @@ def configure_parser(p: argparse.ArgumentParser) -> None:
 
 def write_prepared(loaded, path) -> None:
     """``--write-prepared``: the prepared structure of the built-in route as a PDB."""
-    from energy.io.preparation import write_prepared_pdb
+    from energy.io.preparation import prepared_pdb_text
+    from energy.output.files import atomic_write_text
     if loaded.preparation is None:
         raise EnergyError("--write-prepared writes a PDB/mmCIF as prepared for the built-in force "
                           "field; a PSF system is used as it is")
     if not os.path.isdir(os.path.dirname(os.path.abspath(path))):
         raise EnergyError(f"{path}: the output folder does not exist")
-    write_prepared_pdb(loaded.prepared_topology, loaded.frame.positions, path)
+    atomic_write_text(path, prepared_pdb_text(loaded.prepared_topology, loaded.frame.positions))
     loaded.preparation.prepared_pdb = os.fspath(path)
 
 

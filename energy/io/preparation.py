@@ -539,16 +539,14 @@ def prepare_structure(path: str, options: PreparationOptions, force_field, force
                              read_seconds)
 
 
-def write_prepared_pdb(topology, positions, path) -> None:
-    """Write ``topology`` with ``positions`` ((n_atoms, 3) A) as a PDB file, atomically."""
+def prepared_pdb_text(topology, positions) -> str:
+    """``topology`` with ``positions`` ((n_atoms, 3) A) as PDB text (author numbers kept)."""
     from openmm import app, unit
-
-    from energy.output.files import atomic_write_text
     out = io.StringIO()
     app.PDBFile.writeFile(topology, np.asarray(positions) * 0.1 * unit.nanometer, out, keepIds=True)
-    atomic_write_text(path, out.getvalue())
+    return out.getvalue()
 
 
 __all__ = ["GAP_C_N_ANGSTROM", "PreparationOptions", "PreparationRecord", "PreparedStructure",
            "UnmatchedResidues", "find_gaps", "grouped_listing", "prepare_structure", "split_chains",
-           "unmatched_as_they_are", "write_prepared_pdb"]
+           "prepared_pdb_text", "unmatched_as_they_are"]
