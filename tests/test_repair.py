@@ -76,6 +76,20 @@ def test_repaired_crystal_structure_matches_openmm_and_has_thermal_bonds(repaire
     assert ours.totals["angle"] / len(system.angles) < 1.0
 
 
+def test_rebuilt_residues_clash_no_more_than_deposited_ones(repaired_1a28):
+    """The relaxation of rebuilt atoms with the force field (PDBFixer's soft relaxation alone left
+    A:ASN705's ND2 1.6 A from A:HIS703's ND1, +3,700 kcal/mol of LJ). Expected: each residue with
+    rebuilt atoms has a per-residue LJ energy below the largest of the residues repair did not
+    touch (deposited atoms only), and the LJ total is attractive."""
+    system, _, _, prepared, ours = repaired_1a28
+    per = ours.residue_pairs.per_residue("lj")
+    labels = [system.residues.label(i) for i in range(system.n_residues)]
+    rebuilt = {a["residue"] for a in prepared.record.atoms_added}
+    untouched = max(v for label, v in zip(labels, per) if label not in rebuilt)
+    assert all(per[labels.index(label)] < untouched for label in rebuilt)
+    assert ours.totals["lj"] < 0.0
+
+
 def test_two_runs_give_identical_totals_and_the_prepared_pdb(repaired_1a28, tmp_path):
     """Expected: a second run (the CLI, same input and options) gives bit-identical totals in its
     JSON; its preparation block and the written PDB describe the same atoms."""

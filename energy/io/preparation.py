@@ -92,6 +92,7 @@ class PreparationRecord:
     dropped: list = field(default_factory=list)         # residue labels
     hydrogens_added: int = 0
     renamed_atoms: list = field(default_factory=list)   # (chain, number, icode, old, new)
+    atoms_relaxed: int = 0
     n_models: int = 1
     prepared_pdb: str | None = None
 
@@ -105,7 +106,7 @@ class PreparationRecord:
                 "atoms_renamed": [f"{c + ':' if c else ''}{n}{i} {old}->{new}"
                                   for c, n, i, old, new in self.renamed_atoms],
                 "atoms_added": list(self.atoms_added),
-                "hydrogens_added": self.hydrogens_added,
+                "hydrogens_added": self.hydrogens_added, "atoms_relaxed": self.atoms_relaxed,
                 "virtual_sites_removed": list(self.virtual_sites_removed),
                 "dropped_residues": list(self.dropped), "n_models": self.n_models,
                 "prepared_pdb": self.prepared_pdb}
@@ -151,6 +152,9 @@ class PreparationRecord:
             out.append(f"left out {len(self.dropped)} residue(s) matching no template: "
                        + ", ".join(self.dropped[:12])
                        + (f" ({len(self.dropped) - 12} more)" if len(self.dropped) > 12 else ""))
+        if self.atoms_relaxed:
+            out.append(f"relaxed the {self.atoms_relaxed} atom(s) not in the file with the force field "
+                       "(deposited atoms fixed)")
         if self.prepared_pdb:
             out.append(f"prepared structure written to {self.prepared_pdb}")
         return out
@@ -212,6 +216,12 @@ def _atom_key(atom):
     preparation (a replaced residue keeps its number, not its name)."""
     r = atom.residue
     return (str(r.chain.id), str(r.id), str(getattr(r, "insertionCode", "") or ""), atom.name)
+
+
+def _renamed(atom, record) -> bool:
+    r = atom.residue
+    key = (str(r.chain.id), str(r.id), str(getattr(r, "insertionCode", "") or ""))
+    return any(key == (c, n, i) and atom.name == new for c, n, i, _, new in record.renamed_atoms)
 
 
 def _models_on(topology, models, original_keys):
@@ -407,7 +417,34 @@ def _repair_with(fixer, topology, positions, record, force_field):
         added.setdefault(r.index, [residue_label(r), []])[1].extend(names)
     record.atoms_added = [{"residue": label, "atoms": names} for _, (label, names) in sorted(added.items())]
     fixer.addMissingAtoms(seed=REPAIR_SEED)
-    return fixer.topology, np.array(fixer.positions.value_in_unit(unit.angstrom), dtype=np.float64)
+    positions = np.array(fixer.positions.value_in_unit(unit.angstrom), dtype=np.float64)
+    terminal = {(str(r.chain.id), str(r.id), str(getattr(r, "insertionCode", "") or ""))
+                for r in fixer.missingTerminals}
+    place_carboxylate_oxygens(fixer.topology, positions, terminal)
+    return fixer.topology, positions
+
+
+#: C-terminal C-O bond length, A (carboxylate, common practice).
+CARBOXYLATE_C_O_ANGSTROM = 1.25
+
+
+def place_carboxylate_oxygens(topology, positions, residues) -> None:
+    """Put each rebuilt OXT of ``residues`` ((chain, number, icode) keys) where a carboxylate's
+    second oxygen is: in the CA-C-O plane, 1.25 A from C, bisecting the outside of the CA-C-O
+    angle (sp2 carbon, about 120 degrees to both).  PDBFixer's own placement left OXT within
+    0.8 A of CA on deposited entries (e.g. 1A28's A:LYS932).  ``positions`` (A) change in place."""
+    for residue in topology.residues():
+        key = (str(residue.chain.id), str(residue.id), str(getattr(residue, "insertionCode", "") or ""))
+        if key not in residues:
+            continue
+        atoms = {a.name: a.index for a in residue.atoms()}
+        if not {"CA", "C", "O", "OXT"} <= set(atoms):
+            continue
+        c = positions[atoms["C"]]
+        to_o = positions[atoms["O"]] - c
+        to_ca = positions[atoms["CA"]] - c
+        direction = -(to_o / np.linalg.norm(to_o) + to_ca / np.linalg.norm(to_ca))
+        positions[atoms["OXT"]] = c + CARBOXYLATE_C_O_ANGSTROM * direction / np.linalg.norm(direction)
 
 
 def modified_parents(text: str = "") -> dict:
@@ -460,6 +497,38 @@ def _hydrogen_failure(exc, topology) -> str:
     return text
 
 
+#: Relaxation of atoms that are not the file's (rebuilt heavy atoms, added hydrogens): energy
+#: tolerance (kJ/mol/nm, OpenMM's unit) and iteration cap of OpenMM's LocalEnergyMinimizer.
+RELAX_TOLERANCE, RELAX_ITERATIONS = 10.0, 500
+
+
+def relax_added_atoms(topology, positions, force_field, from_file, record):
+    """Minimise the energy of the atoms not in the file with the force field itself, every
+    deposited atom held fixed (mass 0): PDBFixer relaxes rebuilt atoms with a soft potential
+    only, which left rebuilt side chains 1.6 A from a neighbour (1A28's A:ASN705 ND2).  Nonbonded
+    cutoff 1 nm (as OpenMM's Modeller relaxes hydrogens), on :func:`deterministic_platform`."""
+    import openmm
+    from openmm import app, unit
+    moving = [k for k, atom in enumerate(topology.atoms()) if not from_file[k]]
+    if not moving:
+        return positions
+    system = force_field.createSystem(topology, nonbondedMethod=app.CutoffNonPeriodic,
+                                      nonbondedCutoff=1.0 * unit.nanometer, constraints=None,
+                                      rigidWater=False)
+    for k in range(system.getNumParticles()):
+        if from_file[k]:
+            system.setParticleMass(k, 0.0)
+    with deterministic_platform() as platform:
+        context = openmm.Context(system, openmm.VerletIntegrator(0.001), platform)
+        context.setPositions(positions * 0.1 * unit.nanometer)
+        openmm.LocalEnergyMinimizer.minimize(context, RELAX_TOLERANCE, RELAX_ITERATIONS)
+        relaxed = context.getState(getPositions=True).getPositions(asNumpy=True).value_in_unit(unit.angstrom)
+    record.atoms_relaxed = len(moving)
+    out = np.array(relaxed, dtype=np.float64)
+    out[np.asarray(from_file)] = positions[np.asarray(from_file)]  # the file's atoms, exactly
+    return out
+
+
 def drop_residues(topology, positions, residues, record):
     """Remove ``residues`` (OpenMM residues of ``topology``), listing them in ``record``."""
     if not residues:
@@ -507,6 +576,7 @@ def prepare_structure(path: str, options: PreparationOptions, force_field, force
     topology, models, text, pdbx = _parse(path, record)
     read_seconds = time.perf_counter() - t0
     original_keys = {_atom_key(a): a.index for a in topology.atoms()}
+    file_keys = set(original_keys)
     if len(original_keys) < topology.getNumAtoms():
         original_keys = {}  # names repeat in the file: only an unchanged structure keeps its models
     positions = models[0]
@@ -529,6 +599,9 @@ def prepare_structure(path: str, options: PreparationOptions, force_field, force
     if options.drop_unmatched:
         unmatched = force_field.getUnmatchedResidues(topology)
         topology, positions = drop_residues(topology, positions, unmatched, record)
+    if options.repair and record.atoms_added and not force_field.getUnmatchedResidues(topology):
+        from_file = [_atom_key(a) in file_keys or _renamed(a, record) for a in topology.atoms()]
+        positions = relax_added_atoms(topology, positions, force_field, from_file, record)
     for chain, number, icode, old, new in record.renamed_atoms:
         if (chain, number, icode, old) in original_keys:
             original_keys[(chain, number, icode, new)] = original_keys[(chain, number, icode, old)]
