@@ -154,3 +154,20 @@ def test_molecules_wrapped_across_the_box_are_made_whole(wrapped_dcds):
                                 reference_loaded.frame.positions)
     _compare(ours, ref)
     assert_close(ours.totals["bond"], ref["HarmonicBondForce"], "bond after making molecules whole")
+
+
+def test_placeholder_cell_through_the_command_line_with_repair(tmp_path):
+    """nmr_neopetrosiamide.pdb (MDAnalysisTests; PDB 2JUY) as a user runs it: --repair (SME ->
+    MET), defaults vs --no-periodic, and with a 10 A cutoff. Expected: the JSON totals equal to
+    1e-9 kcal/mol, the first run noting the ignored cell."""
+    docs = {}
+    for name, extra in (("default", []), ("plain", ["--no-periodic"]),
+                        ("cutoff", ["--cutoff", "10"]), ("cutoff_plain", ["--cutoff", "10", "--no-periodic"])):
+        out = tmp_path / f"{name}.json"
+        assert main(["scan", NMR_NEOPETROSIAMIDE_PDB, "--repair", *extra, "--json", str(out), "--quiet"]) == 0
+        docs[name] = json.loads(out.read_text())
+    for a, b in (("default", "plain"), ("cutoff", "cutoff_plain")):
+        for term in (*TERMS, "total"):
+            assert docs[a]["totals"][term] == pytest.approx(docs[b]["totals"][term], abs=1e-9, rel=0)
+    assert "placeholder" in docs["default"]["settings"]["cell_note"]
+    assert docs["plain"]["settings"]["cell_note"] is None

@@ -26,7 +26,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from energy.errors import StructureFileError, UnknownResidueError
+from energy.errors import SettingsError, StructureFileError, UnknownResidueError
 from energy.io.residue_messages import (
     VIRTUAL_SITE_NAMES,
     grouped_listing,
@@ -68,7 +68,7 @@ class PreparationOptions:
     def __post_init__(self):
         object.__setattr__(self, "forcefield_files", tuple(str(f) for f in self.forcefield_files))
         if not (np.isfinite(self.ph) and 0.0 <= self.ph <= 14.0):
-            raise UnknownResidueError(f"--ph must lie between 0 and 14, got {self.ph}")
+            raise SettingsError(f"--ph must lie between 0 and 14, got {self.ph}")
 
     @property
     def adds_hydrogens(self) -> bool:
