@@ -54,7 +54,7 @@ def build_force_field(force_field=DEFAULT_FORCE_FIELD, extra_files=()):
 def _unmatched_error(path, ff, topology, options, label, unmatched=None, gaps=()):
     from openmm import app
 
-    from energy.io.preparation import modified_parents
+    from energy.io.repair import modified_parents
     from energy.io.residue_messages import unmatched_message
     from energy.io.structure_text import read_structure_text
     unmatched = ff.getUnmatchedResidues(topology) if unmatched is None else unmatched
