@@ -33,3 +33,18 @@ def test_open_dialog_carries_the_preparation_options(qtbot):
     assert LoadSpec.from_dict(spec.as_dict()) == spec
     options = spec.preparation()
     assert options.repair and options.adds_hydrogens and options.ph == 6.5
+
+
+def test_window_opens_a_model_of_an_ensemble_with_repair(qtbot, window):
+    """nmr_neopetrosiamide.pdb (MDAnalysisTests; PDB 2JUY) opened with the dialog's repair option
+    at model 3. Expected: the status bar says what preparation did and that the cell was ignored;
+    the energies are those of the engine for the same spec."""
+    from energy.decomposition.pipeline import compute
+    from energy.io.loaders import load_system
+    spec = LoadSpec(NMR_NEOPETROSIAMIDE_PDB, frame=3, repair=True)
+    with qtbot.waitSignal(window.computeFinished, timeout=60000):
+        window.open_spec(spec)
+    text = window.size_label.text()
+    assert "prepared: 1 residue(s) replaced" in text and "unit cell ignored" in text
+    loaded = load_system(NMR_NEOPETROSIAMIDE_PDB, frame=3, preparation=spec.preparation())
+    assert window.snapshot.result.totals == compute(loaded.system, loaded.frame, window.energy_settings).totals
