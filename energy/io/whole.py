@@ -8,8 +8,10 @@ given (docs/physics.md), so the readers make each molecule whole first, with MDA
 
 It is done only when it is needed and possible: the frame has a cell that
 :func:`energy.model.cell.check_cell` accepts, the topology has bonds, and at least one bond is
-longer than half the narrowest width of the cell (no real bond is; a wrapped one is about a box
-length).  Otherwise the positions are returned untouched, bit for bit.
+longer than both half the narrowest width of the cell and :data:`LONGEST_BOND_ANGSTROM` (no
+covalent bond is; a wrapped one is about a box length).  The second condition keeps a crystal
+structure in a narrow lattice cell, whose cell is no simulation box, as deposited.  Otherwise the
+positions are returned untouched, bit for bit.
 """
 from __future__ import annotations
 
@@ -21,9 +23,14 @@ from energy._kernels.pbc import box_matrix, perpendicular_widths
 from energy.model.cell import check_cell
 from energy.model.system import Frame
 
+#: No covalent bond is longer (A; the longest common ones, e.g. I-I or a stretched S-S, are under
+#: 2.7 A: common practice).
+LONGEST_BOND_ANGSTROM = 3.0
+
 
 def split_bonds(positions, box, bonds) -> np.ndarray:
-    """Indices of the bonds longer than half the narrowest width of ``box``.
+    """Indices of the bonds longer than half the narrowest width of ``box`` and than
+    :data:`LONGEST_BOND_ANGSTROM`.
 
     Parameters
     ----------
@@ -38,6 +45,7 @@ def split_bonds(positions, box, bonds) -> np.ndarray:
     if len(bonds) == 0:
         return np.zeros(0, np.intp)
     half = 0.5 * float(perpendicular_widths(box_matrix(np.asarray(box, np.float64))).min())
+    half = max(half, LONGEST_BOND_ANGSTROM)
     d = positions[bonds[:, 1]] - positions[bonds[:, 0]]
     return np.flatnonzero(np.einsum("ij,ij->i", d, d) > half * half)
 
