@@ -171,3 +171,22 @@ def test_placeholder_cell_through_the_command_line_with_repair(tmp_path):
             assert docs[a]["totals"][term] == pytest.approx(docs[b]["totals"][term], abs=1e-9, rel=0)
     assert "placeholder" in docs["default"]["settings"]["cell_note"]
     assert docs["plain"]["settings"]["cell_note"] is None
+
+
+def test_a_crystal_in_a_narrow_lattice_cell_stays_as_deposited():
+    """1YJP.cif (MDAnalysisTests; PDB 1YJP): its lattice cell is only 4.87 A wide along b, so half
+    the width (2.43 A) is shorter than a stretched S-S bond (2.6 A, seen in poorly refined
+    entries: common practice). Expected: such a bond is not taken for a wrapped one (only bonds
+    over 3 A are), a wrapped bond (4.0 A apparent) is, and 1YJP itself loads with the file's
+    coordinates untouched."""
+    from data import MMCIF_1YJP
+
+    from energy.io.builtin import load_builtin_prepared
+    from energy.io.preparation import PreparationOptions
+    options = PreparationOptions(add_hydrogens=True)
+    loaded = load_system(MMCIF_1YJP, preparation=options)
+    box = loaded.frame.box
+    assert check_cell(box, loaded.system.n_atoms).box is not None
+    x = np.array([[0.0, 0.0, 0.0], [0.0, 2.6, 0.0], [5.0, 0.0, 0.0], [5.0, 4.0, 0.0]])
+    assert split_bonds(x, box, np.array([[0, 1], [2, 3]])).tolist() == [1]
+    assert np.array_equal(loaded.frame.positions, load_builtin_prepared(MMCIF_1YJP, options)[1].positions)
