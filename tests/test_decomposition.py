@@ -20,7 +20,9 @@ from energy.units import COULOMB_CONSTANT
 def brute_force_residue_matrix(system, frame, cutoff=None, box=None):
     """Plain Python double loop over atom pairs, written independently of the engine:
     LJ eps_ij[(Rmin_ij/r)^12 - 2(Rmin_ij/r)^6], Coulomb k q_i q_j / r, exceptions with their own
-    parameters (no cutoff), optional cutoff and orthorhombic minimum image."""
+    parameters (no cutoff; intramolecular pairs, so taken as the coordinates give them, never
+    as a minimum image: OpenMM NonbondedForce's default, docs/physics.md), optional cutoff and
+    orthorhombic minimum image for ordinary pairs."""
     n_res = system.n_residues
     coul = np.zeros((n_res, n_res))
     lj = np.zeros((n_res, n_res))
@@ -28,7 +30,7 @@ def brute_force_residue_matrix(system, frame, cutoff=None, box=None):
     exc = {(int(i), int(j)): k for k, (i, j) in enumerate(system.exception_pairs)}
     for a, b in itertools.combinations(range(system.n_atoms), 2):
         d = x[b] - x[a]
-        if box is not None:
+        if box is not None and (a, b) not in exc:
             d = d - box * np.round(d / box)
         r = float(np.sqrt(d @ d))
         if (a, b) in exc:

@@ -21,8 +21,33 @@ def add_input_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("--params", action="append", default=[], metavar="FILE",
                    help="CHARMM-style parameter or stream file (repeat for several)")
     p.add_argument("--frame", type=int, default=0, metavar="N", help="frame of a trajectory (0-based)")
-    p.add_argument("--add-hydrogens", action="store_true",
-                   help="add missing hydrogens at pH 7 (built-in force field only)")
+    add_preparation_arguments(p)
+
+
+def add_preparation_arguments(p: argparse.ArgumentParser) -> None:
+    """How a deposited PDB/mmCIF is prepared for the built-in force field."""
+    g = p.add_argument_group("preparing a PDB/mmCIF (built-in force field)")
+    g.add_argument("--add-hydrogens", action="store_true",
+                   help="add missing hydrogens at --ph (reproducible: the same input gives the same atoms)")
+    g.add_argument("--repair", action="store_true",
+                   help="rebuild missing heavy atoms and terminal groups, replace common modified residues "
+                        "by their parents, drop 4-site water extra sites, add hydrogens (PDBFixer)")
+    g.add_argument("--ph", type=float, default=7.0, metavar="PH",
+                   help="pH for --add-hydrogens / --repair (default 7)")
+    g.add_argument("--forcefield-file", action="append", default=[], metavar="FILE.xml",
+                   help="OpenMM force-field XML with extra residue templates (ligands, cofactors); repeat")
+    g.add_argument("--drop-unmatched", action="store_true",
+                   help="leave out residues that match no template (listed in the summary)")
+
+
+def preparation_from_args(args):
+    """:class:`energy.io.preparation.PreparationOptions` of the parsed arguments."""
+    from energy.io.preparation import PreparationOptions
+    return PreparationOptions(add_hydrogens=bool(getattr(args, "add_hydrogens", False)),
+                              repair=bool(getattr(args, "repair", False)),
+                              ph=float(getattr(args, "ph", 7.0)),
+                              forcefield_files=tuple(getattr(args, "forcefield_file", None) or ()),
+                              drop_unmatched=bool(getattr(args, "drop_unmatched", False)))
 
 
 def add_settings_arguments(p: argparse.ArgumentParser) -> None:

@@ -9,7 +9,13 @@ from __future__ import annotations
 import argparse
 import os
 
-from app.cli.arguments import add_result_file_argument, add_settings_arguments, check_output_folders, settings_from_args
+from app.cli.arguments import (
+    add_result_file_argument,
+    add_settings_arguments,
+    check_output_folders,
+    preparation_from_args,
+    settings_from_args,
+)
 from energy.errors import EnergyError
 
 
@@ -55,9 +61,9 @@ def run(args) -> int:
     frame2 = args.frame if args.second_frame is None else args.second_frame
     is_psf = lambda f: f.lower().endswith(".psf")  # noqa: E731
     first = load_system(args.first, c1, args.params if is_psf(args.first) else (), frame=args.frame,
-                        add_hydrogens=args.add_hydrogens)
+                        preparation=preparation_from_args(args))
     second = load_system(args.second, c2, args.params if is_psf(args.second) else (), frame=frame2,
-                         add_hydrogens=args.add_hydrogens)
+                         preparation=preparation_from_args(args))
     r1 = compute(first.system, first.frame, settings)
     r2 = compute(second.system, second.frame, settings)
     comparison = compare_results(first.system, r1, second.system, r2)

@@ -10,7 +10,7 @@ import json
 import math
 import os
 
-from app.cli.arguments import add_input_arguments
+from app.cli.arguments import add_input_arguments, preparation_from_args
 from energy.analysis.clashes import DEFAULT_OVERLAP, RADII_SOURCES, ClashOptions
 from energy.errors import EnergyError, SettingsError
 
@@ -94,7 +94,7 @@ def run(args) -> int:
     if args.top < 0:
         raise SettingsError(f"--top must be >= 0, got {args.top}")
     loaded = load_system(args.structure, args.coords, args.params, frame=args.frame,
-                         add_hydrogens=args.add_hydrogens)
+                         preparation=preparation_from_args(args))
     report = find_clashes(loaded.system, loaded.frame, options)
     if args.json:
         source = {"structure": loaded.structure_path, "coords": loaded.coords_path,

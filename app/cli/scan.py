@@ -3,12 +3,14 @@
 from __future__ import annotations
 
 import argparse
+import os
 import time
 
 from app.cli.arguments import (
     add_input_arguments,
     add_settings_arguments,
     check_output_folders,
+    preparation_from_args,
     settings_from_args,
     warn_if_large_json,
 )
@@ -34,6 +36,8 @@ def configure_parser(p: argparse.ArgumentParser) -> None:
     p.add_argument("--out", metavar="RESULT.h5",
                    help="write the result file (HDF5: every residue pair; reopen with tessera view; "
                         "layout in docs/result-file.md)")
+    p.add_argument("--write-prepared", metavar="FILE.pdb",
+                   help="write the structure as prepared (repaired, hydrogens added...) as a PDB")
     p.add_argument("--top", type=int, default=8, help="pairs shown in the summary (default 8)")
     p.add_argument("--every-residue", action="store_true",
                    help="list every water and ion as its own residue (default: solvent as blocks, "
@@ -53,6 +57,19 @@ def configure_parser(p: argparse.ArgumentParser) -> None:
                            "(default -1.0)")
 
 
+def write_prepared(loaded, path) -> None:
+    """``--write-prepared``: the prepared structure of the built-in route as a PDB."""
+    from energy.io.preparation import prepared_pdb_text
+    from energy.output.files import atomic_write_text
+    if loaded.preparation is None:
+        raise EnergyError("--write-prepared writes a PDB/mmCIF as prepared for the built-in force "
+                          "field; a PSF system is used as it is")
+    if not os.path.isdir(os.path.dirname(os.path.abspath(path))):
+        raise EnergyError(f"{path}: the output folder does not exist")
+    atomic_write_text(path, prepared_pdb_text(loaded.prepared_topology, loaded.frame.positions))
+    loaded.preparation.prepared_pdb = os.fspath(path)
+
+
 def run(args) -> int:
     """Run ``tessera scan`` (one structure, or a trajectory with ``--frames``)."""
     if args.frames is not None:
@@ -69,7 +86,9 @@ def run(args) -> int:
     prepare_kernels(settings)
     prepare_seconds = time.perf_counter() - t0
     loaded = load_system(args.structure, args.coords, args.params, frame=args.frame,
-                         add_hydrogens=args.add_hydrogens)
+                         preparation=preparation_from_args(args))
+    if args.write_prepared:
+        write_prepared(loaded, args.write_prepared)
     t0 = time.perf_counter()
     prepare_system(loaded.system)
     prepare_system_seconds = time.perf_counter() - t0

@@ -22,7 +22,7 @@ import sys
 import threading
 import time
 
-from app.cli.arguments import check_output_folders, settings_from_args
+from app.cli.arguments import check_output_folders, preparation_from_args, settings_from_args
 from app.cli.progress import ProgressBar
 from energy.analysis.trajectory import (
     TrajectoryError,
@@ -83,7 +83,7 @@ def request_from_args(args) -> TrajectoryRequest:
     return TrajectoryRequest(args.structure, args.coords, tuple(args.params),
                              bool(getattr(args, "add_hydrogens", False)), settings_from_args(args),
                              pairs, args.select_a, args.select_b,
-                             float(args.persistence_threshold))
+                             float(args.persistence_threshold), preparation=preparation_from_args(args))
 
 
 def make_scan(request, frames, workers: int = 1, scheduler: str | None = None):

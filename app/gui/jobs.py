@@ -94,7 +94,7 @@ class EnergyWorker(QObject):
                     self.phase.emit(f"Reading {spec.short_name()}")
                     self.progress.emit(0, 0)
                     loaded = load_system(spec.structure, spec.coords, spec.params, frame=spec.frame,
-                                         add_hydrogens=spec.add_hydrogens)
+                                         preparation=None if spec.params else spec.preparation())
                 self._check()
                 self.phase.emit(f"Computing {spec.short_name()}")
                 steps = compute_steps(loaded.system, loaded.frame, self._settings)

@@ -453,6 +453,12 @@ class MainWindow(QMainWindow):
         if unlisted and not ds.is_difference:
             size += (f" | {unlisted['n_pairs']:,} residue pairs under {unlisted['below']:g} kcal/mol "
                      "not listed (no cutoff; totals include them)")
+        cell_note = getattr(snap.result, "cell_note", "")
+        if cell_note and not ds.is_difference:
+            size += f" | {cell_note}"
+        prep = getattr(snap.loaded, "preparation", None)
+        if prep is not None and not ds.is_difference and prep.summary_lines():
+            size += f" | prepared: {prep.short_text()}"
         self._display(ds, size, keep_view)
 
     def _display(self, ds, size: str, keep_view: bool = False) -> None:

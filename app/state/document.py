@@ -17,24 +17,44 @@ from energy.terms.registry import TERMS
 
 @dataclass(frozen=True)
 class LoadSpec:
-    """Files making one system: a PDB/mmCIF alone, or a PSF + parameters + coordinates."""
+    """Files making one system: a PDB/mmCIF alone, or a PSF + parameters + coordinates.
+
+    For a PDB/mmCIF, how it is prepared (energy.io.preparation): ``add_hydrogens``, ``repair``
+    (rebuild missing atoms, parent residues, hydrogens), ``ph``, ``forcefield_files`` (extra
+    OpenMM XML templates), ``drop_unmatched``.
+    """
 
     structure: str
     coords: str | None = None
     params: tuple = ()
     frame: int = 0
     add_hydrogens: bool = False
+    repair: bool = False
+    ph: float = 7.0
+    forcefield_files: tuple = ()
+    drop_unmatched: bool = False
 
     def as_dict(self) -> dict:
         d = asdict(self)
         d["params"] = list(self.params)
+        d["forcefield_files"] = list(self.forcefield_files)
         return d
 
     @classmethod
     def from_dict(cls, d: dict) -> LoadSpec:
         return cls(structure=str(d["structure"]), coords=d.get("coords") or None,
                    params=tuple(d.get("params") or ()), frame=int(d.get("frame") or 0),
-                   add_hydrogens=bool(d.get("add_hydrogens")))
+                   add_hydrogens=bool(d.get("add_hydrogens")), repair=bool(d.get("repair")),
+                   ph=float(d.get("ph", 7.0) or 7.0),
+                   forcefield_files=tuple(d.get("forcefield_files") or ()),
+                   drop_unmatched=bool(d.get("drop_unmatched")))
+
+    def preparation(self):
+        """The :class:`energy.io.preparation.PreparationOptions` of this spec."""
+        from energy.io.preparation import PreparationOptions
+        return PreparationOptions(add_hydrogens=self.add_hydrogens, repair=self.repair, ph=self.ph,
+                                  forcefield_files=self.forcefield_files,
+                                  drop_unmatched=self.drop_unmatched)
 
     @classmethod
     def from_files(cls, files) -> LoadSpec:

@@ -120,7 +120,8 @@ def std_pairs(stats) -> ResiduePairEnergies:
 
 def make_request(spec, settings) -> TrajectoryRequest:
     return TrajectoryRequest(structure=spec.structure, coords=spec.coords, params=tuple(spec.params),
-                             add_hydrogens=spec.add_hydrogens, settings=settings)
+                             add_hydrogens=spec.add_hydrogens, settings=settings,
+                             preparation=None if spec.params else spec.preparation())
 
 
 def scan_steps(loaded, request: TrajectoryRequest, store: PairSeriesStore | None, frames=None):
@@ -140,10 +141,11 @@ def frame_snapshot(base_snapshot, frame_index: int, settings):
     from app.state.document import Snapshot
     from energy.decomposition.pipeline import compute
     from energy.io.charmm_system import read_frame
+    from energy.io.whole import whole_frame
     spec = base_snapshot.spec
     loaded = base_snapshot.loaded
     system = loaded.system
-    fr = read_frame(spec.coords, system.n_atoms, system.names, int(frame_index))
+    fr = whole_frame(system, read_frame(spec.coords, system.n_atoms, system.names, int(frame_index)))
     new_loaded = replace(loaded, frame=fr)
     return Snapshot(replace(spec, frame=int(frame_index)), new_loaded, compute(system, fr, settings))
 

@@ -26,6 +26,7 @@ from __future__ import annotations
 
 import os
 import time
+import warnings
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -38,6 +39,7 @@ from energy.errors import EnergyError, StructureFileError
 from energy.io.coordinates import frame_from_timestep, open_coordinates, read_timestep, third_party_message
 from energy.io.loaders import load_system
 from energy.io.selection import select_atoms, universe_for
+from energy.io.whole import whole_frame
 from energy.model.settings import EnergySettings
 from energy.model.system import Frame
 
@@ -81,6 +83,9 @@ class TrajectoryRequest:
     select_b: str | None = None
     persistence_threshold: float = -1.0
     chunk_frames: int = CHUNK_FRAMES
+    #: How a PDB/mmCIF is prepared (energy.io.preparation.PreparationOptions); None: only
+    #: ``add_hydrogens``.
+    preparation: object = None
 
     def __post_init__(self):
         absolute = lambda p: None if p is None else os.path.abspath(os.fspath(p))  # noqa: E731
@@ -202,6 +207,16 @@ def open_trajectory(path: str, n_atoms: int, names):
     return open_coordinates(path, n_atoms, names, "topology", "the trajectory")
 
 
+class _ModelFrames:
+    """The models of a multi-model structure behind the part of MDAnalysis' Universe interface
+    that :class:`TrajectorySource` reads (``len(u.trajectory)``, ``u.trajectory[k].positions`` and
+    ``.dimensions``), in double precision."""
+
+    def __init__(self, models, box):
+        from types import SimpleNamespace
+        self.trajectory = [SimpleNamespace(positions=m, dimensions=box) for m in models]
+
+
 class TrajectorySource:
     """The parameterised system and an open trajectory (one per process; not thread-safe)."""
 
@@ -212,11 +227,18 @@ class TrajectorySource:
         self.request = request
         if loaded is None:
             loaded = load_system(request.structure, request.coords, request.params, frame=0,
-                                 add_hydrogens=request.add_hydrogens)
+                                 add_hydrogens=request.add_hydrogens, preparation=request.preparation)
         self.loaded = loaded
         self.system = loaded.system
         self.path = request.trajectory_path
-        self.universe = open_trajectory(self.path, self.system.n_atoms, self.system.names)
+        if request.coords is None and loaded.preparation is not None:
+            # A multi-model PDB/mmCIF: its models, as parsed for the topology (same atoms, same
+            # names, same order), are the frames.
+            from energy.io.loaders import model_frame
+            model_frame(self.path, loaded.models, loaded.frame.box, 0)  # refuses models that cannot be mapped
+            self.universe = _ModelFrames(loaded.models, loaded.frame.box)
+        else:
+            self.universe = open_trajectory(self.path, self.system.n_atoms, self.system.names)
         try:
             self.n_frames = len(self.universe.trajectory)
         except Exception as exc:  # a damaged trajectory: the reader's own exception kinds
@@ -253,7 +275,10 @@ class TrajectorySource:
             if not 0 <= k < self.n_frames:
                 raise TrajectoryError(f"{self.path}: frame {k} requested but the file has "
                                       f"{self.n_frames} frame(s)")
-            yield frame_from_timestep(read_timestep(self.universe, int(k), self.path), self.path, int(k))
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                ts = read_timestep(self.universe, int(k), self.path)
+            yield whole_frame(self.system, frame_from_timestep(ts, self.path, int(k)))
 
     # -- one frame ------------------------------------------------------------------------
     def _pair_distances(self, frame: Frame, periodic: bool) -> np.ndarray:
@@ -333,7 +358,8 @@ class TrajectorySource:
         record = FrameRecord(index=frame.index, totals={k: float(result.totals[k]) for k in COLUMNS},
                              pair_values=values,
                              pair_distance=self._pair_distances(frame, result.periodic),
-                             selection=selection, seconds=time.perf_counter() - t0)
+                             selection=selection, seconds=time.perf_counter() - t0,
+                             cell_note=result.cell_note)
         return record, rp
 
 
@@ -358,6 +384,8 @@ class FrameRecord:
     pair_distance: np.ndarray
     selection: dict | None = None
     seconds: float = 0.0
+    #: Why the frame's unit cell was not used (energy.model.cell), or "".
+    cell_note: str = ""
 
 
 @dataclass
@@ -482,6 +510,10 @@ class TrajectoryResult:
         out = {c: np.array([r.pair_values[k, n] for r in self.records]) for n, c in enumerate(COLUMNS)}
         out["min_heavy_distance"] = np.array([r.pair_distance[k] for r in self.records])
         return out
+
+    def cell_notes(self) -> list[str]:
+        """The distinct notes on ignored unit cells over the frames, in order of first appearance."""
+        return list(dict.fromkeys(r.cell_note for r in self.records if r.cell_note))
 
     def selection_series(self) -> dict | None:
         """Per-frame interaction of selection A with selection B, or None without selections.

@@ -17,6 +17,7 @@ from energy._kernels.pbc import is_orthorhombic, minimum_image_vectors, periodic
 from energy.decomposition.residue_pairs import is_member, sorted_unique
 from energy.io.selection import select_atoms, universe_for
 from energy.io.validation import check_frame
+from energy.model.cell import nonbonded_cell
 from energy.model.settings import EnergySettings
 from energy.model.system import Frame, MolecularSystem
 from energy.terms.nonbonded import KernelConstants, exception_energies, pair_energies
@@ -117,7 +118,7 @@ def atom_pair_energies(system: MolecularSystem, frame: Frame, settings: EnergySe
     x = frame.positions
     atoms_a = np.unique(np.asarray(atoms_a, np.intp))
     atoms_b = None if atoms_b is None else np.unique(np.asarray(atoms_b, np.intp))
-    box = frame.box if settings.use_periodic else None
+    box = nonbonded_cell(frame.box, system.n_atoms, settings.use_periodic).box
     periodic = box is not None and settings.cutoff_angstrom is not None
     h = periodic_cell(box, settings.cutoff_angstrom) if periodic else None
     pairs = _candidate_pairs(x, atoms_a, atoms_b, settings.cutoff_angstrom,
@@ -143,7 +144,7 @@ def atom_pair_energies(system: MolecularSystem, frame: Frame, settings: EnergySe
         c, l = pair_energies(r2, system.charges[p[:, 0]] * system.charges[p[:, 1]],
                              system.lj_rmin[ti, tj], system.lj_eps[ti, tj], kc.values)
         coul_parts.append(c); lj_parts.append(l); d_parts.append(np.sqrt(r2))
-    coul_ex, lj_ex, r_ex = exception_energies(system, x, settings, box if periodic else None)
+    coul_ex, lj_ex, r_ex = exception_energies(system, x, settings, None)  # as the pipeline
     coul_parts.append(coul_ex[ex_sel]); lj_parts.append(lj_ex[ex_sel]); d_parts.append(r_ex[ex_sel])
     all_pairs = np.concatenate([ordinary, ex[ex_sel]]).reshape(-1, 2)
     flags = np.concatenate([np.zeros(len(ordinary), bool), np.ones(len(ex_sel), bool)])

@@ -20,6 +20,7 @@ from energy._kernels.pbc import is_orthorhombic, periodic_cell, perpendicular_wi
 from energy.decomposition.finiteness import check_finite
 from energy.decomposition.residue_pairs import BondedAttribution, ResiduePairEnergies, assemble, sorted_unique
 from energy.io.validation import check_frame
+from energy.model.cell import nonbonded_cell
 from energy.model.settings import EnergySettings
 from energy.model.system import Frame, MolecularSystem
 from energy.terms import registry
@@ -54,6 +55,8 @@ class EnergyResult:
     #: Without a cutoff on a large system (energy._kernels.residue_rows): residue pairs too small to list,
     #: ``n_pairs``, their ``coulomb`` and ``lj`` sums and the threshold ``below``; None otherwise.
     unlisted: dict | None = None
+    #: Why the frame's unit cell was not used (energy.model.cell), or "".
+    cell_note: str = ""
 
 
 def _validate_frame(system: MolecularSystem, frame: Frame):
@@ -171,22 +174,25 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
     t0 = time.perf_counter()
     x = frame.positions
     n_res = system.n_residues
-    box = frame.box if settings.use_periodic else None
+    cell = nonbonded_cell(frame.box, system.n_atoms, settings.use_periodic)
+    box = cell.box
     periodic = box is not None and settings.cutoff_angstrom is not None
     h = periodic_cell(box, settings.cutoff_angstrom) if periodic else np.eye(3)
     orthorhombic = is_orthorhombic(h)
     min_width = float(perpendicular_widths(h).min())
 
-    # Bonded terms (minimum image on bond vectors whenever a cell is known: molecules may be split).
+    # Bonded terms: from the coordinates as given, never a minimum image (docs/physics.md; the
+    # readers make molecules split across a periodic box whole, energy.io.whole).
     contributions, interactions, totals = [], {}, dict.fromkeys(TERMS, 0.0)
     for term, form in registry.bonded_tables():
-        e = np.asarray(form.energies(registry.table_of(system, form), x, box, system), np.float64)
+        e = np.asarray(form.energies(registry.table_of(system, form), x, None, system), np.float64)
         interactions[form.attr] = e
         totals[term] += float(e.sum())
         contributions.append((term, *_attribution(system, form).split(e)))
 
-    # Exceptions (1-4 with their own parameters; 1-2, 1-3 carry zeros).
-    coul_ex, lj_ex, r_ex = exception_energies(system, x, settings, box if periodic else None)
+    # Exceptions (1-4 with their own parameters; 1-2, 1-3 carry zeros): within a molecule, so
+    # like the bonded terms from the coordinates as given (as OpenMM's NonbondedForce by default).
+    coul_ex, lj_ex, r_ex = exception_energies(system, x, settings, None)
     interactions["exceptions"] = {"coulomb": coul_ex, "lj": lj_ex, "distance": r_ex}
     ex_i = system.resindex[system.exception_pairs[:, 0]]
     ex_j = system.resindex[system.exception_pairs[:, 1]]
@@ -247,7 +253,7 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
                "compute": t_end - t0, "checks": t0 - t_checks}
     return EnergyResult(settings=settings, totals=totals, interactions=interactions,
                         residue_pairs=residue_pairs, timings=timings, periodic=periodic,
-                        n_atom_pairs=rows.n_atom_pairs, unlisted=rows.unlisted)
+                        n_atom_pairs=rows.n_atom_pairs, unlisted=rows.unlisted, cell_note=cell.note)
 
 
 def compute(system: MolecularSystem, frame: Frame, settings: EnergySettings | None = None,

@@ -1,8 +1,10 @@
 """The built-in force-field route: a PDB or mmCIF alone, parameterised with OpenMM's library.
 
 OpenMM's ``ForceField`` matches residue templates (default: the Amber 14 protein force field,
-``amber14-all.xml``, with TIP3P water, ``amber14/tip3p.xml``), optionally after adding missing
-hydrogens at pH 7 with ``Modeller.addHydrogens``.  The resulting ``openmm.System`` is converted
+``amber14-all.xml``, with TIP3P water, ``amber14/tip3p.xml``, plus any ``--forcefield-file``),
+after the preparation asked for (:mod:`energy.io.preparation`: chain breaks, repair, hydrogens).
+Residues that match no template stop the run with one message naming them all
+(:mod:`energy.io.residue_messages`).  The resulting ``openmm.System`` is converted
 into the engine's own arrays: harmonic forces to ``K (x - x0)^2`` form (K = k/2), kJ -> kcal,
 nm -> A, sigma -> Rmin = 2^(1/6) sigma; NonbondedForce exceptions keep OpenMM's own 1-4 scaling
 (for Amber: Coulomb 1/1.2, LJ 1/2).  Periodic torsions whose four atoms are not a bonded chain
@@ -10,14 +12,14 @@ are periodic impropers.
 """
 from __future__ import annotations
 
-import functools
 import os
 import re
 
 import numpy as np
 
-from energy.errors import StructureFileError, UnknownResidueError, one_line
+from energy.errors import StructureFileError, UnknownResidueError
 from energy.io.coordinate_text import check_coordinate_text
+from energy.io.coordinates import plain_file
 from energy.model.system import Frame, MolecularSystem, ResidueTable, TermTable
 from energy.units import ANGSTROM_PER_NM, KJ_PER_KCAL
 
@@ -27,39 +29,48 @@ _KNOWN_FORCES = {"HarmonicBondForce", "HarmonicAngleForce", "PeriodicTorsionForc
                  "NonbondedForce", "CMAPTorsionForce", "CMMotionRemover"}
 
 
-def _read_openmm_structure(path: str):
-    from openmm import app
-    ext = os.path.splitext(path)[1].lower()
-    check_coordinate_text(path)
-    try:
-        if ext in (".cif", ".mmcif", ".pdbx"):
-            return app.PDBxFile(path)
-        return app.PDBFile(path)
-    except FileNotFoundError:
-        raise StructureFileError(path, "file not found") from None
-    except Exception as exc:  # OpenMM raises bare Exceptions/ValueErrors on malformed files
-        raise StructureFileError(path, f"could not read the structure ({one_line(exc, 160)})") from None
-
-
-def _unmatched_message(ff, topology, add_hydrogens: bool, ff_names) -> str:
-    unmatched = ff.getUnmatchedResidues(topology)
-    known = {name for name in ff._templates}
-    has_h = any(a.element is not None and a.element.symbol == "H" for a in topology.atoms())
-    names_known = [r for r in unmatched if r.name in known]
-    labels = [f"{r.chain.id.strip() + ':' if r.chain.id.strip() else ''}{r.name}{r.id}" for r in unmatched[:12]]
-    more = f" and {len(unmatched) - 12} more" if len(unmatched) > 12 else ""
-    head = f"{len(unmatched)} residue(s) match no template of {', '.join(ff_names)}: {', '.join(labels)}{more}. "
-    if not has_h and not add_hydrogens:
-        return "the structure has no hydrogen atoms: add them with --add-hydrogens. " + head
-    if names_known and not add_hydrogens:
-        head += "Residues with standard names but missing or extra atoms may need --add-hydrogens. "
-    return head + ("Remove unsupported residues (ligands, modified residues) from the file, or use "
-                   "the PSF route with parameter files that cover them.")
-
-
 def _clean_openmm_message(exc: Exception) -> str:
     text = str(exc).split("For more information")[0].strip()
     return " ".join(text.split())
+
+
+def build_force_field(force_field=DEFAULT_FORCE_FIELD, extra_files=()):
+    """OpenMM ``ForceField`` of ``force_field`` plus the template files ``extra_files``.
+
+    Raises
+    ------
+    StructureFileError
+        An extra file that is missing or not a force-field XML OpenMM can read (with its path).
+    """
+    from openmm import app
+    ff = app.ForceField(*force_field)
+    for path in extra_files:
+        if not os.path.isfile(path):
+            raise StructureFileError(path, "force-field file not found")
+        try:
+            ff.loadFile(path)
+        except Exception as exc:  # OpenMM raises ValueError/ParseError/KeyError on bad XML
+            raise StructureFileError(path, f"not a force-field XML file OpenMM can read "
+                                     f"({_clean_openmm_message(exc)})") from None
+    return ff
+
+
+def _unmatched_error(path, ff, topology, options, label, unmatched=None, gaps=()):
+    from openmm import app
+
+    from energy.io.repair import modified_parents
+    from energy.io.residue_messages import unmatched_message
+    from energy.io.structure_text import read_structure_text
+    unmatched = ff.getUnmatchedResidues(topology) if unmatched is None else unmatched
+    has_h = any(a.element is not None and a.element.symbol == "H" for a in topology.atoms())
+    app.Modeller._loadStandardHydrogenDefinitions()
+    standard = set(app.Modeller._residueHydrogens) | {"HOH"}
+    message = unmatched_message(unmatched, has_hydrogens=has_h, add_hydrogens=options.adds_hydrogens,
+                                repair=options.repair, standard_names=standard,
+                                modified_parents={} if options.repair else
+                                modified_parents(read_structure_text(path)),
+                                force_field_label=label, gaps=gaps)
+    return UnknownResidueError(f"{path}: {message}")
 
 
 def _atom_types(ff, topology):
@@ -97,36 +108,7 @@ def _residue_table(topology):
 
 
 def system_from_openmm(omm_system, topology, types=None, force_field="", source_files=()):
-    """Convert an ``openmm.System`` + ``Topology`` into a :class:`MolecularSystem`.
-
-    Units and forms as the module docstring says: harmonic k -> k/2, kJ -> kcal, nm -> A,
-    sigma -> Rmin = 2^(1/6) sigma; exceptions keep OpenMM's 1-4 scaling; periodic torsions whose
-    atoms are not a bonded chain become periodic impropers.
-
-    Parameters
-    ----------
-    omm_system : openmm.System
-        The parameterised system (HarmonicBondForce, HarmonicAngleForce, PeriodicTorsionForce,
-        NonbondedForce, CMAPTorsionForce, CMMotionRemover only).
-    topology : openmm.app.Topology
-        Its topology (atoms, residues, chains, bonds).
-    types : sequence of str or None, optional
-        Force-field atom type of each atom; None (default) gives ``"?"``.
-    force_field : str, optional
-        Description of the force field (kept on the system and named in errors).
-    source_files : sequence of str, optional
-        Input files, kept on the system.
-
-    Returns
-    -------
-    MolecularSystem
-        Charges in e, LJ tables in A and kcal/mol, bonded tables in kcal/mol, A and radians.
-
-    Raises
-    ------
-    StructureFileError
-        If the system holds another force, or a CMAP grid of odd size.
-    """
+    """Convert an ``openmm.System`` + ``Topology`` into a :class:`MolecularSystem`."""
     forces = {f.__class__.__name__: f for f in omm_system.getForces()}
     unknown = set(forces) - _KNOWN_FORCES
     if unknown:
@@ -207,74 +189,59 @@ def system_from_openmm(omm_system, topology, types=None, force_field="", source_
         force_field=force_field, source_files=tuple(source_files))
 
 
-@functools.lru_cache(maxsize=4)
-def _force_field(files: tuple):
-    """OpenMM's ForceField for ``files``, parsed once per process (parsing amber14 takes ~0.2 s;
-    matching templates and creating systems leave the object unchanged)."""
-    from openmm import app
-    return app.ForceField(*files)
+def load_builtin(path: str, add_hydrogens: bool = False, force_field=DEFAULT_FORCE_FIELD, ph: float = 7.0,
+                 options=None):
+    """Read ``path`` (PDB/mmCIF, ``.gz`` too), prepare it and parameterise it.
+
+    Returns ``(MolecularSystem, Frame, openmm Topology, seconds spent reading the file)``; see
+    :func:`load_builtin_prepared` for the preparation record and the models.
+    """
+    from energy.io.preparation import PreparationOptions
+    options = options or PreparationOptions(add_hydrogens=add_hydrogens, ph=ph)
+    system, frame, topology, prepared = load_builtin_prepared(path, options, force_field)
+    return system, frame, topology, prepared.read_seconds
 
 
-def load_builtin(path: str, add_hydrogens: bool = False, force_field=DEFAULT_FORCE_FIELD, ph: float = 7.0):
-    """Read ``path`` (PDB/mmCIF) and parameterise it.
-
-    Returns ``(MolecularSystem, Frame, openmm Topology, seconds spent reading the file)``.
+def load_builtin_prepared(path: str, options, force_field=DEFAULT_FORCE_FIELD):
+    """Read, prepare (:mod:`energy.io.preparation`) and parameterise ``path``.
 
     Parameters
     ----------
     path : str
-        PDB (``.pdb``, ``.ent``) or mmCIF (``.cif``, ``.mmcif``, ``.pdbx``) file.
-    add_hydrogens : bool, optional
-        Add missing hydrogens first (``Modeller.addHydrogens``; default False).
-    force_field : sequence of str, optional
-        OpenMM force-field XML files (default :data:`DEFAULT_FORCE_FIELD`).
-    ph : float, optional
-        pH for the added hydrogens (default 7.0).
+        PDB or mmCIF file, optionally gzip-compressed.
+    options : energy.io.preparation.PreparationOptions
+    force_field : tuple of str
+        OpenMM force-field files (default Amber 14 + TIP3P); ``options.forcefield_files`` add to it.
 
     Returns
     -------
-    system : MolecularSystem
-        The parameterised system.
-    frame : Frame
-        Its coordinates (A) and the file's unit cell, if any.
-    topology : openmm.app.Topology
-        The (possibly hydrogenated) topology.
-    read_seconds : float
-        Wall time spent reading the file, s.
+    (MolecularSystem, Frame, openmm.app.Topology, energy.io.preparation.PreparedStructure)
 
     Raises
     ------
-    StructureFileError
-        If the file cannot be read.
-    UnknownResidueError
-        If residues match no template, or hydrogens cannot be added.
+    StructureFileError, UnknownResidueError
     """
-    import time
+    from openmm import app
 
-    from openmm import app, unit
-    t0 = time.perf_counter()
-    structure = _read_openmm_structure(path)
-    read_seconds = time.perf_counter() - t0
-    ff = _force_field(tuple(force_field))
-    modeller = app.Modeller(structure.topology, structure.positions)
-    if add_hydrogens:
-        try:
-            modeller.addHydrogens(ff, pH=ph)
-        except Exception as exc:
-            raise UnknownResidueError(
-                f"{path}: could not add hydrogens: {_clean_openmm_message(exc)} Remove or rename "
-                "unsupported residues (ligands, modified residues), or use the PSF route with "
-                "parameter files that cover them.") from None
-    topology = modeller.topology
+    from energy.io.preparation import UnmatchedResidues, prepare_structure
+    label = " + ".join([*force_field, *(os.path.basename(f) for f in options.forcefield_files)])
+    ff = build_force_field(force_field, options.forcefield_files)
+    check_coordinate_text(plain_file(path))  # strict numbers and records before OpenMM reads it
+    try:
+        prepared = prepare_structure(path, options, ff, label)
+    except UnmatchedResidues as exc:
+        raise _unmatched_error(path, ff, exc.topology, options, label, exc.residues, exc.gaps) from None
+    except UnknownResidueError as exc:
+        raise UnknownResidueError(f"{path}: {exc}") from None
+    topology = prepared.topology
     if ff.getUnmatchedResidues(topology):
-        raise UnknownResidueError(f"{path}: " + _unmatched_message(ff, topology, add_hydrogens, force_field))
+        raise _unmatched_error(path, ff, topology, options, label, gaps=prepared.record.gaps)
     try:
         omm_system = ff.createSystem(topology, nonbondedMethod=app.NoCutoff, constraints=None,
                                      rigidWater=False, removeCMMotion=False)
     except ValueError as exc:
         raise UnknownResidueError(f"{path}: the force field could not parameterise the structure: "
                                   f"{_clean_openmm_message(exc)}") from None
-    positions = np.array(modeller.positions.value_in_unit(unit.angstrom))
     system = system_from_openmm(omm_system, topology, _atom_types(ff, topology),
-                                force_field=" + ".join(force_field), source_files=(path,))
-    return system, Frame(positions, _box_from_topology(topology), 0, path), topology, read_seconds
+                                force_field=label, source_files=(path, *options.forcefield_files))
+    return system, Frame(prepared.positions, _box_from_topology(topology), 0, path), topology, prepared

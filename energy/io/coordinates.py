@@ -16,8 +16,14 @@ TRAJECTORY_SUFFIXES = frozenset({"dcd", "xtc", "trr", "nc", "ncdf", "netcdf", "t
                                  "crdbox", "xyz", "lammpsdump", "h5md"})
 
 
+def _format_name(path) -> str:
+    """The file name without a trailing ``.gz`` (whose suffix names the format)."""
+    name = os.path.basename(os.fspath(path))
+    return name[:-3] if name.lower().endswith(".gz") else name
+
+
 def is_trajectory_path(path) -> bool:
-    """True if ``path``'s suffix is one of :data:`TRAJECTORY_SUFFIXES` (several frames).
+    """True if ``path``'s suffix (before a ``.gz``) is one of :data:`TRAJECTORY_SUFFIXES`.
 
     Parameters
     ----------
@@ -31,8 +37,36 @@ def is_trajectory_path(path) -> bool:
     """
     if not path:
         return False
-    name = os.path.basename(os.fspath(path))
+    name = _format_name(path)
     return "." in name and name.rsplit(".", 1)[-1].lower() in TRAJECTORY_SUFFIXES
+
+
+_DECOMPRESSED: dict = {}
+
+
+def plain_file(path) -> str:
+    """``path`` itself, or for a ``.gz`` file a decompressed copy (same name without ``.gz``, in
+    a private temporary folder removed when the process ends; made once per file and
+    modification time).  MDAnalysis' readers of binary trajectories need a plain file."""
+    import atexit
+    import gzip
+    import shutil
+    import tempfile
+    path = os.fspath(path)
+    if not path.lower().endswith(".gz"):
+        return path
+    key = (os.path.abspath(path), os.path.getmtime(path))
+    if key not in _DECOMPRESSED:
+        folder = tempfile.mkdtemp(prefix="tessera-gz-")
+        atexit.register(shutil.rmtree, folder, True)
+        target = os.path.join(folder, _format_name(path))
+        try:
+            with gzip.open(path, "rb") as src, open(target, "wb") as dst:
+                shutil.copyfileobj(src, dst)
+        except (OSError, EOFError) as exc:
+            raise StructureFileError(path, f"cannot decompress the file ({exc})") from None
+        _DECOMPRESSED[key] = target
+    return _DECOMPRESSED[key]
 
 
 def open_coordinates(path, n_atoms: int, names, topology_kind: str = "topology", what: str = "coordinates",
@@ -71,20 +105,24 @@ def open_coordinates(path, n_atoms: int, names, topology_kind: str = "topology",
     import MDAnalysis as mda
 
     path = os.fspath(path)
-    suffix = path.rsplit(".", 1)[-1].lower() if "." in os.path.basename(path) else ""
-    parsed = check_coordinate_text(path) if suffix not in TRAJECTORY_SUFFIXES else None
+    name = _format_name(path)
+    suffix = name.rsplit(".", 1)[-1].lower() if "." in name else ""
+    parsed = check_coordinate_text(plain_file(path)) if suffix not in TRAJECTORY_SUFFIXES else None
     if suffix == "dcd":
-        _check_dcd_header(path)
+        _check_dcd_header(plain_file(path))
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
+            readable = plain_file(path)
             if suffix in TRAJECTORY_SUFFIXES:
                 universe = mda.Universe.empty(n_atoms, trajectory=False)
-                universe.load_new(path)
+                universe.load_new(readable)
                 file_names = None
             else:
-                universe = mda.Universe(path)
+                universe = mda.Universe(readable)
                 file_names = [str(x) for x in universe.atoms.names]
+    except StructureFileError:
+        raise
     except Exception as exc:  # MDAnalysis raises many kinds; all mean "cannot read"
         raise StructureFileError(path, f"cannot read {what}: {third_party_message(exc)}") from None
     compare_with_reader(path, parsed, universe.atoms.positions)

@@ -2,8 +2,10 @@
 
 * ``*.psf`` + parameter/stream files + coordinates: the CHARMM-style route
   (:mod:`energy.io.psf`, :mod:`energy.io.charmm_params`, :mod:`energy.io.charmm_system`).
-* ``*.pdb`` / ``*.cif`` / ``*.mmcif`` alone: the built-in force field (:mod:`energy.io.builtin`);
-  optional coordinates (a trajectory or another frame of the same atoms) replace the positions.
+* ``*.pdb`` / ``*.cif`` / ``*.mmcif`` alone (``.gz`` too): the built-in force field
+  (:mod:`energy.io.builtin`), after the preparation asked for (:mod:`energy.io.preparation`);
+  ``frame`` N without coordinates is the file's model N; optional coordinates (a trajectory or
+  another frame of the same atoms) replace the positions.
 """
 from __future__ import annotations
 
@@ -12,6 +14,7 @@ import time
 from dataclasses import dataclass, field
 
 from energy.errors import StructureFileError
+from energy.io.whole import whole_frame
 from energy.model.system import Frame, MolecularSystem
 
 STRUCTURE_SUFFIXES = (".pdb", ".ent", ".cif", ".mmcif", ".pdbx")
@@ -27,6 +30,13 @@ class LoadedSystem:
     structure_path: str = ""
     coords_path: str = ""
     param_paths: tuple = ()
+    #: Built-in route: what preparation found and did (energy.io.preparation.PreparationRecord).
+    preparation: object = None
+    #: Built-in route: (n_models, n_atoms, 3) A of the file's models on the prepared atoms, or
+    #: None (one model, or preparation added atoms).
+    models: object = None
+    #: Built-in route: the OpenMM topology as prepared (for writing the prepared PDB).
+    prepared_topology: object = None
 
 
 def _check_readable(path) -> str:
@@ -39,7 +49,7 @@ def _check_readable(path) -> str:
 
 
 def load_system(structure, coords=None, params=(), frame: int = 0, add_hydrogens: bool = False,
-                force_field=None) -> LoadedSystem:
+                force_field=None, preparation=None) -> LoadedSystem:
     """Load and parameterise a system; see the module docstring for the routes.
 
     Parameters
@@ -56,6 +66,8 @@ def load_system(structure, coords=None, params=(), frame: int = 0, add_hydrogens
         Built-in route: add missing hydrogens first (default False).
     force_field : sequence of str or None, optional
         Built-in route: OpenMM force-field XML files (None: :data:`energy.io.builtin.DEFAULT_FORCE_FIELD`).
+    preparation : energy.io.preparation.PreparationOptions or None, optional
+        Built-in route: how to prepare a deposited structure (default: only ``add_hydrogens``).
 
     Returns
     -------
@@ -68,11 +80,15 @@ def load_system(structure, coords=None, params=(), frame: int = 0, add_hydrogens
         If a file is missing or unreadable, the format is unknown, or the inputs do not fit the route
         (a PSF without parameters or coordinates, parameters with a PDB/mmCIF).
     """
+    from energy.io.preparation import PreparationOptions
+    from energy.io.structure_text import structure_suffix
     structure = _check_readable(structure)
     params = tuple(_check_readable(p) for p in params)
     coords = _check_readable(coords) if coords is not None else None
-    suffix = os.path.splitext(structure)[1].lower()
+    options = preparation or PreparationOptions(add_hydrogens=add_hydrogens)
+    suffix = structure_suffix(structure)
     t0 = time.perf_counter()
+    prepared = None
     if suffix == ".psf":
         from energy.io.charmm_params import read_charmm_parameters
         from energy.io.charmm_system import build_charmm_system, read_frame
@@ -83,6 +99,10 @@ def load_system(structure, coords=None, params=(), frame: int = 0, add_hydrogens
         if coords is None:
             raise StructureFileError(structure, "a PSF holds no coordinates: give a coordinate file "
                                      "(PDB, CRD, DCD, ...) after it")
+        if options.add_hydrogens or options.repair or options.forcefield_files or options.drop_unmatched:
+            raise StructureFileError(structure, "--add-hydrogens, --repair, --forcefield-file and "
+                                     "--drop-unmatched prepare a PDB/mmCIF for the built-in force field; "
+                                     "a PSF topology is used as it is")
         psf = read_psf(structure)
         parameter_set = read_charmm_parameters(params)
         t_read = time.perf_counter()
@@ -93,21 +113,49 @@ def load_system(structure, coords=None, params=(), frame: int = 0, add_hydrogens
         t_coords = time.perf_counter()
         timings = {"read": (t_read - t0) + (t_coords - t_param), "parameterise": t_param - t_read}
     elif suffix in STRUCTURE_SUFFIXES:
-        from energy.io.builtin import DEFAULT_FORCE_FIELD, load_builtin
+        from energy.io.builtin import DEFAULT_FORCE_FIELD, load_builtin_prepared
         if params:
             raise StructureFileError(params[0], "parameter files go with a PSF topology; a PDB/mmCIF "
                                      "alone is parameterised by the built-in force field")
-        system, fr, _top, read_s = load_builtin(structure, add_hydrogens=add_hydrogens,
-                                                force_field=force_field or DEFAULT_FORCE_FIELD)
+        system, fr, _top, prepared = load_builtin_prepared(structure, options,
+                                                           force_field or DEFAULT_FORCE_FIELD)
+        read_s = prepared.read_seconds
         t_param = time.perf_counter()
         timings = {"read": read_s, "parameterise": (t_param - t0) - read_s}
-        if coords is not None or frame:
+        if coords is not None:
             from energy.io.charmm_system import read_frame
+            if options.changes_atoms:
+                raise StructureFileError(coords, "other coordinates need the atoms of the file as it "
+                                         "is; --add-hydrogens, --repair and --drop-unmatched change them")
             t1 = time.perf_counter()
-            fr = read_frame(coords or structure, system.n_atoms, system.names, frame,
+            fr = read_frame(coords, system.n_atoms, system.names, frame, topology_kind="structure",
                             residues=(system.residues.resname[system.resindex], system.resindex))
             timings["read"] += time.perf_counter() - t1
+        elif frame:
+            fr = model_frame(structure, prepared.models, fr.box, frame)
     else:
         raise StructureFileError(structure, f"unknown structure format {suffix!r}: expected a PSF "
-                                 "(with --params and coordinates) or a PDB/mmCIF file")
-    return LoadedSystem(system, fr, timings, structure, coords or "", params)
+                                 "(with --params and coordinates) or a PDB/mmCIF file (.gz too)")
+    fr = whole_frame(system, fr)  # molecules split across a periodic box: whole again
+    return LoadedSystem(system, fr, timings, structure, coords or "", params,
+                        preparation=None if prepared is None else prepared.record,
+                        models=None if prepared is None else prepared.models,
+                        prepared_topology=None if prepared is None else prepared.topology)
+
+
+def model_frame(path, models, box, index: int) -> Frame:
+    """Model ``index`` (0-based) of a multi-model structure as a :class:`Frame`.
+
+    Raises
+    ------
+    StructureFileError
+        No such model, or preparation added atoms that the other models do not have.
+    """
+    if models is None:
+        raise StructureFileError(path, f"model {index} requested, but preparation added atoms "
+                                 "(hydrogens or rebuilt atoms) that the other models do not have; "
+                                 "scan the models without --add-hydrogens/--repair")
+    if not 0 <= index < len(models):
+        raise StructureFileError(path, f"model {index} requested but the file has {len(models)} "
+                                 f"model(s) (0..{len(models) - 1})")
+    return Frame(models[index], box, index, os.fspath(path))

@@ -196,10 +196,12 @@ def scan_document(loaded, result, selection=None, extra_timings=None) -> dict:
         "force_field": system.force_field,
         "n_atoms": system.n_atoms,
         "n_residues": system.n_residues,
-        "settings": {**result.settings.as_dict(), "periodic": result.periodic},
+        "settings": {**result.settings.as_dict(), "periodic": result.periodic,
+                     "cell_note": result.cell_note or None},
         "totals": {k: float(result.totals[k]) for k in (*TERMS, "total")},
         "n_atom_pairs_within_cutoff": result.n_atom_pairs,
         "unlisted_pairs": result.unlisted,
+        "preparation": None if getattr(loaded, "preparation", None) is None else loaded.preparation.as_dict(),
         "residues": residue_records(system),
         "pairs": _PAIRS_PLACEHOLDER,
         "timings": timings,
@@ -404,8 +406,13 @@ def summary_text(loaded, result, top: int = 8, selection=None, blocked=None) -> 
     lines = [f"{loaded.structure_path}: {system.n_atoms} atoms, {system.n_residues} residues; "
              f"{system.force_field}",
              f"settings: {result.settings.describe()}"
-             + ("; periodic (minimum image)" if result.periodic else ""),
-             "", "per-term totals (kcal/mol):"]
+             + ("; periodic (minimum image)" if result.periodic else "")]
+    if result.cell_note:
+        lines.append(f"note: {result.cell_note}")
+    preparation = getattr(loaded, "preparation", None)
+    if preparation is not None:
+        lines += [f"preparation: {line}" for line in preparation.summary_lines()]
+    lines += ["", "per-term totals (kcal/mol):"]
     for t in (*TERMS, "total"):
         lines.append(f"  {t:<13}{result.totals[t]:>16.4f}")
     rp = result.residue_pairs if blocked is None else blocked.pairs

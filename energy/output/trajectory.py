@@ -188,7 +188,7 @@ def trajectory_document(result, scan, execution: dict, interrupted: bool, timing
         "force_field": system.force_field,
         "n_atoms": system.n_atoms,
         "n_residues": system.n_residues,
-        "settings": req.settings.as_dict(),
+        "settings": {**req.settings.as_dict(), "cell_note": "; ".join(result.cell_notes()) or None},
         "execution": execution,
         "complete": result.complete,
         "interrupted": interrupted,
@@ -235,8 +235,9 @@ def summary_text(result, top: int = 8) -> str:
     lines = [f"{req.structure}: {result.system.n_atoms} atoms, {result.system.n_residues} residues; "
              f"{len(result.frames)} of {len(result.requested)} frame(s) of {req.trajectory_path}"
              + ("" if result.complete else " (stopped early)"),
-             f"settings: {req.settings.describe()}", "",
-             "per-term totals over the frames (kcal/mol):      mean           std"]
+             f"settings: {req.settings.describe()}"]
+    lines += [f"note: {note}" for note in result.cell_notes()]
+    lines += ["", "per-term totals over the frames (kcal/mol):      mean           std"]
     totals = result.per_frame_totals()
     for c in COLUMNS:
         v = totals[c]

@@ -1,5 +1,6 @@
-"""The open dialog: a PDB/mmCIF alone (built-in force field, optional hydrogens), or a PSF with
-one or more parameter files and a coordinate file."""
+"""The open dialog: a PDB/mmCIF alone (built-in force field, with the preparation options of the
+command line: hydrogens, repair, pH, extra force-field templates, leaving out unmatched
+residues), or a PSF with one or more parameter files and a coordinate file."""
 from __future__ import annotations
 
 import os
@@ -9,6 +10,7 @@ from PySide6.QtWidgets import (
     QCheckBox,
     QDialog,
     QDialogButtonBox,
+    QDoubleSpinBox,
     QFileDialog,
     QFormLayout,
     QGroupBox,
@@ -29,7 +31,7 @@ from energy.io.coordinates import TRAJECTORY_SUFFIXES
 #: File-dialog filter of coordinate files: single structures and every trajectory format the
 #: engine reads (energy.io.coordinates.TRAJECTORY_SUFFIXES).
 COORDINATE_FILTER = ("Coordinates (" + " ".join(f"*.{s}" for s in
-                     ("pdb", "crd", "cor", *sorted(TRAJECTORY_SUFFIXES))) + ");;All files (*)")
+                     ("pdb", "crd", "cor", *sorted(TRAJECTORY_SUFFIXES), "gz")) + ");;All files (*)")
 
 
 class _PathField(QWidget):
@@ -62,11 +64,25 @@ class OpenStructureDialog(QDialog):
         self.mode_builtin.setChecked(True)
 
         self.builtin_box = QGroupBox("Structure")
-        self.structure = _PathField("Structure", "Structures (*.pdb *.ent *.cif *.mmcif);;All files (*)", get_folder)
-        self.hydrogens = QCheckBox("Add missing hydrogens (pH 7)")
+        self.structure = _PathField("Structure", "Structures (*.pdb *.ent *.cif *.mmcif *.gz);;All files (*)",
+                                    get_folder)
+        self.hydrogens = QCheckBox("Add missing hydrogens")
+        self.repair = QCheckBox("Repair: rebuild missing atoms and termini, parent residues for "
+                                "modified ones, hydrogens")
+        self.repair.setObjectName("repairCheck")
+        self.ph = QDoubleSpinBox(); self.ph.setRange(0.0, 14.0); self.ph.setDecimals(1)
+        self.ph.setSingleStep(0.5); self.ph.setValue(7.0)
+        self.drop_unmatched = QCheckBox("Leave out residues that match no template")
+        self.forcefield_files = QLineEdit(); self.forcefield_files.setPlaceholderText(
+            "extra OpenMM force-field XML templates (optional; several separated by ';')")
+        ff_browse = QPushButton("Browse…")
+        ff_browse.clicked.connect(self._add_forcefield_files)
+        ff_row = QHBoxLayout(); ff_row.addWidget(self.forcefield_files, 1); ff_row.addWidget(ff_browse)
         self.extra_coords = _PathField("Other coordinates", COORDINATE_FILTER, get_folder)
         f1 = QFormLayout(self.builtin_box)
-        f1.addRow("File", self.structure); f1.addRow("", self.hydrogens)
+        f1.addRow("File", self.structure); f1.addRow("", self.hydrogens); f1.addRow("", self.repair)
+        f1.addRow("pH (hydrogens)", self.ph); f1.addRow("Templates", ff_row)
+        f1.addRow("", self.drop_unmatched)
         f1.addRow("Other frames (optional)", self.extra_coords)
 
         self.psf_box = QGroupBox("PSF system")
@@ -88,7 +104,8 @@ class OpenStructureDialog(QDialog):
         lay = QVBoxLayout(self)
         lay.addWidget(self.mode_builtin); lay.addWidget(self.builtin_box)
         lay.addWidget(self.mode_psf); lay.addWidget(self.psf_box)
-        fr = QFormLayout(); fr.addRow("Frame of a trajectory (0 = first)", self.frame); lay.addLayout(fr)
+        fr = QFormLayout(); lay.addLayout(fr)
+        fr.addRow("Frame of a trajectory, or model of an ensemble (0 = first)", self.frame)
         lay.addWidget(self.message); lay.addWidget(buttons)
         self.mode_builtin.toggled.connect(self._enable)
         self._enable()
@@ -106,14 +123,24 @@ class OpenStructureDialog(QDialog):
         for p in paths:
             self.params.addItem(p)
 
+    def _add_forcefield_files(self) -> None:
+        paths, _ = QFileDialog.getOpenFileNames(self, "Force-field XML templates", self._folder(),
+                                                "OpenMM force field (*.xml);;All files (*)")
+        if paths:
+            current = [p for p in self.forcefield_files.text().split(";") if p.strip()]
+            self.forcefield_files.setText("; ".join(current + paths))
+
     def _enable(self) -> None:
         b = self.mode_builtin.isChecked()
         self.builtin_box.setEnabled(b); self.psf_box.setEnabled(not b)
 
     def spec(self) -> LoadSpec:
         if self.mode_builtin.isChecked():
+            files = tuple(p.strip() for p in self.forcefield_files.text().split(";") if p.strip())
             return LoadSpec(self.structure.text(), self.extra_coords.text() or None, (),
-                            self.frame.value(), self.hydrogens.isChecked())
+                            self.frame.value(), self.hydrogens.isChecked(), repair=self.repair.isChecked(),
+                            ph=float(self.ph.value()), forcefield_files=files,
+                            drop_unmatched=self.drop_unmatched.isChecked())
         params = tuple(self.params.item(k).text() for k in range(self.params.count()))
         return LoadSpec(self.psf.text(), self.coords.text() or None, params, self.frame.value(), False)
 
