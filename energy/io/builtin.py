@@ -136,7 +136,7 @@ def system_from_openmm(omm_system, topology, types=None, force_field="", source_
     Returns
     -------
     MolecularSystem
-        Parameters in kcal/mol, A, degrees as the OpenMM forces give them for angles.
+        Parameters in kcal/mol and A; equilibrium angles and torsion phases keep OpenMM's radians.
 
     Raises
     ------
