@@ -23,6 +23,18 @@ def one_line(text, cap: int = MESSAGE_CAP) -> str:
     Runs of whitespace (newlines included) become one space; other control characters (NUL,
     escape sequences) and unpaired surrogates become ``?``; a text longer than ``cap`` is cut
     and ends with ``... (N more characters)``.
+
+    Parameters
+    ----------
+    text : object
+        The text (passed through ``str``).
+    cap : int
+        Longest result, characters (default :data:`MESSAGE_CAP`).
+
+    Returns
+    -------
+    str
+        The folded, capped line.
     """
     text = str(text)
     head = text[:20 * cap]  # never fold a megabyte to show 300 characters
@@ -45,7 +57,20 @@ def one_line(text, cap: int = MESSAGE_CAP) -> str:
 
 
 def quote_field(text, cap: int = FIELD_CAP) -> str:
-    """``repr`` of an offending field, cut to ``cap`` characters (with how many were left out)."""
+    """``repr`` of an offending field, cut to ``cap`` characters (with how many were left out).
+
+    Parameters
+    ----------
+    text : object
+        The field (passed through ``str``).
+    cap : int
+        Most characters of the field quoted (default :data:`FIELD_CAP`).
+
+    Returns
+    -------
+    str
+        ``repr`` of the field, followed by ``... (N more characters)`` when it was cut.
+    """
     text = str(text)
     if len(text) <= cap:
         return repr(text)
@@ -53,7 +78,22 @@ def quote_field(text, cap: int = FIELD_CAP) -> str:
 
 
 def shown_list(items, limit: int = 5, sep: str = ", ") -> str:
-    """The first ``limit`` items joined by ``sep``, then ``(N more)`` if there are more."""
+    """The first ``limit`` items joined by ``sep``, then ``(N more)`` if there are more.
+
+    Parameters
+    ----------
+    items : iterable
+        Items to list (each passed through ``str``).
+    limit : int
+        Most items shown.
+    sep : str
+        Separator between the items shown.
+
+    Returns
+    -------
+    str
+        The listing.
+    """
     items = list(items)
     shown = sep.join(str(i) for i in items[:limit])
     return shown + (f" ({len(items) - limit} more)" if len(items) > limit else "")

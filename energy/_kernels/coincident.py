@@ -40,13 +40,18 @@ def _sweep(x, order, axis, floor, budget):
 
 
 def closest_pair_below(points: np.ndarray, floor: float):
-    """``(i, j)`` of two points closer than ``floor`` (indices into ``points``), ``None`` if
-    there are none, or ``"crowded"`` when the sweep gave up (many near-coincident points).
+    """Two points closer than ``floor``, if any.
 
     Parameters
     ----------
     points : (n, 3) float64 array, A
     floor : float, A
+
+    Returns
+    -------
+    tuple of int, None or str
+        ``(i, j)`` of two points closer than ``floor`` (indices into ``points``), ``None`` if
+        there are none, or ``"crowded"`` when the sweep gave up (many near-coincident points).
     """
     x = np.ascontiguousarray(points, dtype=np.float64)
     if not x.flags.writeable:  # one compiled variant (numba compiles read-only arrays apart)

@@ -512,7 +512,13 @@ class TrajectoryResult:
         return out
 
     def cell_notes(self) -> list[str]:
-        """The distinct notes on ignored unit cells over the frames, in order of first appearance."""
+        """The distinct notes on ignored unit cells over the frames, in order of first appearance.
+
+        Returns
+        -------
+        list of str
+            One note per distinct ignored cell.
+        """
         return list(dict.fromkeys(r.cell_note for r in self.records if r.cell_note))
 
     def selection_series(self) -> dict | None:

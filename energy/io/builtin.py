@@ -37,6 +37,17 @@ def _clean_openmm_message(exc: Exception) -> str:
 def build_force_field(force_field=DEFAULT_FORCE_FIELD, extra_files=()):
     """OpenMM ``ForceField`` of ``force_field`` plus the template files ``extra_files``.
 
+    Parameters
+    ----------
+    force_field : tuple of str
+        OpenMM force-field files (default Amber 14 + TIP3P).
+    extra_files : iterable of str
+        Paths of further force-field XML files.
+
+    Returns
+    -------
+    openmm.app.ForceField
+
     Raises
     ------
     StructureFileError
@@ -108,7 +119,30 @@ def _residue_table(topology):
 
 
 def system_from_openmm(omm_system, topology, types=None, force_field="", source_files=()):
-    """Convert an ``openmm.System`` + ``Topology`` into a :class:`MolecularSystem`."""
+    """Convert an ``openmm.System`` + ``Topology`` into a :class:`MolecularSystem`.
+
+    Parameters
+    ----------
+    omm_system : openmm.System
+        Harmonic bond/angle, periodic torsion, nonbonded and CMAP forces only (kJ/mol, nm).
+    topology : openmm.app.Topology
+    types : sequence of str or None
+        Atom types (None: ``"?"`` for every atom).
+    force_field : str
+        Label of the force field (also the path named in errors).
+    source_files : tuple of str
+        Files the system was built from.
+
+    Returns
+    -------
+    MolecularSystem
+        Parameters in kcal/mol and A; equilibrium angles and torsion phases keep OpenMM's radians.
+
+    Raises
+    ------
+    StructureFileError
+        An unsupported OpenMM force, or a CMAP grid of odd size.
+    """
     forces = {f.__class__.__name__: f for f in omm_system.getForces()}
     unknown = set(forces) - _KNOWN_FORCES
     if unknown:
@@ -193,8 +227,28 @@ def load_builtin(path: str, add_hydrogens: bool = False, force_field=DEFAULT_FOR
                  options=None):
     """Read ``path`` (PDB/mmCIF, ``.gz`` too), prepare it and parameterise it.
 
-    Returns ``(MolecularSystem, Frame, openmm Topology, seconds spent reading the file)``; see
-    :func:`load_builtin_prepared` for the preparation record and the models.
+    See :func:`load_builtin_prepared` for the preparation record and the models.
+
+    Parameters
+    ----------
+    path : str
+        PDB or mmCIF file, optionally gzip-compressed.
+    add_hydrogens : bool
+        Add missing hydrogens (used only without ``options``).
+    force_field : tuple of str
+        OpenMM force-field files (default Amber 14 + TIP3P).
+    ph : float
+        pH for the hydrogens (used only without ``options``).
+    options : energy.io.preparation.PreparationOptions or None
+
+    Returns
+    -------
+    tuple
+        ``(MolecularSystem, Frame, openmm Topology, seconds spent reading the file)``.
+
+    Raises
+    ------
+    StructureFileError, UnknownResidueError
     """
     from energy.io.preparation import PreparationOptions
     options = options or PreparationOptions(add_hydrogens=add_hydrogens, ph=ph)

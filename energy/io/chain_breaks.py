@@ -19,14 +19,20 @@ def _atom(residue, name):
 
 
 def find_gaps(topology, positions) -> list[tuple]:
-    """Chain breaks: ``(residue_before, residue_after, distance or None)`` for consecutive amino
-    acids (residues with a CA) of one chain whose C-N distance exceeds :data:`GAP_C_N_ANGSTROM`
-    or that lack the C or the N atom.
+    """Chain breaks.
+
+    Consecutive amino acids (residues with a CA) of one chain whose C-N distance exceeds
+    :data:`GAP_C_N_ANGSTROM` or that lack the C or the N atom.
 
     Parameters
     ----------
     topology : openmm.app.Topology
     positions : (n_atoms, 3) float64, A.
+
+    Returns
+    -------
+    list of tuple
+        ``(residue_before, residue_after, distance or None)``, distance in A.
     """
     gaps = []
     for chain in topology.chains():
@@ -45,8 +51,21 @@ def find_gaps(topology, positions) -> list[tuple]:
 
 
 def split_chains(topology, starts) -> object:
-    """A copy of ``topology`` with a new chain (same id) starting at each residue of ``starts``;
-    bonds between the two residues at a split are left out.  Atom order is unchanged."""
+    """A copy of ``topology`` split into new chains at ``starts``.
+
+    A new chain (same id) starts at each residue of ``starts``; bonds between the two residues at
+    a split are left out.  Atom order is unchanged.
+
+    Parameters
+    ----------
+    topology : openmm.app.Topology
+    starts : iterable of openmm.app.Residue
+        Residues of ``topology`` that start a new chain.
+
+    Returns
+    -------
+    openmm.app.Topology
+    """
     from openmm import app
     starts = {r.index for r in starts}
     new = app.Topology()

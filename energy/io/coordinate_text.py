@@ -186,15 +186,23 @@ def check_coordinate_text(path):
 
 
 def compare_with_reader(path, parsed, positions) -> None:
-    """Refuse a file whose coordinates a library read differently from its fields (MDAnalysis
-    reads CRD coordinates from fixed windows, and cuts a wide number's leading digits).
+    """Refuse a file whose coordinates a library read differently from its fields.
+
+    MDAnalysis reads CRD coordinates from fixed windows, and cuts a wide number's leading digits.
 
     Parameters
     ----------
+    path : str or os.PathLike
+        The file (named in the error).
     parsed : (n, 3) float64 array or None
         What :func:`check_coordinate_text` parsed (None: nothing to compare).
     positions : (n, 3) array
         The library's first frame (float32 in MDAnalysis: compared to 1e-6 relative).
+
+    Raises
+    ------
+    StructureFileError
+        A coordinate differs by more than 1e-3 A + 1e-6 relative (a number overflows its column).
     """
     if parsed is None or len(parsed) != len(positions):
         return

@@ -45,9 +45,27 @@ _DECOMPRESSED: dict = {}
 
 
 def plain_file(path) -> str:
-    """``path`` itself, or for a ``.gz`` file a decompressed copy (same name without ``.gz``, in
-    a private temporary folder removed when the process ends; made once per file and
-    modification time).  MDAnalysis' readers of binary trajectories need a plain file."""
+    """A file MDAnalysis can read: ``path`` itself, or for a ``.gz`` file a decompressed copy.
+
+    The copy has the same name without ``.gz``, in a private temporary folder removed when the
+    process ends; it is made once per file and modification time.  MDAnalysis' readers of binary
+    trajectories need a plain file.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The file, optionally gzip-compressed.
+
+    Returns
+    -------
+    str
+        Path of the plain file.
+
+    Raises
+    ------
+    StructureFileError
+        The ``.gz`` file cannot be decompressed.
+    """
     import atexit
     import gzip
     import shutil
@@ -180,13 +198,45 @@ def _check_residues(universe, residues, path, topology_kind) -> None:
 
 
 def third_party_message(exc: BaseException) -> str:
-    """A library's exception as one short line (the caller puts the file name first)."""
+    """A library's exception as one short line (the caller puts the file name first).
+
+    Parameters
+    ----------
+    exc : BaseException
+        The exception raised by the library.
+
+    Returns
+    -------
+    str
+        At most 160 characters (:func:`energy.errors.one_line`), or the exception's type name if
+        it has no message.
+    """
     return one_line(str(exc), 160) or type(exc).__name__
 
 
 def read_timestep(universe, index: int, path):
-    """Timestep ``index`` of ``universe``; any failure of the reader (a truncated or damaged
-    frame, models of different sizes) becomes a :class:`StructureFileError` naming the file."""
+    """Timestep ``index`` of ``universe``.
+
+    Any failure of the reader (a truncated or damaged frame, models of different sizes) becomes a
+    :class:`StructureFileError` naming the file.
+
+    Parameters
+    ----------
+    universe : MDAnalysis.Universe
+    index : int
+        Frame number (0-based).
+    path : str or os.PathLike
+        The file, named in errors.
+
+    Returns
+    -------
+    MDAnalysis timestep
+
+    Raises
+    ------
+    StructureFileError
+        The reader failed on the frame.
+    """
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
@@ -227,11 +277,7 @@ def frame_from_timestep(ts, path, index: int) -> Frame:
 
 def read_frame(coords_path, n_atoms: int, names, frame: int = 0, topology_kind: str = "PSF",
                residues=None) -> Frame:
-    """Read one frame (0-based) of coordinates and check it against the topology (``residues``:
-    see :func:`open_coordinates`).
-
-    Raises StructureFileError (unreadable file, missing frame, non-finite coordinates) or
-    InputMismatchError (atom count or names differ).
+    """Read one frame (0-based) of coordinates and check it against the topology.
 
     Parameters
     ----------
@@ -245,11 +291,20 @@ def read_frame(coords_path, n_atoms: int, names, frame: int = 0, topology_kind: 
         Frame to read (0-based; default 0).
     topology_kind : str, optional
         How the topology is named in messages (default ``"PSF"``).
+    residues : (resnames, resindex), optional
+        Residues of the topology to check the file's against: see :func:`open_coordinates`.
 
     Returns
     -------
     Frame
         Positions (n_atoms, 3) float64 A, unit cell (A, degrees) or None, ``index`` ``frame``.
+
+    Raises
+    ------
+    StructureFileError
+        Unreadable file, missing frame, non-finite coordinates.
+    InputMismatchError
+        Atom count or names differ.
     """
     path = os.fspath(coords_path)
     universe = open_coordinates(path, n_atoms, names, topology_kind, residues=residues)

@@ -146,6 +146,21 @@ def load_system(structure, coords=None, params=(), frame: int = 0, add_hydrogens
 def model_frame(path, models, box, index: int) -> Frame:
     """Model ``index`` (0-based) of a multi-model structure as a :class:`Frame`.
 
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The structure file (kept as ``Frame.source``, named in errors).
+    models : (n_models, n_atoms, 3) float64 or None
+        The file's models on the prepared atoms, A (None: preparation added atoms).
+    box : (6,) float64 or None
+        Unit cell ``[a, b, c, alpha, beta, gamma]`` (A, degrees).
+    index : int
+        Model number (0-based).
+
+    Returns
+    -------
+    Frame
+
     Raises
     ------
     StructureFileError

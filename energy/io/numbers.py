@@ -25,7 +25,17 @@ PARAMETER_BOUND = 1.0e6
 
 
 def is_number(word: str) -> bool:
-    """True if ``word`` is a number in the strict sense of this module."""
+    """True if ``word`` is a number in the strict sense of this module.
+
+    Parameters
+    ----------
+    word : str
+        The field as written.
+
+    Returns
+    -------
+    bool
+    """
     return _FLOAT.match(word) is not None
 
 
@@ -42,6 +52,12 @@ def parse_float(word: str, what: str, path, line: int | None = None, *, low: flo
         Name of the field in messages (``"BONDS Kb"``).
     path, line
         Where the field is, for the :class:`StructureFileError`.
+    low, high : float or None
+        Limits of the value (None: no limit).
+    low_open : bool
+        Exclude ``low`` itself.
+    bound : float
+        Largest magnitude accepted (default :data:`PARAMETER_BOUND`).
 
     Returns
     -------
@@ -73,6 +89,21 @@ def parse_int(word: str, what: str, path, line: int | None = None, *, low: int |
               high: int | None = None) -> int:
     """A strictly written integer (ASCII digits, optional sign, at most :data:`MAX_INT_DIGITS`
     digits) within ``[low, high]``.
+
+    Parameters
+    ----------
+    word : str
+        The field as written.
+    what : str
+        Name of the field in messages.
+    path, line
+        Where the field is, for the :class:`StructureFileError`.
+    low, high : int or None
+        Inclusive limits of the value (None: no limit).
+
+    Returns
+    -------
+    int
 
     Raises
     ------

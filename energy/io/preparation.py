@@ -95,6 +95,16 @@ class PreparationRecord:
     prepared_pdb: str | None = None
 
     def as_dict(self) -> dict:
+        """The record and the options it was made with, as a JSON-ready dictionary.
+
+        Returns
+        -------
+        dict
+            Options (``repair``, ``add_hydrogens``, ``ph`` or None, ``forcefield_files``,
+            ``drop_unmatched``, ``gap_c_n_threshold_angstrom`` in A) and every change made (gaps,
+            altlocs, residues replaced, atoms renamed, added, relaxed, virtual sites removed, dropped
+            residues, ``n_models``, ``prepared_pdb``).
+        """
         o = self.options
         return {"repair": o.repair, "add_hydrogens": o.adds_hydrogens,
                 "ph": o.ph if o.adds_hydrogens else None, "forcefield_files": list(o.forcefield_files),
@@ -110,7 +120,13 @@ class PreparationRecord:
                 "prepared_pdb": self.prepared_pdb}
 
     def short_text(self) -> str:
-        """One short line of counts (the window's status bar)."""
+        """One short line of counts (the window's status bar).
+
+        Returns
+        -------
+        str
+            Counts joined by commas, or ``"nothing changed"``.
+        """
         parts = [f"{len(self.gaps)} gap(s)" if self.gaps else "",
                  f"{len(self.altlocs)} altloc choice(s)" if self.altlocs else "",
                  f"{len(self.residues_replaced)} residue(s) replaced" if self.residues_replaced else "",
@@ -120,7 +136,13 @@ class PreparationRecord:
         return ", ".join(p for p in parts if p) or "nothing changed"
 
     def summary_lines(self) -> list[str]:
-        """Lines for the human summary (nothing for a structure that needed nothing)."""
+        """Lines for the human summary (nothing for a structure that needed nothing).
+
+        Returns
+        -------
+        list of str
+            One line per kind of change.
+        """
         out = []
         for g in self.gaps:
             d = "atom missing" if g["c_n_distance"] is None else f"C-N {g['c_n_distance']:.2f} A"
@@ -239,7 +261,23 @@ def _models_on(topology, models, original_keys):
 # ------------------------------------------------------------------------------------------
 
 def drop_residues(topology, positions, residues, record):
-    """Remove ``residues`` (OpenMM residues of ``topology``), listing them in ``record``."""
+    """Remove ``residues`` (OpenMM residues of ``topology``), listing them in ``record``.
+
+    Parameters
+    ----------
+    topology : openmm.app.Topology
+    positions : (n_atoms, 3) float64
+        Coordinates, A.
+    residues : sequence of openmm.app.Residue
+        Residues of ``topology`` to remove.
+    record : PreparationRecord
+        Gets the labels of the removed residues (``dropped``).
+
+    Returns
+    -------
+    (openmm.app.Topology, (n_atoms', 3) float64)
+        The topology and positions (A) without ``residues``; the inputs if there are none.
+    """
     if not residues:
         return topology, positions
     record.dropped.extend(residue_label(r) for r in residues)
@@ -258,8 +296,19 @@ class UnmatchedResidues(UnknownResidueError):
 
 
 def unmatched_as_they_are(topology, force_field):
-    """Residues that match no template of ``force_field`` and that OpenMM adds no hydrogens to
-    (ligands, cofactors, modified residues, 4-site waters): adding hydrogens cannot fix them."""
+    """Residues that match no template of ``force_field`` and that OpenMM adds no hydrogens to.
+
+    Ligands, cofactors, modified residues, 4-site waters: adding hydrogens cannot fix them.
+
+    Parameters
+    ----------
+    topology : openmm.app.Topology
+    force_field : openmm.app.ForceField
+
+    Returns
+    -------
+    list of openmm.app.Residue
+    """
     from openmm import app
     app.Modeller._loadStandardHydrogenDefinitions()
     with_hydrogens = set(app.Modeller._residueHydrogens)
@@ -268,7 +317,22 @@ def unmatched_as_they_are(topology, force_field):
 
 
 def prepare_structure(path: str, options: PreparationOptions, force_field, force_field_label: str):
-    """Run the steps of the module docstring on ``path``; returns a :class:`PreparedStructure`.
+    """Run the steps of the module docstring on ``path``.
+
+    Parameters
+    ----------
+    path : str
+        PDB or mmCIF file, optionally gzip-compressed.
+    options : PreparationOptions
+        The steps asked for.
+    force_field : openmm.app.ForceField
+        Force field whose templates the residues must match.
+    force_field_label : str
+        How the force field is named (kept in the result).
+
+    Returns
+    -------
+    PreparedStructure
 
     Raises
     ------
@@ -322,7 +386,19 @@ def prepare_structure(path: str, options: PreparationOptions, force_field, force
 
 
 def prepared_pdb_text(topology, positions) -> str:
-    """``topology`` with ``positions`` ((n_atoms, 3) A) as PDB text (author numbers kept)."""
+    """``topology`` with ``positions`` as PDB text (author numbers kept).
+
+    Parameters
+    ----------
+    topology : openmm.app.Topology
+    positions : (n_atoms, 3) float64
+        Coordinates, A.
+
+    Returns
+    -------
+    str
+        PDB text written by OpenMM's ``PDBFile``.
+    """
     from openmm import app, unit
     out = io.StringIO()
     app.PDBFile.writeFile(topology, np.asarray(positions) * 0.1 * unit.nanometer, out, keepIds=True)

@@ -25,21 +25,51 @@ def _one_line(exc: Exception) -> str:
 
 
 def modeller_of(topology, positions_angstrom):
+    """An OpenMM ``Modeller`` of ``topology`` at ``positions_angstrom``.
+
+    Parameters
+    ----------
+    topology : openmm.app.Topology
+    positions_angstrom : (n_atoms, 3) float64
+        Coordinates, A (converted to nm for OpenMM).
+
+    Returns
+    -------
+    openmm.app.Modeller
+    """
     from openmm import app, unit
     return app.Modeller(topology, positions_angstrom * 0.1 * unit.nanometer)
 
 
 def positions_of(modeller) -> np.ndarray:
+    """The positions of ``modeller`` in A.
+
+    Parameters
+    ----------
+    modeller : openmm.app.Modeller
+
+    Returns
+    -------
+    (n_atoms, 3) float64
+        Coordinates, A.
+    """
     from openmm import unit
     return np.array(modeller.positions.value_in_unit(unit.angstrom), dtype=np.float64)
 
 
 @contextmanager
 def deterministic_platform():
-    """An OpenMM platform whose results repeat bit for bit: the CPU platform on one thread with
-    ``DeterministicForces`` (its defaults restored afterwards), or Reference where there is no
-    CPU platform.  Both of OpenMM's own preparation steps (PDBFixer's relaxation of rebuilt
-    atoms, Modeller's hydrogen placement) run on it."""
+    """An OpenMM platform whose results repeat bit for bit.
+
+    The CPU platform on one thread with ``DeterministicForces`` (its defaults restored afterwards),
+    or Reference where there is no CPU platform.  Both of OpenMM's own preparation steps (PDBFixer's
+    relaxation of rebuilt atoms, Modeller's hydrogen placement) run on it.
+
+    Yields
+    ------
+    openmm.Platform
+        The platform, for the body of the ``with`` block.
+    """
     import openmm
     try:
         platform = openmm.Platform.getPlatformByName("CPU")
@@ -58,7 +88,21 @@ def deterministic_platform():
 
 
 def remove_virtual_sites(topology, positions, record):
-    """Drop the massless extra site of every 4-site water."""
+    """Drop the massless extra site of every 4-site water.
+
+    Parameters
+    ----------
+    topology : openmm.app.Topology
+    positions : (n_atoms, 3) float64
+        Coordinates, A.
+    record : PreparationRecord
+        Gets the labels of the waters (``virtual_sites_removed``).
+
+    Returns
+    -------
+    (openmm.app.Topology, (n_atoms', 3) float64)
+        Topology and positions (A) without the sites; the inputs if there are no 4-site waters.
+    """
     waters = [r for r in topology.residues() if is_four_site_water(r)]
     if not waters:
         return topology, positions
@@ -71,7 +115,27 @@ def remove_virtual_sites(topology, positions, record):
 
 
 def repair(topology, positions, text: str, pdbx: bool, record, force_field):
-    """PDBFixer: modified residues -> parents, missing heavy atoms and terminal groups rebuilt."""
+    """PDBFixer: modified residues -> parents, missing heavy atoms and terminal groups rebuilt.
+
+    Parameters
+    ----------
+    topology : openmm.app.Topology
+    positions : (n_atoms, 3) float64
+        Coordinates, A.
+    text : str
+        The structure file's text.
+    pdbx : bool
+        ``text`` is PDBx/mmCIF (else PDB).
+    record : PreparationRecord
+        Gets the residues replaced, atoms renamed and atoms added.
+    force_field : openmm.app.ForceField
+        Its templates decide which hydrogens of a replaced residue are kept.
+
+    Returns
+    -------
+    (openmm.app.Topology, (n_atoms', 3) float64)
+        The repaired topology and positions, A.
+    """
     from pdbfixer import PDBFixer
     with deterministic_platform() as platform:
         fixer = (PDBFixer(pdbxfile=io.StringIO(text), platform=platform) if pdbx else
@@ -150,10 +214,20 @@ CARBOXYLATE_C_O_ANGSTROM = 1.25
 
 
 def place_carboxylate_oxygens(topology, positions, residues) -> None:
-    """Put each rebuilt OXT of ``residues`` ((chain, number, icode) keys) where a carboxylate's
-    second oxygen is: in the CA-C-O plane, 1.25 A from C, bisecting the outside of the CA-C-O
-    angle (sp2 carbon, about 120 degrees to both).  PDBFixer's own placement left OXT within
-    0.8 A of CA on deposited entries (e.g. 1A28's A:LYS932).  ``positions`` (A) change in place."""
+    """Put each rebuilt OXT of ``residues`` where a carboxylate's second oxygen is.
+
+    In the CA-C-O plane, 1.25 A from C, bisecting the outside of the CA-C-O angle (sp2 carbon,
+    about 120 degrees to both).  PDBFixer's own placement left OXT within 0.8 A of CA on deposited
+    entries (e.g. 1A28's A:LYS932).
+
+    Parameters
+    ----------
+    topology : openmm.app.Topology
+    positions : (n_atoms, 3) float64
+        Coordinates, A; change in place.
+    residues : set of (str, str, str)
+        ``(chain, number, icode)`` keys of the residues whose OXT was rebuilt.
+    """
     for residue in topology.residues():
         key = (str(residue.chain.id), str(residue.id), str(getattr(residue, "insertionCode", "") or ""))
         if key not in residues:
@@ -169,8 +243,21 @@ def place_carboxylate_oxygens(topology, positions, residues) -> None:
 
 
 def modified_parents(text: str = "") -> dict:
-    """Modified residue -> parent residue that ``--repair`` substitutes: PDBFixer's table, and
-    the ``MODRES`` records of PDB ``text`` (residue name in columns 13-15, parent in 25-27)."""
+    """Modified residue -> parent residue that ``--repair`` substitutes.
+
+    PDBFixer's table, and the ``MODRES`` records of PDB ``text`` (residue name in columns 13-15,
+    parent in 25-27).
+
+    Parameters
+    ----------
+    text : str
+        PDB text (may be empty).
+
+    Returns
+    -------
+    dict of str to str
+        Residue name -> parent residue name.
+    """
     from pdbfixer.pdbfixer import substitutions
     parents = dict(substitutions)
     for line in text.splitlines():
@@ -186,6 +273,27 @@ def add_hydrogens(topology, positions, force_field, ph: float, record):
     ``random`` and then minimises them on the default (multi-threaded) platform: two runs differed
     by several kcal/mol.  Here the generator is seeded (and restored afterwards) and the
     minimisation runs on :func:`deterministic_platform`.
+
+    Parameters
+    ----------
+    topology : openmm.app.Topology
+    positions : (n_atoms, 3) float64
+        Coordinates, A.
+    force_field : openmm.app.ForceField
+    ph : float
+        pH that decides protonation states.
+    record : PreparationRecord
+        Gets the count of hydrogens added.
+
+    Returns
+    -------
+    (openmm.app.Topology, (n_atoms', 3) float64)
+        Topology and positions (A) with the hydrogens.
+
+    Raises
+    ------
+    UnknownResidueError
+        Hydrogens could not be added (naming the residue and the options that help).
     """
     import random
     m = modeller_of(topology, positions)
@@ -224,10 +332,28 @@ RELAX_TOLERANCE, RELAX_ITERATIONS = 10.0, 500
 
 
 def relax_added_atoms(topology, positions, force_field, from_file, record):
-    """Minimise the energy of the atoms not in the file with the force field itself, every
-    deposited atom held fixed (mass 0): PDBFixer relaxes rebuilt atoms with a soft potential
-    only, which left rebuilt side chains 1.6 A from a neighbour (1A28's A:ASN705 ND2).  Nonbonded
-    cutoff 1 nm (as OpenMM's Modeller relaxes hydrogens), on :func:`deterministic_platform`."""
+    """Minimise the energy of the atoms not in the file with the force field itself.
+
+    Every deposited atom is held fixed (mass 0): PDBFixer relaxes rebuilt atoms with a soft
+    potential only, which left rebuilt side chains 1.6 A from a neighbour (1A28's A:ASN705 ND2).
+    Nonbonded cutoff 1 nm (as OpenMM's Modeller relaxes hydrogens), on :func:`deterministic_platform`.
+
+    Parameters
+    ----------
+    topology : openmm.app.Topology
+    positions : (n_atoms, 3) float64
+        Coordinates, A.
+    force_field : openmm.app.ForceField
+    from_file : sequence of bool
+        Per atom: True for an atom of the file (held fixed).
+    record : PreparationRecord
+        Gets the count of atoms relaxed.
+
+    Returns
+    -------
+    (n_atoms, 3) float64
+        Positions, A: the file's atoms exactly as given, the others minimised.
+    """
     import openmm
     from openmm import app, unit
     moving = [k for k, atom in enumerate(topology.atoms()) if not from_file[k]]

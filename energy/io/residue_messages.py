@@ -26,15 +26,38 @@ VIRTUAL_SITE_NAMES = frozenset({"MW", "M", "EPW", "EP", "LP", "OM", "MW1", "EW"}
 
 
 def residue_label(residue) -> str:
-    """``chain:NAME<number><insertion code>`` of an OpenMM residue, e.g. ``A:ILE181A``."""
+    """``chain:NAME<number><insertion code>`` of an OpenMM residue, e.g. ``A:ILE181A``.
+
+    Parameters
+    ----------
+    residue : openmm.app.Residue
+
+    Returns
+    -------
+    str
+        The label (no ``chain:`` prefix when the chain id is blank).
+    """
     chain = str(residue.chain.id).strip()
     icode = str(getattr(residue, "insertionCode", "") or "").strip()
     return f"{chain + ':' if chain else ''}{residue.name}{str(residue.id).strip()}{icode}"
 
 
 def grouped_listing(residues, limit: int = LIST_CHARACTERS) -> str:
-    """``NAME xN (label, label, ...), NAME2 xM (...)`` in order of first appearance, at most
-    ``limit`` characters of labels, the rest counted as ``(n more)``."""
+    """Residues grouped by name: ``NAME xN (label, label, ...), NAME2 xM (...)``.
+
+    Groups come in order of first appearance, with at most ``limit`` characters of labels, the
+    rest counted as ``(n more)``.
+
+    Parameters
+    ----------
+    residues : iterable of openmm.app.Residue
+    limit : int
+        Most characters of labels (default :data:`LIST_CHARACTERS`).
+
+    Returns
+    -------
+    str
+    """
     groups = {}
     for r in residues:
         groups.setdefault(r.name, []).append(residue_label(r))
@@ -59,7 +82,16 @@ def grouped_listing(residues, limit: int = LIST_CHARACTERS) -> str:
 
 
 def is_four_site_water(residue) -> bool:
-    """A water residue with a fourth, massless site (TIP4P-like)."""
+    """A water residue with a fourth, massless site (TIP4P-like).
+
+    Parameters
+    ----------
+    residue : openmm.app.Residue
+
+    Returns
+    -------
+    bool
+    """
     if residue.name.upper() not in WATER_NAMES:
         return False
     atoms = list(residue.atoms())
@@ -88,6 +120,11 @@ def unmatched_message(unmatched, *, has_hydrogens: bool, add_hydrogens: bool, re
     gaps : sequence of dict
         Chain breaks found (``after``, ``before``, ``c_n_distance``), named when one of their
         ends is unmatched.
+
+    Returns
+    -------
+    str
+        One line: how many residues match no template, and what helps for each kind.
     """
     water4 = [r for r in unmatched if is_four_site_water(r)]
     modified = [r for r in unmatched if r not in water4 and r.name in modified_parents]

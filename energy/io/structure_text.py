@@ -22,7 +22,17 @@ PDBX_SUFFIXES = (".cif", ".mmcif", ".pdbx")
 
 
 def structure_suffix(path) -> str:
-    """The format suffix of ``path`` with a ``.gz`` stripped first (``"x.pdb.gz"`` -> ``".pdb"``)."""
+    """The format suffix of ``path`` with a ``.gz`` stripped first (``"x.pdb.gz"`` -> ``".pdb"``).
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+
+    Returns
+    -------
+    str
+        Lower-case suffix with its dot (``""`` if there is none).
+    """
     name = os.path.basename(os.fspath(path)).lower()
     if name.endswith(".gz"):
         name = name[:-3]
@@ -30,7 +40,22 @@ def structure_suffix(path) -> str:
 
 
 def read_structure_text(path) -> str:
-    """The whole text of ``path`` (gzip-compressed if it ends in ``.gz``)."""
+    """The whole text of ``path`` (gzip-compressed if it ends in ``.gz``).
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+
+    Returns
+    -------
+    str
+        The text, read as UTF-8 (undecodable bytes replaced).
+
+    Raises
+    ------
+    StructureFileError
+        The file is missing or cannot be read.
+    """
     path = os.fspath(path)
     try:
         if path.lower().endswith(".gz"):
@@ -52,8 +77,19 @@ def _number(field: str):
 
 
 def check_pdb_records(text: str, path) -> str:
-    """Check the MODEL and ATOM/HETATM records of PDB ``text``; return it with MODEL lines in
-    standard columns.
+    """Check the MODEL and ATOM/HETATM records of PDB ``text``.
+
+    Parameters
+    ----------
+    text : str
+        PDB text.
+    path : str or os.PathLike
+        The file, named in errors.
+
+    Returns
+    -------
+    str
+        ``text`` with MODEL lines in standard columns.
 
     Raises
     ------
@@ -99,6 +135,13 @@ class AltlocChoice:
     chosen: str
 
     def as_dict(self) -> dict:
+        """The choice as a JSON-ready dictionary.
+
+        Returns
+        -------
+        dict
+            ``residue``, ``labels`` (label -> mean occupancy) and ``chosen``.
+        """
         return {"residue": self.residue, "labels": dict(self.occupancies), "chosen": self.chosen}
 
 
@@ -118,7 +161,18 @@ def _label(chain, resname, resseq, icode):
 
 
 def choose_altlocs_pdb(text: str) -> tuple[str, list[AltlocChoice]]:
-    """Keep one alternate location per residue of PDB ``text`` (see the module docstring)."""
+    """Keep one alternate location per residue of PDB ``text`` (see the module docstring).
+
+    Parameters
+    ----------
+    text : str
+        PDB text.
+
+    Returns
+    -------
+    (str, list of AltlocChoice)
+        The text with the other alternate locations removed, and the choices (first model).
+    """
     lines = text.splitlines(keepends=True)
     groups, names, model = {}, {}, 0
     for line in lines:
@@ -150,8 +204,21 @@ def choose_altlocs_pdb(text: str) -> tuple[str, list[AltlocChoice]]:
 
 
 def choose_altlocs_pdbx(text: str) -> tuple[str, list[AltlocChoice]]:
-    """Keep one alternate location per residue of mmCIF ``text``: rows of the ``atom_site`` loop
-    whose ``label_alt_id`` is another label are removed (the rule of :func:`choose_altlocs_pdb`)."""
+    """Keep one alternate location per residue of mmCIF ``text``.
+
+    Rows of the ``atom_site`` loop whose ``label_alt_id`` is another label are removed (the rule
+    of :func:`choose_altlocs_pdb`).
+
+    Parameters
+    ----------
+    text : str
+        PDBx/mmCIF text.
+
+    Returns
+    -------
+    (str, list of AltlocChoice)
+        The text without the rows of the other labels, and the choices (first model).
+    """
     lines = text.splitlines(keepends=True)
     fields, start, k = [], None, 0
     while k < len(lines):

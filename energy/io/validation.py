@@ -48,6 +48,13 @@ def check_cell(box, where: str = "") -> None:
 
     ``None`` and all-zero edges mean "no cell" and pass.
 
+    Parameters
+    ----------
+    box : (6,) float64 or None
+        The cell, A and degrees.
+    where : str
+        Prefix of the messages (e.g. the file).
+
     Raises
     ------
     GeometryError
@@ -96,6 +103,15 @@ def check_positions(positions, system=None, where: str = "") -> None:
     positions : (n_atoms, 3) float64 array, A
     system : MolecularSystem, optional
         Names the atoms in messages.
+    where : str
+        Prefix of the messages (e.g. the file).
+
+    Raises
+    ------
+    InputMismatchError
+        Non-finite coordinates.
+    GeometryError
+        Coordinates beyond :data:`COORDINATE_BOUND_ANGSTROM`.
     """
     prefix = f"{where}: " if where else ""
     x = np.asarray(positions, dtype=np.float64)
@@ -113,8 +129,24 @@ def check_positions(positions, system=None, where: str = "") -> None:
 
 
 def check_residue_spans(positions, system, box=None) -> None:
-    """Refuse a residue with an atom more than :data:`RESIDUE_RADIUS_LIMIT_ANGSTROM` from its
-    centre (atoms made whole around its first atom when ``box`` is given)."""
+    """Refuse a residue with an atom more than :data:`RESIDUE_RADIUS_LIMIT_ANGSTROM` from its centre.
+
+    Atoms are made whole around the residue's first atom when ``box`` is given.
+
+    Parameters
+    ----------
+    positions : (n_atoms, 3) float64
+        Coordinates, A.
+    system : MolecularSystem
+        Its residues.
+    box : (6,) float64 or None
+        Unit cell (A, degrees).
+
+    Raises
+    ------
+    GeometryError
+        Naming the first such residue and its farthest atom.
+    """
     res_atoms = ResidueAtoms.from_resindex(system.resindex, system.n_residues)
     if system.n_atoms == 0:
         return

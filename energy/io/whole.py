@@ -95,7 +95,18 @@ def whole_positions(system, positions, box) -> np.ndarray:
 
 
 def whole_frame(system, frame: Frame) -> Frame:
-    """``frame`` with its molecules made whole (the same object when nothing had to be done)."""
+    """``frame`` with its molecules made whole (the same object when nothing had to be done).
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        Its ``bonds`` table is the bond graph.
+    frame : Frame
+
+    Returns
+    -------
+    Frame
+    """
     x = whole_positions(system, frame.positions, frame.box)
     if x is frame.positions:
         return frame

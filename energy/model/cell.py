@@ -39,14 +39,35 @@ class CellCheck:
 
 
 def cell_volume(box) -> float:
-    """Volume (A^3) of the cell ``[a, b, c, alpha, beta, gamma]`` (A, degrees)."""
+    """Volume of a unit cell.
+
+    Parameters
+    ----------
+    box : (6,) float64
+        The cell ``[a, b, c, alpha, beta, gamma]`` (A, degrees).
+
+    Returns
+    -------
+    float
+        Volume, A^3.
+    """
     a, b, c = (float(v) for v in box[:3])
     ca, cb, cg = np.cos(np.radians(np.asarray(box[3:6], np.float64)))
     return float(a * b * c * np.sqrt(max(1.0 - ca * ca - cb * cb - cg * cg + 2.0 * ca * cb * cg, 0.0)))
 
 
 def is_placeholder_cell(box) -> bool:
-    """True for the PDB's 1 A x 1 A x 1 A placeholder (to the 3 decimals CRYST1 holds)."""
+    """True for the PDB's 1 A x 1 A x 1 A placeholder (to the 3 decimals CRYST1 holds).
+
+    Parameters
+    ----------
+    box : (6,) float64
+        The cell ``[a, b, c, alpha, beta, gamma]`` (A, degrees).
+
+    Returns
+    -------
+    bool
+    """
     return bool(np.all(np.abs(np.asarray(box[:3], np.float64) - PLACEHOLDER_EDGE) < 5e-4))
 
 
@@ -81,6 +102,22 @@ def check_cell(box, n_atoms: int) -> CellCheck:
 
 
 def nonbonded_cell(box, n_atoms: int, use_periodic: bool = True) -> CellCheck:
-    """The cell nonbonded pairs may use: :func:`check_cell` of ``box``, or none at all when the
-    settings ask to ignore cells (``use_periodic`` False, ``--no-periodic``: then no note)."""
+    """The cell nonbonded pairs may use.
+
+    :func:`check_cell` of ``box``, or none at all when the settings ask to ignore cells
+    (``use_periodic`` False, ``--no-periodic``: then no note).
+
+    Parameters
+    ----------
+    box : (6,) float64 or None
+        ``[a, b, c, alpha, beta, gamma]`` in A and degrees.
+    n_atoms : int
+        Atoms of the system the cell would hold.
+    use_periodic : bool
+        Whether the settings allow a periodic cell.
+
+    Returns
+    -------
+    CellCheck
+    """
     return check_cell(box, n_atoms) if use_periodic else CellCheck(None)

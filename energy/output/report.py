@@ -21,9 +21,17 @@ UNITS = {"energy": "kcal/mol", "distance": "angstrom"}
 
 
 def require_finite(system, result) -> None:
-    """Refuse to write a result holding a non-finite energy (a total, a residue pair's term or
-    the unlisted sums); the pipeline refuses them first (:mod:`energy.decomposition.finiteness`),
-    this keeps every writer honest on its own.
+    """Refuse to write a result holding a non-finite energy.
+
+    A total, a residue pair's term or the unlisted sums; the pipeline refuses them first
+    (:mod:`energy.decomposition.finiteness`), this keeps every writer honest on its own.
+
+    Parameters
+    ----------
+    system : MolecularSystem or None
+        Names the residues in messages.
+    result : EnergyResult
+        Energies, kcal/mol.
 
     Raises
     ------
@@ -310,8 +318,20 @@ def _first_non_finite(value, where="document"):
 
 
 def write_json(path, doc: dict) -> None:
-    """Write ``doc`` as JSON, atomically; a non-finite number is refused before anything is
-    written (:class:`NonFiniteEnergyError` naming its key)."""
+    """Write ``doc`` as JSON, atomically.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The file to write.
+    doc : dict
+        The document.
+
+    Raises
+    ------
+    NonFiniteEnergyError
+        A non-finite number, refused before anything is written (naming its key).
+    """
     where = _first_non_finite(doc)
     if where is not None:
         raise NonFiniteEnergyError(where.split(".")[-1], f"{where} in the JSON document; nothing was written")
