@@ -39,6 +39,8 @@ def test_models_of_an_nmr_ensemble_are_frames(tmp_path):
     doc = json.loads(out.read_text())
     assert doc["frames"] == [0, 6, 12, 18] and doc["inputs"]["n_frames_in_file"] == 24
     assert doc["settings"]["cell_note"].startswith("unit cell ignored: CRYST1 1 x 1 x 1 A")
+    assert doc["preparation"]["residues_replaced"] == [{"residue": "A:SME24", "by": "MET"}]
+    assert doc["preparation"]["n_models"] == 24
     for k, frame in enumerate(doc["frames"]):
         single = load_system(NMR_NEOPETROSIAMIDE_PDB, frame=frame, preparation=REPAIR)
         totals = compute(single.system, single.frame, EnergySettings()).totals

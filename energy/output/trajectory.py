@@ -189,6 +189,7 @@ def trajectory_document(result, scan, execution: dict, interrupted: bool, timing
         "n_atoms": system.n_atoms,
         "n_residues": system.n_residues,
         "settings": {**req.settings.as_dict(), "cell_note": "; ".join(result.cell_notes()) or None},
+        "preparation": _preparation(scan),
         "execution": execution,
         "complete": result.complete,
         "interrupted": interrupted,
@@ -209,6 +210,13 @@ def trajectory_document(result, scan, execution: dict, interrupted: bool, timing
                             **{c: [float(v) if c in ("coulomb", "lj", "total") else int(v)
                                    for v in sel[c]] for c in SELECTION_COLUMNS}}
     return doc
+
+
+def _preparation(scan):
+    """The preparation block of the scan's built-in-route system (energy.io.preparation), or None."""
+    source = getattr(scan, "source", None)
+    record = getattr(getattr(source, "loaded", None), "preparation", None)
+    return None if record is None else record.as_dict()
 
 
 def summary_text(result, top: int = 8) -> str:
