@@ -7,8 +7,8 @@ parameter files).  Indices are converted to 0-based.  Charges in e, masses in am
 
 Nothing in the file is trusted:
 
-* every section we read must hold exactly as many entries as its header says (a section ends at
-  a blank line, the next header or the end of the file), and may appear once;
+* every section we read (and !NDON, !NACC) must hold exactly as many entries as its header says
+  (a section ends at a blank line, the next header or the end of the file), and may appear once;
 * the atom records are numbered 1, 2, 3, ... in order;
 * a section is required when the bond graph implies its kind of interaction: !NBOND when a
   residue has more than one atom, !NTHETA when an atom has two bonded partners, !NPHI when a
@@ -35,7 +35,10 @@ from energy.io.numbers import MAX_INT_DIGITS, parse_float, parse_int
 INDEX_SECTIONS = {"NBOND": 2, "NTHETA": 3, "NPHI": 4, "NIMPHI": 4, "NCRTERM": 8}
 #: What each index section holds, for messages.
 SECTION_WHAT = {"NATOM": "atoms", "NBOND": "bonds", "NTHETA": "angles", "NPHI": "dihedrals",
-                "NIMPHI": "impropers", "NCRTERM": "cross-terms"}
+                "NIMPHI": "impropers", "NCRTERM": "cross-terms", "NDON": "donors", "NACC": "acceptors"}
+#: Sections not used for energies whose counts are checked too: (donor or acceptor, its
+#: hydrogen or antecedent) pairs, where 0 means none.
+CHECKED_ONLY = {"NDON": 2, "NACC": 2}
 #: Largest |charge| of one atom (e) and largest mass (amu) accepted (common practice: no atom of
 #: a molecular model comes near either).
 CHARGE_BOUND_E = 100.0
@@ -142,9 +145,10 @@ def _read_atoms(path, lines, start: int, count: int, header_line: int):
 
 
 def _read_indices(path, lines, start: int, count: int, width: int, section: str, n_atoms: int,
-                  header_line: int):
+                  header_line: int, lowest: int = 1, distinct: bool = True):
     """The ``count`` entries of ``width`` 1-based atom indices from ``lines[start:]``, checked
-    (count, range, distinct atoms per entry); returns ((count, width) 0-based array, next line)."""
+    (count, range ``lowest..n_atoms``, distinct atoms per entry unless not ``distinct``); returns
+    ((count, width) 0-based array, next line)."""
     end = _section_end(lines, start)
     values: list[int] = []
     line_of: list[int] = []
@@ -157,19 +161,20 @@ def _read_indices(path, lines, start: int, count: int, width: int, section: str,
             row = [int(w) for w in words]
         except ValueError:  # say which word is wrong
             row = [parse_int(w, f"!{section} atom index", path, i + 1) for w in words]
-        bad = [v for v in row if not 1 <= v <= n_atoms]
+        bad = [v for v in row if not lowest <= v <= n_atoms]
         if bad:
-            raise StructureFileError(path, f"!{section}: atom index {bad[0]} outside 1..{n_atoms}", i + 1)
+            raise StructureFileError(path, f"!{section}: atom index {bad[0]} outside {lowest}..{n_atoms}", i + 1)
         values.extend(row)
         line_of.extend([i + 1] * len(row))
     what = SECTION_WHAT[section]
     if len(values) != count * width:
         found = f"{len(values) // width}" + (f" and {len(values) % width} stray indices"
                                               if len(values) % width else "")
+        span = f"lines {header_line}-{end}" if end > header_line else f"line {header_line}"
         raise StructureFileError(path, f"!{section}: the header says {count} {what} but the section "
-                                       f"holds {found} (lines {header_line}-{end})", header_line)
+                                       f"holds {found} ({span})", header_line)
     arr = np.asarray(values, dtype=np.intp).reshape(count, width) - 1
-    for part in ([arr] if width != 8 else [arr[:, :4], arr[:, 4:]]):
+    for part in ([arr] if width != 8 else [arr[:, :4], arr[:, 4:]]) if distinct else ():
         ordered = np.sort(part, axis=1)
         twice = ordered[:, 1:] == ordered[:, :-1]
         rows = np.flatnonzero(twice.any(axis=1))
@@ -247,7 +252,7 @@ def read_psf(path) -> PsfTopology:
         header_line = i + 1
         counts = [parse_int(w, f"!{name} header count", path, header_line, low=0) for w in words]
         i += 1
-        if name in seen and (name in INDEX_SECTIONS or name in ("NATOM", "NTITLE")):
+        if name in seen and (name in INDEX_SECTIONS or name in CHECKED_ONLY or name in ("NATOM", "NTITLE")):
             raise StructureFileError(path, f"!{name} appears twice (lines {seen[name]} and {header_line})",
                                      header_line)
         seen[name] = header_line
@@ -261,6 +266,9 @@ def read_psf(path) -> PsfTopology:
                 raise StructureFileError(path, f"!{name} before !NATOM", header_line)
             sections[name], i = _read_indices(path, lines, i, counts[0], INDEX_SECTIONS[name], name,
                                               len(atoms), header_line)
+        elif name in CHECKED_ONLY and atoms is not None:
+            _, i = _read_indices(path, lines, i, counts[0], CHECKED_ONLY[name], name, len(atoms), header_line,
+                                 lowest=0, distinct=False)
     if atoms is None:
         raise StructureFileError(path, "no !NATOM section found")
     cols = list(zip(*atoms)) if atoms else [()] * 8

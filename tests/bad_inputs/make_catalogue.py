@@ -231,6 +231,11 @@ CASES = [
      "1.0080 '... (1 more characters)",
      "A control or non-ASCII character inside a record (it would silently make a name another one).",
      "Regenerate the file."),
+    ("psf_ndon_count_raised.psf", "PSF: a donor count raised",
+     lambda: PSF + "         1 !NDON: donors\n\n", "structure",
+     "PATH:24: !NDON: the header says 1 donors but the section holds 0 (line 24)",
+     "Sections that do not enter the energy (!NDON, !NACC) are checked too: a wrong count means a "
+     "damaged file.", "Regenerate the PSF."),
     ("prm_negative_bond_k.prm", "parameters: a negative force constant",
      lambda: replace(PRM, "450.000000", "-450.000000"), "params",
      "PATH:8: BONDS Kb must be >= 0, got '-450.000000'",
