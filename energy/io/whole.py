@@ -20,6 +20,7 @@ import warnings
 import numpy as np
 
 from energy._kernels.pbc import box_matrix, perpendicular_widths
+from energy.io.validation import COORDINATE_BOUND_ANGSTROM
 from energy.model.cell import check_cell
 from energy.model.system import Frame
 
@@ -106,7 +107,16 @@ def whole_frame(system, frame: Frame) -> Frame:
     Returns
     -------
     Frame
+
+    Notes
+    -----
+    Coordinates that the geometry checks will refuse (non-finite, or beyond
+    :data:`energy.io.validation.COORDINATE_BOUND_ANGSTROM`) are left as they are, so that the
+    error names the atoms of the file, not atoms moved by the rebuilding.
     """
+    x = frame.positions
+    if not np.all(np.isfinite(x)) or (len(x) and np.abs(x).max() > COORDINATE_BOUND_ANGSTROM):
+        return frame
     x = whole_positions(system, frame.positions, frame.box)
     if x is frame.positions:
         return frame
