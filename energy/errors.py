@@ -11,8 +11,9 @@ few items and says how many more there are.
 """
 from __future__ import annotations
 
-#: Longest message an :class:`EnergyError` carries (characters).
-MESSAGE_CAP = 300
+#: Longest message an :class:`EnergyError` carries (characters): room for a long file path, a
+#: capped list of residues and the advice that fixes it.
+MESSAGE_CAP = 600
 #: Longest piece of an offending input field quoted in a message (characters).
 FIELD_CAP = 80
 

@@ -14,6 +14,8 @@ import json
 import sys
 from pathlib import Path
 
+from energy.errors import MESSAGE_CAP
+
 ROOT = Path(__file__).resolve().parents[1]
 CATALOGUE = ROOT / "tests" / "bad_inputs" / "catalogue.json"
 README = ROOT / "README.md"
@@ -29,7 +31,7 @@ def render(entries=None) -> str:
     """The section's text between the markers (a lead paragraph and one table row per entry)."""
     entries = json.loads(CATALOGUE.read_text(encoding="utf-8")) if entries is None else entries
     lines = [START, "",
-             "Every message is one line of at most 300 characters; `tessera` exits with status 2 and "
+             f"Every message is one line of at most {MESSAGE_CAP} characters; `tessera` exits with status 2 and "
              "writes nothing. Each row below is a file of `tests/bad_inputs/` (the message shown is "
              "the exact one, with the file's path as `FILE`); an unexpected error instead prints one line "
              "asking you to report it and the path of a log file holding the traceback (exit status 1).",

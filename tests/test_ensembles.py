@@ -94,8 +94,9 @@ def test_malformed_atom_record_names_file_and_line(tmp_path):
     path, line = _edited(tmp_path, "bad_atom.pdb", first_atom, broken)
     with pytest.raises(StructureFileError) as err:
         load_system(path, preparation=REPAIR)
-    assert str(err.value) == (f"{path}:{line}: ATOM record: y coordinate '1.2x5' is not a number "
-                              "(columns 39-46)")
+    # the strict coordinate parser (energy/io/coordinate_text.py) reads the record first
+    assert str(err.value) == (f"{path}:{line}: ATOM y coordinate (columns 39-46): expected a number "
+                              "(ASCII digits, sign, decimal point, exponent), got '1.2x5'")
 
 
 def test_gzipped_structure_and_trajectory(tmp_path):

@@ -10,6 +10,8 @@ import collections
 import pytest
 from fuzzing import Case, Fuzzer, describe, judge_message, judge_totals
 
+from energy.errors import MESSAGE_CAP
+
 BUDGET = 200
 SEED = 14
 
@@ -57,5 +59,5 @@ def test_the_judge_can_fail():
     assert judge_totals(_case(strict=False), {"bond": 1.5, "total": 2.5}, ref).status == "ok"
     assert judge_totals(_case(strict=False), {"bond": float("nan"), "total": 2.0}, ref).status == "non-finite"
     assert judge_message(_case(), "two\nlines").status == "multi-line message"
-    assert judge_message(_case(), "x" * 301).status == "message over cap"
+    assert judge_message(_case(), "x" * (MESSAGE_CAP + 1)).status == "message over cap"
     assert judge_message(_case(), "f.psf:3: bad").status == "error"

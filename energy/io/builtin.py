@@ -17,7 +17,7 @@ import re
 
 import numpy as np
 
-from energy.errors import StructureFileError, UnknownResidueError
+from energy.errors import MESSAGE_CAP, StructureFileError, UnknownResidueError
 from energy.io.coordinate_text import check_coordinate_text
 from energy.io.coordinates import plain_file
 from energy.model.system import Frame, MolecularSystem, ResidueTable, TermTable
@@ -80,7 +80,8 @@ def _unmatched_error(path, ff, topology, options, label, unmatched=None, gaps=()
                                 repair=options.repair, standard_names=standard,
                                 modified_parents={} if options.repair else
                                 modified_parents(read_structure_text(path)),
-                                force_field_label=label, gaps=gaps)
+                                force_field_label=label, gaps=gaps,
+                                budget=MESSAGE_CAP - len(f"{path}: "))
     return UnknownResidueError(f"{path}: {message}")
 
 

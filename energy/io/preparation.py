@@ -220,8 +220,14 @@ def _parse(path: str, record: PreparationRecord):
     n = structure.topology.getNumAtoms()
     if n == 0:
         raise StructureFileError(path, "the file holds no atoms")
-    models = np.array([structure.getPositions(asNumpy=True, frame=k).value_in_unit(unit.angstrom)
-                       for k in range(structure.getNumFrames())], dtype=np.float64)
+    frames = [structure.getPositions(asNumpy=True, frame=k).value_in_unit(unit.angstrom)
+              for k in range(structure.getNumFrames())]
+    sizes = [len(f) for f in frames]
+    if any(s != n for s in sizes):  # a damaged or truncated ensemble: its models differ
+        k = next(i for i, s in enumerate(sizes) if s != n)
+        raise StructureFileError(path, f"model {k + 1} holds {sizes[k]} atoms but the first holds {n}: "
+                                       "every model must list the same atoms")
+    models = np.array(frames, dtype=np.float64)
     record.n_models = len(models)
     return structure.topology, models, text, pdbx
 

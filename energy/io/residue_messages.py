@@ -18,6 +18,8 @@ The list of residues in a message is capped at :data:`LIST_CHARACTERS` character
 """
 from __future__ import annotations
 
+from energy.errors import MESSAGE_CAP
+
 #: Longest residue listing in one message (characters); the rest is counted as "(n more)".
 LIST_CHARACTERS = 300
 WATER_NAMES = frozenset({"HOH", "WAT", "H2O", "SOL", "TIP", "TIP3", "TIP4", "T4P", "T4E", "DOD"})
@@ -100,7 +102,8 @@ def is_four_site_water(residue) -> bool:
 
 
 def unmatched_message(unmatched, *, has_hydrogens: bool, add_hydrogens: bool, repair: bool,
-                      standard_names, modified_parents: dict, force_field_label: str, gaps=()) -> str:
+                      standard_names, modified_parents: dict, force_field_label: str, gaps=(),
+                      budget: int = MESSAGE_CAP) -> str:
     """The one message for the residues ``unmatched`` (OpenMM residues).
 
     Parameters
@@ -120,12 +123,26 @@ def unmatched_message(unmatched, *, has_hydrogens: bool, add_hydrogens: bool, re
     gaps : sequence of dict
         Chain breaks found (``after``, ``before``, ``c_n_distance``), named when one of their
         ends is unmatched.
+    budget : int
+        Longest message wanted (characters): the residue listings are shortened (with their
+        "(n more)") until the whole message, with its advice, fits.
 
     Returns
     -------
     str
         One line: how many residues match no template, and what helps for each kind.
     """
+    for limit in (LIST_CHARACTERS, 200, 150, 110, 80, 50, 30):
+        message = _unmatched_message(unmatched, has_hydrogens, add_hydrogens, repair, standard_names,
+                                     modified_parents, force_field_label, gaps, limit)
+        if len(message) <= budget:
+            break
+    return message
+
+
+def _unmatched_message(unmatched, has_hydrogens, add_hydrogens, repair, standard_names, modified_parents,
+                       force_field_label, gaps, limit) -> str:
+    grouped = lambda residues: grouped_listing(residues, limit)  # noqa: E731
     water4 = [r for r in unmatched if is_four_site_water(r)]
     modified = [r for r in unmatched if r not in water4 and r.name in modified_parents]
     incomplete = [r for r in unmatched if r not in water4 and r not in modified and r.name in standard_names]
@@ -143,23 +160,23 @@ def unmatched_message(unmatched, *, has_hydrogens: bool, add_hydrogens: bool, re
         parts.append("The structure has no hydrogen atoms: add them with --add-hydrogens "
                      "(or --repair, which also rebuilds missing atoms).")
     if water4:
-        parts.append(f"4-site water model: {grouped_listing(water4)} carry an extra massless site; "
+        parts.append(f"4-site water model: {grouped(water4)} carry an extra massless site; "
                      "the built-in force field uses 3-site TIP3P water, and --repair removes the "
                      "extra sites.")
     if modified:
         pairs = ", ".join(sorted({f"{r.name}->{modified_parents[r.name]}" for r in modified}))
-        parts.append(f"Modified residues: {grouped_listing(modified)}; --repair replaces them by "
+        parts.append(f"Modified residues: {grouped(modified)}; --repair replaces them by "
                      f"their parents ({pairs}).")
     if incomplete:
         if has_hydrogens or add_hydrogens or repair:
             fix = ("--repair rebuilds missing heavy atoms and terminal groups" if not repair else
                    "their atoms differ from the templates even after --repair; check their atom names")
-            parts.append(f"Standard residues with missing or extra atoms: {grouped_listing(incomplete)}; "
+            parts.append(f"Standard residues with missing or extra atoms: {grouped(incomplete)}; "
                          f"{fix}.")
         else:
             parts.append(f"({len(incomplete)} of them are standard residues that need the hydrogens.)")
     if other:
-        parts.append(f"No template: {grouped_listing(other)}; give their templates with "
+        parts.append(f"No template: {grouped(other)}; give their templates with "
                      "--forcefield-file FILE.xml (OpenMM force-field XML), or leave them out with "
                      "--drop-unmatched.")
     return " ".join(parts)

@@ -25,6 +25,7 @@ from energy._kernels.coincident import closest_pair_below
 from energy._kernels.neighbors import ResidueAtoms, residue_spheres
 from energy._kernels.pbc import box_matrix, minimum_image_vectors, perpendicular_widths
 from energy.errors import GeometryError, InputMismatchError
+from energy.model.cell import check_cell as plausible_cell
 
 #: Two atoms closer than this are coincident (A).  Any real contact is > 0.5 A; at 0.01 A every
 #: energy is still finite in float64 (common practice for the floor).
@@ -250,7 +251,8 @@ def check_frame(system, frame) -> None:
     where = frame.source or ""
     check_cell(frame.box, where)
     check_positions(frame.positions, system, where)
-    box = frame.box if frame.box is not None and not np.all(frame.box[:3] == 0) else None
+    # the minimum image only in a cell the engine would use (not the PDB's 1 A placeholder)
+    box = plausible_cell(frame.box, system.n_atoms).box
     check_residue_spans(frame.positions, system, box)
     check_coincident_atoms(frame.positions, system, box)
 

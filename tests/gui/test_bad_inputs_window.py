@@ -50,7 +50,7 @@ def test_each_damaged_input_gives_one_dialog_and_keeps_the_previous_system(qtbot
 @pytest.mark.parametrize("fill", [b"\x00", b"1 "])
 def test_a_megabyte_line_gives_one_short_dialog(qtbot, opened, error_boxes, tmp_path, fill):
     """A 1 MB line inside the PSF's atom records: one dialog whose text is capped (the reader
-    quotes at most 80 characters of a field; the message is at most 300)."""
+    quotes at most 80 characters of a field; the message is at most MESSAGE_CAP)."""
     from energy.errors import MESSAGE_CAP
     psf = (ROOT / "samples" / "peptide" / "probe_peptide.psf").read_bytes().split(b"\n")
     psf.insert(9, fill * (1 << 20))
