@@ -25,7 +25,9 @@ class PairTableModel(ArrayTableModel):
             self.set_columns([], 0)
             return
         rp = ds.pairs
-        big = np.max(np.abs(np.stack([rp.values[t] for t in TERMS])), axis=0) if len(rp) else np.zeros(0)
+        big = np.zeros(len(rp))          # largest |term| per pair, without stacking every column
+        for t in TERMS:
+            np.maximum(big, np.abs(rp.values[t]), out=big)
         rows = np.flatnonzero(big >= NEGLIGIBLE_KCAL)
         self._pair_rows = rows
         pi, pj = rp.pair_i[rows], rp.pair_j[rows]
@@ -34,7 +36,9 @@ class PairTableModel(ArrayTableModel):
         lower = np.array([str(s).lower() for s in ds.labels], dtype=str)   # per residue, then indexed
         self._lower_i, self._lower_j = lower[pi], lower[pj]
         dist = rp.min_heavy_distance[rows]
-        col = lambda q: rp.column(q)[rows]  # noqa: E731
+        vals = {t: rp.values[t][rows] for t in TERMS}   # the listed rows only, then the sums
+        sums = {"bonded": sum(vals[t] for t in BONDED_TERMS), "total": sum(vals.values())}
+        col = lambda q: sums[q] if q in sums else vals[q]  # noqa: E731
         if ds.is_difference:
             c = ds.comparison
             cols = [Column("Residue 1", self._lab_i, sort_key=pi), Column("Residue 2", self._lab_j, sort_key=pj),
