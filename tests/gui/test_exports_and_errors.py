@@ -154,6 +154,11 @@ def water_box():
     return LoadSpec(str(path)), load_system(str(path))
 
 
+@pytest.mark.xfail(strict=False, reason=(
+    "KNOWN REGRESSION (2026-12-02, open): since the deposited-structure preparation and the input "
+    "checks run in the loading worker, one step holds the GIL for 0.4-1.1 s (clean-clone CI runs: "
+    "worst gaps 401 and 1,117 ms against 400). Still run and reported; to be fixed, then this "
+    "marker removed."))
 def test_event_loop_stays_responsive_while_computing(qtbot, window, water_box):
     """A 10 ms QTimer keeps ticking while an 8,867-atom system is opened in the worker: read,
     parameterised with the built-in force field and computed with an 18 A cutoff (well over
@@ -182,12 +187,7 @@ def test_event_loop_stays_responsive_while_computing(qtbot, window, water_box):
     gaps = np.array(gaps, float)
     assert np.median(gaps) < 30, f"median timer gap {np.median(gaps)} ms"
     assert np.percentile(gaps, 95) < 100, f"95th percentile gap {np.percentile(gaps, 95)} ms"
-    # The worst single gap is one call that holds the GIL in the worker (OpenMM's parameterisation
-    # of the 8,867-atom file); a clean-clone CI run on 2026-12-02 measured 401 ms with the
-    # deposited-structure checks and preparation added to the reading.  The limit is the
-    # project's own choice (no outside source): 600 ms, while the median and p95 limits above
-    # keep the loop responsive throughout.
-    assert np.max(gaps) < 600, f"worst timer gap {np.max(gaps)} ms"
+    assert np.max(gaps) < 400, f"worst timer gap {np.max(gaps)} ms"
     print(f"timer gaps during compute: median {np.median(gaps):.1f} ms, "
           f"p95 {np.percentile(gaps, 95):.1f} ms, max {np.max(gaps):.1f} ms")
     assert compute_started - t0 < 0.05   # starting the job does not block either
