@@ -12,6 +12,7 @@ from dataclasses import dataclass
 
 from PySide6.QtCore import QObject, QThread, Signal
 
+from app.gui.collector import collections_paused
 from app.state.document import Snapshot
 from energy.analysis.compare import compare_results
 from energy.decomposition.pipeline import compute_steps
@@ -93,8 +94,9 @@ class EnergyWorker(QObject):
                 if loaded is None:
                     self.phase.emit(f"Reading {spec.short_name()}")
                     self.progress.emit(0, 0)
-                    loaded = load_system(spec.structure, spec.coords, spec.params, frame=spec.frame,
-                                         preparation=None if spec.params else spec.preparation())
+                    with collections_paused():   # see app/gui/collector.py: no full-heap pauses
+                        loaded = load_system(spec.structure, spec.coords, spec.params, frame=spec.frame,
+                                             preparation=None if spec.params else spec.preparation())
                 self._check()
                 self.phase.emit(f"Computing {spec.short_name()}")
                 steps = compute_steps(loaded.system, loaded.frame, self._settings)

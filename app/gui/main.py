@@ -8,6 +8,7 @@ from PySide6.QtGui import QIcon, QPixmap
 from PySide6.QtWidgets import QApplication
 
 import resources
+from app.gui.collector import freeze_long_lived
 from app.gui.dialogs.errors import install_excepthook
 from app.gui.main_window import MainWindow
 from app.gui.settings import APPLICATION, ORGANIZATION
@@ -32,6 +33,7 @@ def run_app(files) -> int:
     window = MainWindow()
     install_excepthook(lambda: window)
     window.show()
+    freeze_long_lived()   # modules and widgets live as long as the window: keep them out of collections
     if files:
         window.open_files(files)
     else:
