@@ -8,6 +8,7 @@ import os
 import numpy as np
 
 from app import figures
+from app.state.map_raster import REDUCTION, raster
 from energy.analysis.ordering import ORDERS
 from energy.output import report
 from energy.output.comparison import difference_csv
@@ -76,7 +77,13 @@ def export(window, what: str, path: str) -> None:
     unit = window.unit
     order_note = f"order: {ORDERS[mp.order_mode].lower()}"
     if what == "map":
-        fig = figures.map_figure(mp.matrix, ds.labels[mp.order], ds.chains[mp.order], _title(window),
+        matrix, labels, chains = mp.matrix, ds.labels[mp.order], ds.chains[mp.order]
+        if mp.large:   # no dense matrix: the whole map rastered, each pixel labelled by its first row
+            r = raster(mp.position[ds.pairs.pair_i], mp.position[ds.pairs.pair_j],
+                       ds.pairs.column(mp.quantity) * mp.factor, ds.n)
+            matrix, labels, chains = r.image, labels[::r.bin_rows], chains[::r.bin_rows]
+            order_note += f"; {REDUCTION} of {r.bin_rows} x {r.bin_cols} residues"
+        fig = figures.map_figure(matrix, labels, chains, _title(window),
                                  unit, mp.quantity, limit=mp.level, difference=ds.is_difference,
                                  order_note=order_note)
         figures.save_figure(fig, path)

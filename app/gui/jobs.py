@@ -50,6 +50,8 @@ class JobResult:
     snapshots: list
     comparison: object = None
     pair: tuple | None = None
+    #: Status-bar lines from ``settings_for`` (settings chosen to fit an input), in job order.
+    notes: tuple = ()
 
 
 class EnergyWorker(QObject):
@@ -66,15 +68,18 @@ class EnergyWorker(QObject):
     failed = Signal(str, str)         # message, details
     cancelled = Signal()
 
-    def __init__(self, jobs, settings, compare_with=None):
+    def __init__(self, jobs, settings, compare_with=None, settings_for=None):
         """``compare_with``: a :class:`Snapshot` to compare the first computed snapshot with
         (first = ``compare_with``, second = the new one); with two jobs and ``compare_with``
         None, the two new snapshots are compared.  The comparison is attached to the result
-        (:class:`JobResult`), so it never runs on the GUI thread."""
+        (:class:`JobResult`), so it never runs on the GUI thread.  ``settings_for(loaded,
+        settings)``, when given, returns the ``(settings, note)`` to compute a loaded system with
+        (app/state/defaults.py); it runs in this worker's thread."""
         super().__init__()
         self._jobs = list(jobs)
         self._settings = settings
         self._compare_with = compare_with
+        self._settings_for = settings_for
         self._cancel = threading.Event()
         self.elapsed = 0.0
 
@@ -88,7 +93,7 @@ class EnergyWorker(QObject):
     def run(self) -> None:
         t0 = time.perf_counter()
         try:
-            out = []
+            out, notes = [], []
             for spec, loaded in self._jobs:
                 self._check()
                 if loaded is None:
@@ -98,8 +103,13 @@ class EnergyWorker(QObject):
                         loaded = load_system(spec.structure, spec.coords, spec.params, frame=spec.frame,
                                              preparation=None if spec.params else spec.preparation())
                 self._check()
+                settings = self._settings
+                if self._settings_for is not None:
+                    settings, note = self._settings_for(loaded, settings)
+                    if note:
+                        notes.append(note)
                 self.phase.emit(f"Computing {spec.short_name()}")
-                steps = compute_steps(loaded.system, loaded.frame, self._settings)
+                steps = compute_steps(loaded.system, loaded.frame, settings)
                 while True:
                     self._check()
                     try:
@@ -117,7 +127,7 @@ class EnergyWorker(QObject):
                 self.phase.emit("Comparing")
                 comparison = compare_results(pair[0].system, pair[0].result, pair[1].system, pair[1].result)
             self.elapsed = time.perf_counter() - t0
-            self.finished.emit(JobResult(out, comparison, pair))
+            self.finished.emit(JobResult(out, comparison, pair, tuple(notes)))
         except Cancelled:
             self.cancelled.emit()
         except Exception as exc:  # expected failures: one line; unexpected: plus the traceback
@@ -168,9 +178,10 @@ class JobQueue(QObject):
     failed = Signal(str, str, str)          # kind, message, details
     busyChanged = Signal(bool)
 
-    def __init__(self, settings, recompute_jobs, parent=None):
+    def __init__(self, settings, recompute_jobs, parent=None, settings_for_input=None):
         super().__init__(parent)
         self._settings = settings
+        self._settings_for_input = settings_for_input   # for "open" jobs (EnergyWorker)
         self._recompute_jobs = recompute_jobs
         self._job = None
         self._kind = None
@@ -192,7 +203,8 @@ class JobQueue(QObject):
             self._pending = (jobs, kind, compare_with)
             self._job.cancel()
             return
-        worker = EnergyWorker(jobs, self._settings(), compare_with)
+        worker = EnergyWorker(jobs, self._settings(), compare_with,
+                              self._settings_for_input if kind == "open" else None)
         handle = WorkerHandle(worker, self)
         worker.progress.connect(self.progress)
         worker.phase.connect(self.phase)

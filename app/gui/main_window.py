@@ -28,10 +28,12 @@ from app.gui.views.roster import ResidueRosterView, describe_interaction
 from app.gui.views.settings_panel import ComputeSettingsPanel
 from app.gui.views.term_bars import TermBarsView
 from app.gui.views.time_series import TimeSeriesView
-from app.state.document import Dataset, LoadSpec
+from app.state.defaults import settings_for_input
+from app.state.document import SOLVENT_CHAIN, Dataset, LoadSpec
 from energy import results
 from energy.analysis.compare import compare_results
 from energy.decomposition.atom_pairs import selection_interaction
+from energy.model.settings import EnergySettings
 from energy.terms.registry import map_quantities
 from energy.units import ENERGY_UNITS
 
@@ -67,8 +69,14 @@ class MainWindow(QMainWindow):
         self.last_compute_s = None
         self.comparison = None    # compare mode: energy.analysis.compare.Comparison of the two
         self.stored = None        # a result file on screen (energy.output.result_file.StoredResult)
+        self.show_blocks = True   # water and ions as one map row each ("Water (4,611)")
         self._comparison_pair = None
-        self.jobs = JobQueue(lambda: self.energy_settings, self._recompute_jobs, self)
+        #: False until the user sets compute settings (now or in an earlier session): until then
+        #: each opened structure gets settings that fit it (app/state/defaults.py).
+        self.settings_chosen = self.app_settings.has_energy_settings()
+        self._settings_fitted = False   # energy_settings were fitted to the last input
+        self.jobs = JobQueue(lambda: self.energy_settings, self._recompute_jobs, self,
+                             settings_for_input=self._settings_for_input)
         self.jobs.progress.connect(self._on_progress)
         self.jobs.finished.connect(self._on_finished)
         self.jobs.failed.connect(self._on_failed)
@@ -78,6 +86,7 @@ class MainWindow(QMainWindow):
         self.setCentralWidget(self.map)
         self.ledger = PairLedgerView(self.selection)
         self.atoms = AtomContributionsView(self.selection)
+        self.atoms.memberActivated.connect(self.show_solvent_member)
         self.profile = DistanceProfileView(self.selection)
         self.bars = TermBarsView()
         self.roster = ResidueRosterView(self.selection)
@@ -186,6 +195,11 @@ class MainWindow(QMainWindow):
             v.addAction(self._action(f"Show {text}", lambda _=False, q=q: self.map.set_quantity(q), f"Ctrl+{k}"))
         v.addSeparator()
         v.addAction(self._action("Fit map to window", self.fit_map, "Ctrl+0"))
+        self.act_blocks = self._action("Solvent as &blocks", self.set_show_blocks, "Ctrl+B",
+                                       "Water and ions as one row each; off: every water and ion its own row")
+        self.act_blocks.setCheckable(True)
+        self.act_blocks.setChecked(self.show_blocks)
+        v.addAction(self.act_blocks)
         v.addSeparator()
         for dock in self.docks.values():
             v.addAction(dock.toggleViewAction())
@@ -356,6 +370,13 @@ class MainWindow(QMainWindow):
             self.comparison, self._comparison_pair = job.comparison, job.pair
         if kind == "open":
             self.snapshot, self.second = snaps[0], None
+            used = snaps[0].result.settings
+            if not self.settings_chosen and used != self.energy_settings:
+                self.energy_settings = used          # fitted to this input; not stored as a choice
+                self._settings_fitted = bool(job.notes)
+                self.settings_panel.set_settings(used)
+            for note in job.notes:
+                self.statusBar().showMessage(note, 30000)
             self.app_settings.add_recent(snaps[0].spec.as_dict())
             self._fill_recent()
             self.selection.set_pair(None)
@@ -415,7 +436,15 @@ class MainWindow(QMainWindow):
         self.open_spec(LoadSpec(role["structure"], role.get("coordinates"), params,
                                 frame=int(stored.attrs.get("frame", 0))))
 
+    def _settings_for_input(self, loaded, settings):
+        """(settings, note) to compute a newly opened system with; runs in the worker thread."""
+        if self.settings_chosen:
+            return settings, ""
+        base = EnergySettings() if self._settings_fitted else settings   # not the last input's fit
+        return settings_for_input(loaded.system.n_atoms, loaded.frame.box, base)
+
     def set_energy_settings(self, settings) -> None:
+        self.settings_chosen = True
         if settings == self.energy_settings:
             return
         self.energy_settings = settings
@@ -427,7 +456,7 @@ class MainWindow(QMainWindow):
         self.unit = unit
         self.app_settings.unit = unit
         factor = ENERGY_UNITS[unit]
-        for view in (self.map, self.profile, self.bars, self.ledger.model, self.atoms.model, self.roster.model,
+        for view in (self.map, self.profile, self.bars, self.ledger.model, self.atoms, self.roster.model,
                      self.clash_panel, self.model_panel, self.time_series):
             view.set_unit(factor, unit)
         self._update_groups_label()
@@ -438,10 +467,12 @@ class MainWindow(QMainWindow):
         if self.second is not None:
             ds = Dataset.from_comparison(self._current_comparison(), snap, self.second)
         else:
-            ds = self.trajectory.mean_dataset(snap) or Dataset.from_snapshot(snap)
+            ds = self.trajectory.mean_dataset(snap) or Dataset.from_snapshot(snap, blocks=self.show_blocks)
         self.stored = None
         s = snap.system
-        size = f"{s.n_atoms:,} atoms, {s.n_residues:,} residues, {len(set(ds.chains))} chain(s)"
+        size = f"{s.n_atoms:,} atoms, {s.n_residues:,} residues, {len(set(ds.chains) - {SOLVENT_CHAIN})} chain(s)"
+        if ds.blocks is not None:
+            size += f" | solvent as blocks: {', '.join(ds.labels[ds.blocks.n_solute:])} (View > Solvent as blocks)"
         if ds.is_difference:
             c = ds.comparison
             size += (f" | compare: {len(c.match)} matched, {len(c.mutated_labels)} mutated, "
@@ -467,6 +498,7 @@ class MainWindow(QMainWindow):
         keep_atoms = self.selection.atom_pair
         self.selection.set_pair(None)
         self.dataset = ds
+        self.selection.set_row_of_residue(ds.row_of_residue if ds.blocks is not None else None)
         self.map.set_dataset(ds, keep_view=keep_view)
         self.ledger.set_dataset(ds, keep_sort=keep_view)
         self.roster.set_dataset(ds)
@@ -476,7 +508,7 @@ class MainWindow(QMainWindow):
         self.time_label.setText(f"last computation {self.last_compute_s:.2f} s"
                                 if self.last_compute_s is not None else "")
         self.setWindowTitle(f"Tessera — {ds.title}")
-        chains = sorted(set(ds.chains))
+        chains = sorted(set(ds.chains) - {SOLVENT_CHAIN})
         if len(chains) >= 2 and not self.roster.group_a.text() and not self.roster.group_b.text():
             self.roster.set_groups_text(f"segid {chains[0]}", f"segid {chains[1]}")
         if keep is not None and max(keep) < ds.n:
@@ -524,7 +556,7 @@ class MainWindow(QMainWindow):
         if ds.is_difference:
             m = ds.comparison.match
             return self.second, (int(m.second[pair[0]]), int(m.second[pair[1]]))
-        return self.snapshot, pair
+        return self.snapshot, (ds.residue_of_row(pair[0]), ds.residue_of_row(pair[1]))
 
     def _on_pair(self, pair) -> None:
         pair = pair or None
@@ -540,6 +572,10 @@ class MainWindow(QMainWindow):
             self.profile.show_pair(None, None, None)
             self._show_pair_bars(ds, pair)
             return
+        contacts = ds.solvent_contacts(pair)
+        if contacts is not None or any(ds.is_block(p) for p in pair):
+            self._show_block_pair(ds, pair, contacts)
+            return
         snap, (i, j) = self._pair_snapshot(pair)
         contrib = pair_contributions(snap, i, j)
         lab = snap.system.residues.label
@@ -553,6 +589,46 @@ class MainWindow(QMainWindow):
         self.atoms.show_contributions(snap.system, contrib, caption)
         self.profile.show_pair(snap.system, snap.result.settings, contrib)
         self._show_pair_bars(ds, pair)
+
+    def _show_block_pair(self, ds, pair, contacts) -> None:
+        """A solute residue with a solvent block: the block's members it interacts with (double
+        click one for its atom pairs); a block with itself or another block: its sums only."""
+        self.profile.show_pair(None, None, None)
+        self._show_pair_bars(ds, pair)
+        if contacts is None:
+            a, b = (ds.labels[p] for p in pair)
+            what = f"within {a}" if pair[0] == pair[1] else f"{a} – {b}"
+            self.atoms.show_contributions(None, None, f"<b>{what}</b>: solvent-solvent energy, summed over the "
+                                          "block (the bars). Turn off View > Solvent as blocks to list "
+                                          "every water and ion.")
+            return
+        system = ds.snapshot.system
+        block = next(ds.labels[p] for p in pair if ds.is_block(p))
+        self.atoms.show_solvent_contacts(system, contacts,
+                                         f"<b>{system.residues.label(contacts.residue)} – {block}</b>: "
+                                         f"{len(contacts):,} of its residues interact, strongest first. "
+                                         "Double-click one for its atom pairs.")
+
+    def show_solvent_member(self, residue: int, member: int) -> None:
+        """Atom pairs of a solute residue with one water or ion of a block (from the contacts
+        list; the map keeps the block selected)."""
+        snap = self.snapshot
+        if snap is None:
+            return
+        contrib = pair_contributions(snap, residue, member)
+        lab = snap.system.residues.label
+        self.atoms.show_contributions(snap.system, contrib,
+                                      f"<b>{lab(residue)} – {lab(member)}</b> (one residue of the block): "
+                                      f"{contrib.n_nonbonded} atom pairs, {len(contrib.bonded)} bonded terms",
+                                      from_solvent_list=True)
+        self.profile.show_pair(snap.system, snap.result.settings, contrib)
+
+    def set_show_blocks(self, on: bool) -> None:
+        """Show water and ions as blocks (``on``) or every solvent residue as its own row."""
+        self.show_blocks = bool(on)
+        self.act_blocks.setChecked(self.show_blocks)
+        if self.snapshot is not None and self.stored is None:
+            self._show(keep_view=False)
 
     def _show_pair_bars(self, ds, pair) -> None:
         k = ds.pairs.lookup(*pair)

@@ -16,7 +16,8 @@ def _norm_pair(pair):
 
 
 class SelectionModel(QObject):
-    """Residue pair ``(i, j)`` with i <= j (residue indices of the current dataset), atom pair
+    """Residue pair ``(i, j)`` with i <= j (row indices of the current dataset: residues, or
+    solvent blocks after the solute), atom pair
     ``(a, b)`` (atom indices) and the two group selection strings."""
 
     # Signals carry () for "nothing selected", never None: PySide6 6.12 on Python 3.11 drops a
@@ -31,6 +32,7 @@ class SelectionModel(QObject):
         self._pair = None
         self._atom_pair = None
         self._groups = ("", "")
+        self._row_of_residue = None
 
     @property
     def pair(self):
@@ -53,6 +55,18 @@ class SelectionModel(QObject):
             self._atom_pair = None
             self.atomPairChanged.emit(())
         self.pairChanged.emit(pair or ())
+
+    def set_row_of_residue(self, row_of_residue) -> None:
+        """How system residues map to rows of the shown dataset (``Dataset.row_of_residue``;
+        None when rows are residues).  Solvent blocks make them differ."""
+        self._row_of_residue = row_of_residue
+
+    def set_residue_pair(self, pair) -> None:
+        """Select the rows showing system residues ``pair`` (clash reports and other panels
+        that speak in residues of the structure)."""
+        if pair is not None and len(pair) and self._row_of_residue is not None:
+            pair = (self._row_of_residue(int(pair[0])), self._row_of_residue(int(pair[1])))
+        self.set_pair(pair)
 
     def set_atom_pair(self, pair) -> None:
         pair = None if pair is None or len(pair) == 0 else (int(pair[0]), int(pair[1]))

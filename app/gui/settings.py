@@ -98,5 +98,9 @@ class AppSettings:
             log.warning("stored compute settings are invalid (%s); using defaults", exc)
             return EnergySettings()
 
+    def has_energy_settings(self) -> bool:
+        """True once compute settings were stored (the user chose them in some session)."""
+        return bool(self._get("compute/settings", "", str))
+
     def set_energy_settings(self, settings: EnergySettings) -> None:
         self.store.setValue("compute/settings", json.dumps(settings.as_dict()))

@@ -14,6 +14,9 @@ import numpy as np
 
 from energy.terms.registry import TERMS
 
+#: The chain shown for solvent blocks (not a chain identifier of the structure).
+SOLVENT_CHAIN = "solvent"
+
 
 @dataclass(frozen=True)
 class LoadSpec:
@@ -114,6 +117,12 @@ class Dataset:
     #: Set when the dataset comes from a result file (energy.output.result_file.StoredResult):
     #: map, ledger and term bars need nothing else; atom drill-down needs the structure.
     stored: object = None
+    #: Set when solvent is shown as blocks (energy.decomposition.blocks.BlockedPairs): the rows
+    #: are the solute residues, then one row per block ("Water (4,611)", "Ions (19)").  None
+    #: when every row is one residue of the system.
+    blocks: object = None
+    #: With blocks: the full residue-pair table the blocks were made from (for expanding one).
+    full_pairs: object = None
 
     @property
     def n(self) -> int:
@@ -123,15 +132,55 @@ class Dataset:
     def is_difference(self) -> bool:
         return self.comparison is not None
 
+    def is_block(self, row: int) -> bool:
+        """True if display row ``row`` is a solvent block."""
+        return self.blocks is not None and row >= self.blocks.n_solute
+
+    def residue_of_row(self, row: int) -> int | None:
+        """The system residue a display row stands for (None for a block)."""
+        if self.blocks is None:
+            return int(row)
+        return None if self.is_block(row) else int(self.blocks.members[row][0])
+
+    def row_of_residue(self, residue: int) -> int:
+        """The display row showing system residue ``residue`` (its block's row for solvent)."""
+        return int(residue) if self.blocks is None else int(self.blocks.residue_to_row[residue])
+
+    def solvent_contacts(self, pair):
+        """For a pair of a solute row and a block row: the block's members that interact with
+        that residue (energy.decomposition.blocks.SolventContacts); None for any other pair."""
+        if self.blocks is None:
+            return None
+        a, b = sorted(pair, key=self.is_block)
+        if self.is_block(a) or not self.is_block(b):
+            return None
+        from energy.decomposition.blocks import solvent_contacts
+        return solvent_contacts(self.full_pairs, self.residue_of_row(a), self.blocks.members[b])
+
     @classmethod
-    def from_snapshot(cls, snap: Snapshot) -> Dataset:
+    def from_snapshot(cls, snap: Snapshot, blocks: bool = True) -> Dataset:
+        """The dataset of one computed structure; with solvent and ``blocks``, waters and ions
+        are one row each (energy.decomposition.blocks)."""
+        title = f"{snap.spec.short_name()}, frame {snap.frame.index}"
+        return cls.over_residue_pairs(snap, snap.result.residue_pairs, title, dict(snap.result.totals), blocks)
+
+    @classmethod
+    def over_residue_pairs(cls, snap: Snapshot, pairs, title: str, totals: dict, blocks: bool = True) -> Dataset:
+        """The dataset of a residue-pair table over the residues of ``snap``'s system (its own
+        result, or the mean over a trajectory's frames), solvent blocked when ``blocks``."""
+        from energy.decomposition.blocks import block_residue_pairs, has_solvent
         r = snap.system.residues
         labels = np.array([r.label(i) for i in range(len(r))], dtype=object)
         chains = np.array([str(c).strip() for c in r.chain], dtype=object)
-        frame = snap.frame.index
-        title = f"{snap.spec.short_name()}, frame {frame}"
-        return cls(labels, chains, snap.result.residue_pairs, title, snapshot=snap,
-                   totals=dict(snap.result.totals))
+        classes = snap.system.residue_classes
+        if blocks and has_solvent(classes):
+            blocked = block_residue_pairs(pairs, classes, labels)
+            solute = np.array([m[0] for m in blocked.members[:blocked.n_solute]], np.intp)
+            block_chains = np.array([SOLVENT_CHAIN] * blocked.n_blocks, dtype=object)
+            return cls(np.asarray(blocked.labels, dtype=object),
+                       np.concatenate([chains[solute], block_chains]), blocked.pairs, title,
+                       snapshot=snap, totals=totals, blocks=blocked, full_pairs=pairs)
+        return cls(labels, chains, pairs, title, snapshot=snap, totals=totals)
 
     @classmethod
     def from_comparison(cls, comparison, first: Snapshot, second: Snapshot) -> Dataset:

@@ -107,3 +107,55 @@ def block_residue_pairs(rp: ResiduePairEnergies, classes: np.ndarray, labels) ->
     member_array = np.empty(m, dtype=object)
     member_array[:] = members
     return BlockedPairs(blocked, np.array(out_labels, dtype=object), member_array, row, m - len(solute))
+
+
+@dataclass(frozen=True)
+class SolventContacts:
+    """The residues of one solvent block that interact with one solute residue.
+
+    ``residues`` (k,) intp: residue indices of the block's members with a listed pair with the
+    solute residue, most favourable total first; ``values`` {term: (k,) float64} kcal/mol;
+    ``total`` (k,) float64 kcal/mol; ``min_heavy_distance`` (k,) float64 A.
+    """
+
+    residue: int
+    residues: np.ndarray
+    values: dict
+    total: np.ndarray
+    min_heavy_distance: np.ndarray
+
+    def __len__(self) -> int:
+        return len(self.residues)
+
+
+def solvent_contacts(rp: ResiduePairEnergies, residue: int, members: np.ndarray) -> SolventContacts:
+    """Expand a block for one solute residue: every block member it has a listed pair with.
+
+    Parameters
+    ----------
+    rp : ResiduePairEnergies
+        The full (not blocked) table over the system's residues, kcal/mol.
+    residue : int
+        Residue index of the solute residue (0-based).
+    members : (m,) int array
+        Residue indices the block stands for (``BlockedPairs.members[row]``).
+
+    Returns
+    -------
+    SolventContacts
+        One entry per member with a listed pair, sorted by total energy (most favourable
+        first; ties by distance).  Their values sum to the blocked entry of ``residue`` with
+        the block.
+    """
+    in_block = np.zeros(rp.n_residues, bool)
+    in_block[np.asarray(members, np.intp)] = True
+    first = (rp.pair_i == residue) & in_block[rp.pair_j]
+    second = (rp.pair_j == residue) & in_block[rp.pair_i]
+    rows = np.flatnonzero((first | second) & (rp.pair_i != rp.pair_j))
+    other = np.where(rp.pair_i[rows] == residue, rp.pair_j[rows], rp.pair_i[rows])
+    total = rp.total[rows]
+    dist = rp.min_heavy_distance[rows]
+    order = np.lexsort((dist, total))
+    rows, other = rows[order], other[order]
+    return SolventContacts(int(residue), other.astype(np.intp), {t: rp.values[t][rows] for t in TERMS},
+                           total[order], dist[order])

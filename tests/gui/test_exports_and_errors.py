@@ -183,7 +183,7 @@ def test_event_loop_stays_responsive_while_computing(qtbot, window, water_box):
         window.jobs.submit([(water_box[0], None)], "open")
         compute_started = time.perf_counter()
     timer.stop()
-    assert window.dataset.n == 2798
+    assert window.snapshot.system.n_residues == 2798
     assert time.perf_counter() - t0 > 0.5 and len(gaps) > 20
     gaps = np.array(gaps, float)
     assert np.median(gaps) < 30, f"median timer gap {np.median(gaps)} ms"

@@ -212,11 +212,10 @@ class TrajectoryController(QObject):
         st = self.state
         if st is None or st.mean is None or self.mode != "mean":
             return None
-        base = Dataset.from_snapshot(snap)
         totals = {t: float(v.mean()) for t, v in st.result.per_frame_totals().items() if t in COLUMNS}
         n = len(st.result.records)
-        return Dataset(base.labels, base.chains, st.mean,
-                       f"{snap.spec.short_name()}, mean over {n} frames", snapshot=snap, totals=totals)
+        return Dataset.over_residue_pairs(snap, st.mean, f"{snap.spec.short_name()}, mean over {n} frames",
+                                          totals, blocks=self.window.show_blocks)
 
     # -- time series -------------------------------------------------------------------------
     def update_series(self) -> None:
@@ -231,6 +230,14 @@ class TrajectoryController(QObject):
                                                "over the frames.")
             self.seriesChanged.emit()
             return
+        ds = self.window.dataset
+        residues = tuple(ds.residue_of_row(p) for p in pair) if ds is not None else pair
+        if None in residues:
+            self.view.set_series(None, message="A solvent block has no single time series: select a "
+                                               "pair of residues (or one of a residue's waters).")
+            self.seriesChanged.emit()
+            return
+        pair = residues
         lab = self.window.snapshot.system.residues.label
         title = f"{lab(pair[0])} – {lab(pair[1])}"
         if not st.store.overflow:
@@ -254,7 +261,10 @@ class TrajectoryController(QObject):
 
     def _on_pair_series(self, result) -> None:
         pair = result.request.pairs[0]
-        if pair != self.window.selection.pair or self.state is None \
+        ds, selected = self.window.dataset, self.window.selection.pair
+        if ds is not None and selected is not None:
+            selected = tuple(ds.residue_of_row(p) for p in selected)
+        if pair != selected or self.state is None \
                 or result.request.settings != self.state.request.settings:
             return
         lab = self.window.snapshot.system.residues.label

@@ -158,7 +158,7 @@ class ClashCheckView(QWidget):
         """Select clash ``rank_index`` (0-based row of the ranked report) everywhere."""
         rep = self.check.report
         a, b = (int(v) for v in rep.pairs[rank_index])
-        self.selection.set_pair(tuple(self._res[rank_index]))
+        self.selection.set_residue_pair(tuple(self._res[rank_index]))
         self.selection.set_atom_pair((a, b))
 
     def _on_row(self, current, _previous) -> None:

@@ -97,7 +97,7 @@ class ModelComparisonView(QWidget):
         if not current.isValid():
             return
         k = self.severity_model.record(current.row())
-        self.selection.set_pair(tuple(int(v) for v in self.clash_pairs[k]))
+        self.selection.set_residue_pair(tuple(int(v) for v in self.clash_pairs[k]))
         self.selection.set_atom_pair(tuple(int(v) for v in self.clash_atoms[k]))
 
     # -- electrostatics -------------------------------------------------------------------------
@@ -128,4 +128,4 @@ class ModelComparisonView(QWidget):
         if not current.isValid():
             return
         k = self.elec_model.record(current.row())
-        self.selection.set_pair(tuple(int(v) for v in self.elec_pairs[k]))
+        self.selection.set_residue_pair(tuple(int(v) for v in self.elec_pairs[k]))

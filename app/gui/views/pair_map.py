@@ -5,6 +5,11 @@ a percentile of |E| so one clash does not wash everything out.  Hover shows the 
 selects it, the arrow keys move the selection, the wheel zooms.  With the clustered axis order
 the tree is drawn above the matrix, in the map's own coordinates (so it pans and zooms with it):
 leaves at y = -0.5, the root :data:`TREE_HEIGHT` x n above.
+
+Above :data:`app.state.map_raster.DENSE_LIMIT` rows there is no dense matrix: the image is
+rastered from the sparse pairs at screen resolution (largest |E| per pixel, said in the colour
+bar's label) and rastered again, finer, when the view is zoomed or panned.  The clustered order
+needs the dense profiles and is not offered there (the title says so).
 """
 from __future__ import annotations
 
@@ -12,14 +17,15 @@ import math
 
 import numpy as np
 import pyqtgraph as pg
-from PySide6.QtCore import QPointF, QRectF, Qt, Signal
+from PySide6.QtCore import QPointF, QRectF, Qt, QTimer, Signal
 from PySide6.QtGui import QColor, QCursor, QFont, QFontMetrics
 from PySide6.QtWidgets import QComboBox, QLabel, QToolTip, QVBoxLayout, QWidget
 
 import resources
 from app.gui.models.array_table import format_energy
 from app.gui.views.flow_layout import FlowLayout, compact_combo
-from energy.analysis.ordering import ORDERS, axis_order_and_tree, dendrogram_segments
+from app.state.map_raster import DENSE_LIMIT, REDUCTION, raster
+from energy.analysis.ordering import ORDERS, axis_order, axis_order_and_tree, dendrogram_segments
 from energy.terms.registry import long_label, map_quantities
 
 CLIPS = (100.0, 99.9, 99.5, 99.0, 98.0, 95.0, 90.0)
@@ -118,7 +124,10 @@ class PairMapView(QWidget):
         self.factor, self.unit = 1.0, "kcal/mol"
         self.order = np.zeros(0, np.intp)
         self.position = np.zeros(0, np.intp)      # residue -> display position
-        self.matrix = np.zeros((0, 0))             # displayed (ordered, unit-scaled) matrix
+        self.matrix = np.zeros((0, 0))             # displayed (ordered, unit-scaled) matrix, or the raster
+        self.large = False                         # above DENSE_LIMIT rows: rastered from the sparse pairs
+        self._column = np.zeros(0)                 # the shown quantity per listed pair, display unit
+        self.order_note = ""
         self.level = 1.0
         self._cursor = None                        # (row, col) display positions
         self._dense_cache = {}
@@ -203,6 +212,15 @@ class PairMapView(QWidget):
             lambda: self.set_order(self.order_box.currentData()))
         self.clip_box.currentIndexChanged.connect(lambda: self.set_clip(self.clip_box.currentData()))
         selection.pairChanged.connect(self._on_selection)
+        self._raster_timer = QTimer(self)
+        self._raster_timer.setSingleShot(True)
+        self._raster_timer.setInterval(60)
+        self._raster_timer.timeout.connect(self._redraw)
+        self.plot.vb.sigRangeChanged.connect(self._on_range)
+
+    def _on_range(self, *_args) -> None:
+        if self.large:
+            self._raster_timer.start()   # zoom or pan: raster the new window once it settles
 
     # -- inputs ---------------------------------------------------------------------------
     def set_dataset(self, ds, keep_view: bool = False) -> None:
@@ -218,8 +236,12 @@ class PairMapView(QWidget):
     def set_clashes(self, residue_pairs) -> None:
         """Mark residue pairs with clashes: items with ``res_i``, ``res_j``, ``count`` and
         ``worst_overlap`` (:class:`energy.analysis.clashes.ResiduePairClashes`); empty to clear."""
-        self.clashes = {(int(p.res_i), int(p.res_j)): (int(p.count), float(p.worst_overlap))
-                        for p in residue_pairs}
+        row = self.dataset.row_of_residue if self.dataset is not None else int
+        self.clashes = {}
+        for p in residue_pairs:   # residues of the structure -> rows (a solvent block for waters)
+            key = (row(int(p.res_i)), row(int(p.res_j)))
+            count, worst = self.clashes.get(key, (0, 0.0))
+            self.clashes[key] = (count + int(p.count), max(worst, float(p.worst_overlap)))
         self._draw_clashes()
 
     def set_show_clashes(self, on: bool) -> None:
@@ -281,8 +303,13 @@ class PairMapView(QWidget):
 
     def _reorder(self, reset_view=False) -> None:
         ds = self.dataset
+        self.large = ds is not None and ds.n > DENSE_LIMIT
+        self.order_note = ""
         if ds is None:
             self.order, self.linkage = np.zeros(0, np.intp), None
+        elif self.large and self.order_mode == "profile":
+            self.order, self.linkage = axis_order("chain", ds.chains, ds.pairs, self.quantity), None
+            self.order_note = f"clustered order needs at most {DENSE_LIMIT:,} rows: by chain"
         else:
             self.order, self.linkage = axis_order_and_tree(self.order_mode, ds.chains, ds.pairs,
                                                            self.quantity)
@@ -291,14 +318,15 @@ class PairMapView(QWidget):
         labels = [] if ds is None else list(ds.labels[self.order])
         self.left_axis.set_labels(labels)
         self.bottom_axis.set_labels(labels)
-        self._draw_boundaries()
-        self._redraw()
-        self._draw_clashes()
-        self._draw_tree()
         n = len(self.order)
-        if reset_view and n:
+        if reset_view and n:   # first, so that a rastered map is drawn for this range
             top = -0.5 - (TREE_HEIGHT * n if self.linkage is not None else 0.0)
             self.plot.setRange(xRange=(-0.5, n - 0.5), yRange=(top, n - 0.5), padding=0)
+        self._draw_boundaries()
+        self._redraw()
+        self._raster_timer.stop()   # drawn for the range just set
+        self._draw_clashes()
+        self._draw_tree()
         self._on_selection(self.selection.pair)
 
     def _redraw(self) -> None:
@@ -307,20 +335,30 @@ class PairMapView(QWidget):
             self.image.clear()
             self.matrix = np.zeros((0, 0))
             return
-        d = self.dense(self.quantity)
         o = self.order
-        m = d if self.order_mode == "sequence" else d[np.ix_(o, o)]
-        self.matrix = m * self.factor if self.factor != 1.0 else m
-        column = ds.pairs.column(self.quantity) * self.factor
-        self.level = clip_level(column, self.clip)
         n = len(o)
-        self.image.setImage(self.matrix, autoLevels=False, levels=(-self.level, self.level))
-        self.image.setRect(QRectF(-0.5, -0.5, n, n))
+        column = ds.pairs.column(self.quantity) * self.factor
+        self._column = column
+        self.level = clip_level(column, self.clip)
+        if self.large:
+            (x0, x1), (y0, y1) = self.plot.vb.viewRange()
+            window = (math.floor(y0 + 0.5), math.ceil(y1 + 0.5), math.floor(x0 + 0.5), math.ceil(x1 + 0.5))
+            r = raster(self.position[ds.pairs.pair_i], self.position[ds.pairs.pair_j], column, n, window)
+            self.matrix = r.image
+            self.image.setImage(self.matrix, autoLevels=False, levels=(-self.level, self.level))
+            self.image.setRect(QRectF(*r.rect))
+        else:
+            d = self.dense(self.quantity)
+            m = d if self.order_mode == "sequence" else d[np.ix_(o, o)]
+            self.matrix = m * self.factor if self.factor != 1.0 else m
+            self.image.setImage(self.matrix, autoLevels=False, levels=(-self.level, self.level))
+            self.image.setRect(QRectF(-0.5, -0.5, n, n))
         self.colorbar.setLevels((-self.level, self.level))
         what = "change of " if ds.is_difference else ""
-        self.colorbar.axis.setLabel(f"{what}{long_label(self.quantity).split(' (')[0]} ({self.unit})")
-        self.plot.setTitle(f"<span style='color:#222'>{ds.title} &nbsp;·&nbsp; axis order: "
-                           f"{ORDERS[self.order_mode].lower()}</span>", size="10pt")
+        how = f", {REDUCTION}" if self.large else ""
+        self.colorbar.axis.setLabel(f"{what}{long_label(self.quantity).split(' (')[0]} ({self.unit}){how}")
+        order = self.order_note or f"axis order: {ORDERS[self.order_mode].lower()}"
+        self.plot.setTitle(f"<span style='color:#222'>{ds.title} &nbsp;·&nbsp; {order}</span>", size="10pt")
 
     def tree_segments(self):
         """(x0, y0, x1, y1) of the drawn tree in map coordinates, or None without one."""
@@ -372,7 +410,11 @@ class PairMapView(QWidget):
     def describe_cell(self, row: int, col: int) -> str:
         ds = self.dataset
         i, j = int(self.order[row]), int(self.order[col])
-        v = self.matrix[row, col]
+        if self.large:   # the raster holds pixels, not cells: the value comes from the table
+            k = ds.pairs.lookup(i, j)
+            v = float(self._column[k]) if k is not None else 0.0
+        else:
+            v = self.matrix[row, col]
         what = "change " if ds.is_difference else ""
         text = (f"{ds.labels[i]} × {ds.labels[j]}   {long_label(self.quantity).split(' (')[0]} "
                 f"{what}{format_energy(float(v))} {self.unit}")
