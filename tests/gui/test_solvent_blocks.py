@@ -96,7 +96,6 @@ def test_settings_fit_a_periodic_box_until_the_user_chooses(qtbot, window):
     the status bar says so; the next, non-periodic structure is back on all pairs; once the
     user sets something, it is kept for every structure."""
     import openmm
-
     from conftest import SCENARIO_CLASH
     assert not window.settings_chosen
     path = Path(openmm.__file__).parent / "app" / "data" / "test.pdb"
