@@ -154,6 +154,15 @@ def main(out_dir: str) -> int:
     w.ledger.table.sortByColumn(w.ledger.model.columnCount() - 1, Qt.SortOrder.AscendingOrder)
     w.ledger.table.scrollToTop()
     shot("09_trajectory_mean_over_frames")
+    # a solvated box (OpenMM's bundled test.pdb): settings fitted to it, water and ions as blocks
+    import openmm
+    w.frame_bar.mean.setChecked(False)
+    w.open_spec(LoadSpec(str(Path(openmm.__file__).parent / "app" / "data" / "test.pdb")))
+    wait_for(w.computeFinished)
+    lys = next(k for k, lab in enumerate(w.dataset.labels) if lab.startswith("LYS29"))
+    w.selection.set_pair((lys, w.dataset.n - 2))
+    w.docks["atoms"].raise_()
+    shot("10_solvent_blocks")
     w.close()
     return 0
 
