@@ -24,6 +24,8 @@ from energy.terms.nonbonded import KernelConstants, exception_energies, pair_ene
 
 #: Atom pairs evaluated per block when a no-cutoff request spans many atoms.
 PAIR_BLOCK = 2_000_000
+#: Candidate atom pairs per slice of :func:`interaction_energy` (its memory: about 60 MB).
+SUM_BLOCK = 500_000
 
 
 @dataclass(frozen=True)
@@ -135,15 +137,8 @@ def atom_pair_energies(system: MolecularSystem, frame: Frame, settings: EnergySe
     ex_sel = np.flatnonzero((in_a[ex[:, 0]] & in_b[ex[:, 1]]) | (in_b[ex[:, 0]] & in_a[ex[:, 1]]))
 
     kc = KernelConstants.from_settings(settings)
-    coul_parts, lj_parts, d_parts = [], [], []
-    for start in range(0, len(ordinary), PAIR_BLOCK):
-        p = ordinary[start:start + PAIR_BLOCK]
-        d = minimum_image_vectors(x[p[:, 1]] - x[p[:, 0]], box if periodic else None)
-        r2 = np.einsum("ij,ij->i", d, d)
-        ti, tj = system.lj_type[p[:, 0]], system.lj_type[p[:, 1]]
-        c, l = pair_energies(r2, system.charges[p[:, 0]] * system.charges[p[:, 1]],
-                             system.lj_rmin[ti, tj], system.lj_eps[ti, tj], kc.values)
-        coul_parts.append(c); lj_parts.append(l); d_parts.append(np.sqrt(r2))
+    c, l, d = _ordinary_pair_energies(system, x, ordinary, box if periodic else None, kc)
+    coul_parts, lj_parts, d_parts = [c], [l], [d]
     coul_ex, lj_ex, r_ex = exception_energies(system, x, settings, None)  # as the pipeline
     coul_parts.append(coul_ex[ex_sel]); lj_parts.append(lj_ex[ex_sel]); d_parts.append(r_ex[ex_sel])
     all_pairs = np.concatenate([ordinary, ex[ex_sel]]).reshape(-1, 2)
@@ -196,7 +191,10 @@ def residue_pair_atom_energies(system, frame, settings, res_i: int, res_j: int) 
 def interaction_energy(system, frame, settings, atoms_a, atoms_b) -> dict:
     """Nonbonded interaction between two atom sets (kcal/mol): coulomb, lj, total, n_pairs.
 
-    Pairs are unordered and counted once; atoms in both sets pair with each other once.
+    Pairs are unordered and counted once; atoms in both sets pair with each other once.  The
+    sums run over slices of ``atoms_a`` holding about :data:`SUM_BLOCK` candidate pairs each,
+    so memory stays bounded however many atom pairs the two sets make (no list of them is
+    kept).
 
     Parameters
     ----------
@@ -212,13 +210,59 @@ def interaction_energy(system, frame, settings, atoms_a, atoms_b) -> dict:
     Returns
     -------
     dict
-        ``coulomb``, ``lj``, ``total`` (float, kcal/mol) and ``n_pairs`` (int, atom pairs listed,
-        exception pairs included).
+        ``coulomb``, ``lj``, ``total`` (float, kcal/mol) and ``n_pairs`` (int, atom pairs
+        counted, exception pairs included).
     """
     check_frame(system, frame)  # the geometry checks, before any energy
-    e = atom_pair_energies(system, frame, settings, atoms_a, atoms_b)
-    c, l = float(e.coulomb.sum()), float(e.lj.sum())
-    return {"coulomb": c, "lj": l, "total": c + l, "n_pairs": int(len(e))}
+    settings = settings or EnergySettings()
+    x = frame.positions
+    n = system.n_atoms
+    atoms_a = np.unique(np.asarray(atoms_a, np.intp))
+    atoms_b = np.unique(np.asarray(atoms_b, np.intp))
+    box = nonbonded_cell(frame.box, n, settings.use_periodic).box
+    periodic = box is not None and settings.cutoff_angstrom is not None
+    h = periodic_cell(box, settings.cutoff_angstrom) if periodic else None
+    ex = system.exception_pairs
+    sorted_ex_keys = np.sort(pair_keys(ex[:, 0], ex[:, 1], n))
+    in_a = np.zeros(n, bool); in_a[atoms_a] = True
+    in_b = np.zeros(n, bool); in_b[atoms_b] = True
+    in_both = in_a & in_b
+    kc = KernelConstants.from_settings(settings)
+    coulomb = lj = 0.0
+    n_pairs = 0
+    rows = max(1, SUM_BLOCK // max(len(atoms_b), 1))
+    in_part = np.zeros(n, bool)
+    for start in range(0, len(atoms_a), rows):
+        part = atoms_a[start:start + rows]
+        in_part[part] = True
+        pairs = _candidate_pairs(x, part, atoms_b, settings.cutoff_angstrom, box if periodic else None, h)
+        # a pair of two atoms in both sets turns up in the slices of both: keep it in the slice
+        # of its lower atom only
+        twice = in_both[pairs[:, 0]] & in_both[pairs[:, 1]] & ~in_part[pairs[:, 0]]
+        pairs = pairs[~twice]
+        pairs = pairs[~is_member(pair_keys(pairs[:, 0], pairs[:, 1], n), sorted_ex_keys)]
+        c, l, _ = _ordinary_pair_energies(system, x, pairs, box if periodic else None, kc)
+        coulomb += float(c.sum()); lj += float(l.sum()); n_pairs += len(pairs)
+        in_part[part] = False
+    ex_sel = np.flatnonzero((in_a[ex[:, 0]] & in_b[ex[:, 1]]) | (in_b[ex[:, 0]] & in_a[ex[:, 1]]))
+    coul_ex, lj_ex, _ = exception_energies(system, x, settings, None)  # as the pipeline
+    coulomb += float(coul_ex[ex_sel].sum()); lj += float(lj_ex[ex_sel].sum())
+    n_pairs += len(ex_sel)
+    return {"coulomb": coulomb, "lj": lj, "total": coulomb + lj, "n_pairs": int(n_pairs)}
+
+
+def _ordinary_pair_energies(system, x, pairs, box, kc):
+    """(coulomb, lj, distance) of ordinary atom pairs (no exceptions among them), each (n,)."""
+    coul_parts, lj_parts, d_parts = [np.zeros(0)], [np.zeros(0)], [np.zeros(0)]
+    for start in range(0, len(pairs), PAIR_BLOCK):
+        p = pairs[start:start + PAIR_BLOCK]
+        d = minimum_image_vectors(x[p[:, 1]] - x[p[:, 0]], box)
+        r2 = np.einsum("ij,ij->i", d, d)
+        ti, tj = system.lj_type[p[:, 0]], system.lj_type[p[:, 1]]
+        c, l = pair_energies(r2, system.charges[p[:, 0]] * system.charges[p[:, 1]],
+                             system.lj_rmin[ti, tj], system.lj_eps[ti, tj], kc.values)
+        coul_parts.append(c); lj_parts.append(l); d_parts.append(np.sqrt(r2))
+    return np.concatenate(coul_parts), np.concatenate(lj_parts), np.concatenate(d_parts)
 
 
 def selection_interaction(system, frame, settings, select_a: str, select_b: str, universe=None) -> dict:
