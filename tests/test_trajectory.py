@@ -307,7 +307,8 @@ def test_interrupt_keeps_the_frames_done_complete_and_readable(tmp_path, scan0, 
     folder = tmp_path / "cut"
     folder.mkdir()
     argv = ["scan", SCENARIO_CLASH_PDB, DCD, "--frames", "::3", "--pairs", "{}-{}".format(*residues["clash"]),
-            "--json", str(folder / "t.json"), "--csv-dir", str(folder / "csv"), "--quiet"]
+            "--json", str(folder / "t.json"), "--csv-dir", str(folder / "csv"), "--out", str(folder / "t.h5"),
+            "--quiet"]
 
     def stop_after_five(done, total):
         if done == 5:
@@ -342,6 +343,13 @@ def test_interrupt_keeps_the_frames_done_complete_and_readable(tmp_path, scan0, 
             assert rows[key]["persistence"] == st.persistence()[k]
     assert sum(p["mean"]["total"] for p in doc["pairs"]) == pytest.approx(
         np.mean(doc["per_frame_totals"]["total"]), rel=1e-9)
+    # the result file holds the same five frames, marked incomplete (read with plain h5py)
+    import h5py
+    with h5py.File(folder / "t.h5", "r") as fh:
+        assert not fh.attrs["complete"]
+        assert list(fh["frames/index"][()]) == doc["frames"]
+        for term in COLUMNS:
+            assert list(fh[f"frames/{term}"][()]) == doc["per_frame_totals"][term]
 
 
 def test_sigint_stops_a_parallel_run_cleanly(tmp_path, scan0):
