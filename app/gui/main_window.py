@@ -422,17 +422,23 @@ class MainWindow(QMainWindow):
         """Recompute a result file from its recorded inputs (they must all be there; a changed
         one is named, and used as it is now)."""
         stored = self.stored
-        missing = [r for r in stored.inputs if not os.path.isfile(r.path)]
-        if missing or stored.kind != "scan":
-            why = (f"the input file {missing[0].path} is missing: open the structure again"
-                   if missing else f"a {stored.kind} result is recomputed from its structure: open it again")
-            show_error(self, "Cannot recompute this result file", why, "")
+        if stored.kind != "scan":
+            show_error(self, "Cannot recompute this result file",
+                       f"a {stored.kind} result is recomputed from its structure: open it again", "")
             return
-        changed = stored.changed_inputs()
+        paths = {}
+        for rec in stored.inputs:            # at the recorded path, or where the user says it is now
+            found = rec.path if os.path.isfile(rec.path) else self.ask_for_input(rec)
+            if not found:
+                show_error(self, "Cannot recompute this result file",
+                           f"the input file {rec.path} is missing: open the structure again", "")
+                return
+            paths[id(rec)] = found
+        changed = [msg for rec in stored.inputs if (msg := rec.changed(paths[id(rec)])) is not None]
         if changed:
             self.statusBar().showMessage("Recomputing with the files as they are now: " + "; ".join(changed), 20000)
-        role = {r.role: r.path for r in stored.inputs}
-        params = tuple(r.path for r in stored.inputs if r.role == "parameters")
+        role = {r.role: paths[id(r)] for r in stored.inputs}
+        params = tuple(paths[id(r)] for r in stored.inputs if r.role == "parameters")
         self.open_spec(LoadSpec(role["structure"], role.get("coordinates"), params,
                                 frame=int(stored.attrs.get("frame", 0))))
 
@@ -442,6 +448,15 @@ class MainWindow(QMainWindow):
             return settings, ""
         base = EnergySettings() if self._settings_fitted else settings   # not the last input's fit
         return settings_for_input(loaded.system.n_atoms, loaded.frame.box, base)
+
+    def ask_for_input(self, record) -> str:
+        """Ask where a result's moved input file is now ("" when the user cancels)."""
+        name = os.path.basename(record.path)
+        folder = os.path.dirname(self.stored.path) if self.stored is not None else ""
+        path, _ = QFileDialog.getOpenFileName(
+            self, f"Where is {name} now? (the {record.role} of this result, moved since)",
+            os.path.join(folder, name), f"{name} (*{os.path.splitext(name)[1]});;Any file (*)")
+        return path
 
     def set_energy_settings(self, settings) -> None:
         self.settings_chosen = True

@@ -111,8 +111,13 @@ class InputRecord:
         except OSError:
             return cls(role, path, -1, "")
 
-    def changed(self) -> str | None:
+    def changed(self, path=None) -> str | None:
         """None if the file is still there with the same SHA-256; otherwise why not.
+
+        Parameters
+        ----------
+        path : str or os.PathLike, optional
+            Where the file is now, when it has moved (default: the recorded path).
 
         Returns
         -------
@@ -120,10 +125,13 @@ class InputRecord:
             A message saying the file is missing or has changed; None if it matches (or has no
             recorded hash).
         """
-        if not os.path.isfile(self.path):
-            return f"{self.role} file {self.path} is missing"
-        if self.sha256 and sha256_of(self.path) != self.sha256:
-            return f"{self.role} file {self.path} has changed since the result was computed (SHA-256 differs)"
+        path = self.path if path is None else os.fspath(path)
+        if not os.path.isfile(path):
+            return f"{self.role} file {path} is missing"
+        if self.sha256 and sha256_of(path) != self.sha256:
+            moved = "" if path == self.path else f" (recorded as {self.path})"
+            return (f"{self.role} file {path}{moved} has changed since the result was computed "
+                    "(SHA-256 differs)")
         return None
 
 

@@ -239,3 +239,52 @@ def test_result_file_reopens_without_recomputing_and_reports_changed_inputs(qtbo
     opened.open_files([str(bad)])
     qtbot.waitUntil(lambda: len(error_boxes) == 1, timeout=10000)
     assert "not a readable HDF5 file" in error_boxes[0] and opened.dataset is before
+
+
+def test_result_file_asks_for_moved_inputs_and_checks_their_hash(qtbot, opened, tmp_path, monkeypatch,
+                                                                 error_boxes):
+    """Recompute of a result whose structure was moved: the window asks where it is now (the
+    file dialog is answered here), checks its SHA-256 against the recorded one, and says when
+    the file given is not the one the result was computed from."""
+    import shutil
+
+    from PySide6.QtWidgets import QFileDialog
+    src = tmp_path / "complex.pdb"
+    shutil.copy(opened.snapshot.spec.structure, src)
+    with qtbot.waitSignal(opened.computeFinished, timeout=30000):
+        opened.open_spec(LoadSpec(str(src)))
+    path = tmp_path / "saved.h5"
+    handle = opened.save_result(str(path))
+    qtbot.waitUntil(lambda: not handle.thread.isRunning(), timeout=10000)
+    moved = tmp_path / "elsewhere"
+    moved.mkdir()
+    shutil.move(str(src), moved / "complex.pdb")
+    with qtbot.waitSignal(opened.computeFinished, timeout=10000):
+        opened.open_files([str(path)])
+    asked = []
+
+    def answer(_parent, title, *_rest):
+        asked.append(title)
+        return str(moved / "complex.pdb"), ""
+    monkeypatch.setattr(QFileDialog, "getOpenFileName", answer)
+    with qtbot.waitSignal(opened.computeFinished, timeout=60000):
+        opened.recompute()
+    assert asked and "complex.pdb" in asked[0]
+    assert opened.snapshot is not None and opened.snapshot.spec.structure == str(moved / "complex.pdb")
+    assert "has changed" not in opened.statusBar().currentMessage()
+    # the same file, edited: recomputed, and the changed hash is reported
+    (moved / "complex.pdb").write_text((moved / "complex.pdb").read_text().replace("REMARK", "REMARK edited", 1))
+    with qtbot.waitSignal(opened.computeFinished, timeout=10000):
+        opened.open_files([str(path)])
+    with qtbot.waitSignal(opened.computeFinished, timeout=60000):
+        opened.recompute()
+    message = opened.statusBar().currentMessage()
+    assert "has changed since the result was computed" in message and "recorded as" in message
+    # cancelling the dialog: one error, nothing lost
+    monkeypatch.setattr(QFileDialog, "getOpenFileName", lambda *_a, **_k: ("", ""))
+    (moved / "complex.pdb").unlink()
+    with qtbot.waitSignal(opened.computeFinished, timeout=10000):
+        opened.open_files([str(path)])
+    before = opened.dataset
+    opened.recompute()
+    assert len(error_boxes) == 1 and "is missing" in error_boxes[0] and opened.dataset is before
