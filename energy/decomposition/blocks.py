@@ -149,11 +149,12 @@ def solvent_contacts(rp: ResiduePairEnergies, residue: int, members: np.ndarray)
     """
     in_block = np.zeros(rp.n_residues, bool)
     in_block[np.asarray(members, np.intp)] = True
-    first = (rp.pair_i == residue) & in_block[rp.pair_j]
-    second = (rp.pair_j == residue) & in_block[rp.pair_i]
-    rows = np.flatnonzero((first | second) & (rp.pair_i != rp.pair_j))
+    # the residue's own rows first (two scans of the index columns), then only those rows
+    rows = np.union1d(np.flatnonzero(rp.pair_i == residue), np.flatnonzero(rp.pair_j == residue))
     other = np.where(rp.pair_i[rows] == residue, rp.pair_j[rows], rp.pair_i[rows])
-    total = rp.total[rows]
+    keep = in_block[other] & (other != residue)
+    rows, other = rows[keep], other[keep]
+    total = sum(rp.values[t][rows] for t in TERMS)
     dist = rp.min_heavy_distance[rows]
     order = np.lexsort((dist, total))
     rows, other = rows[order], other[order]
