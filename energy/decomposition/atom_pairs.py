@@ -139,8 +139,8 @@ def atom_pair_energies(system: MolecularSystem, frame: Frame, settings: EnergySe
     kc = KernelConstants.from_settings(settings)
     c, l, d = _ordinary_pair_energies(system, x, ordinary, box if periodic else None, kc)
     coul_parts, lj_parts, d_parts = [c], [l], [d]
-    coul_ex, lj_ex, r_ex = exception_energies(system, x, settings, None)  # as the pipeline
-    coul_parts.append(coul_ex[ex_sel]); lj_parts.append(lj_ex[ex_sel]); d_parts.append(r_ex[ex_sel])
+    coul_ex, lj_ex, r_ex = exception_energies(system, x, settings, None, ex_sel)  # as the pipeline
+    coul_parts.append(coul_ex); lj_parts.append(lj_ex); d_parts.append(r_ex)
     all_pairs = np.concatenate([ordinary, ex[ex_sel]]).reshape(-1, 2)
     flags = np.concatenate([np.zeros(len(ordinary), bool), np.ones(len(ex_sel), bool)])
     return AtomPairEnergies(all_pairs, np.concatenate(d_parts), np.concatenate(coul_parts),
@@ -245,8 +245,8 @@ def interaction_energy(system, frame, settings, atoms_a, atoms_b) -> dict:
         coulomb += float(c.sum()); lj += float(l.sum()); n_pairs += len(pairs)
         in_part[part] = False
     ex_sel = np.flatnonzero((in_a[ex[:, 0]] & in_b[ex[:, 1]]) | (in_b[ex[:, 0]] & in_a[ex[:, 1]]))
-    coul_ex, lj_ex, _ = exception_energies(system, x, settings, None)  # as the pipeline
-    coulomb += float(coul_ex[ex_sel].sum()); lj += float(lj_ex[ex_sel].sum())
+    coul_ex, lj_ex, _ = exception_energies(system, x, settings, None, ex_sel)  # as the pipeline
+    coulomb += float(coul_ex.sum()); lj += float(lj_ex.sum())
     n_pairs += len(ex_sel)
     return {"coulomb": coulomb, "lj": lj, "total": coulomb + lj, "n_pairs": int(n_pairs)}
 

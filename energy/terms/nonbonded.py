@@ -25,7 +25,7 @@ from energy._kernels.pbc import minimum_image_vectors
 from energy.model.settings import EnergySettings
 
 
-def exception_energies(system, positions, settings: EnergySettings, box=None):
+def exception_energies(system, positions, settings: EnergySettings, box=None, rows=None):
     """Coulomb, vdW and distance of every exception pair, each (n_exceptions,); kcal/mol, A.
 
     Exception pairs use plain (or distance-dependent) Coulomb and the chosen vdW form with their
@@ -43,6 +43,8 @@ def exception_energies(system, positions, settings: EnergySettings, box=None):
     box : (6,) float or None, optional
         Unit cell ``[a, b, c, alpha, beta, gamma]`` (A, degrees) for the minimum image of each
         pair, or None (default).
+    rows : (k,) integer or None, optional
+        Only these exception pairs (indices into ``exception_pairs``); None (default) for all.
 
     Returns
     -------
@@ -51,15 +53,16 @@ def exception_energies(system, positions, settings: EnergySettings, box=None):
     distance : (n_exceptions,) float64
         Distance of each exception pair, A.
     """
-    pairs = system.exception_pairs
+    take = slice(None) if rows is None else np.asarray(rows, np.intp)
+    pairs = system.exception_pairs[take]
     if len(pairs) == 0:
         z = np.zeros(0)
         return z, z, z
     d = minimum_image_vectors(positions[pairs[:, 1]] - positions[pairs[:, 0]], box)
     r2 = np.einsum("ij,ij->i", d, d)
     kc = KernelConstants.from_settings(settings, for_exceptions=True)
-    coul, vdw = pair_energies(r2, system.exception_qq, system.exception_rmin, system.exception_eps,
-                              kc.values)
+    coul, vdw = pair_energies(r2, system.exception_qq[take], system.exception_rmin[take],
+                              system.exception_eps[take], kc.values)
     return coul, vdw, np.sqrt(r2)
 
 
