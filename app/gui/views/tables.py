@@ -47,11 +47,6 @@ def _is_number_column(table: QTableView, column: int) -> bool:
     return align is not None and bool(int(align) & int(Qt.AlignmentFlag.AlignRight))
 
 
-#: Rows measured when columns are sized to their contents (Qt's default, 1,000, makes a click
-#: that fills a 2,000-row table spend 100 ms in sizing).
-RESIZE_PRECISION_ROWS = 200
-
-
 def fit_columns(table: QTableView, recompute: bool = True) -> None:
     """Columns sized to their contents, then the text columns narrowed (widest first, down to
     :data:`MIN_TEXT_COLUMN`) so that the table fits its width without scrolling; narrowed cells
@@ -63,7 +58,6 @@ def fit_columns(table: QTableView, recompute: bool = True) -> None:
     if model is None or model.columnCount() == 0:
         return
     if recompute or table.property("naturalWidths") is None:
-        header.setResizeContentsPrecision(RESIZE_PRECISION_ROWS)   # not every row of a long table
         table.resizeColumnsToContents()
         table.setProperty("naturalWidths", [header.sectionSize(c) for c in range(model.columnCount())])
     natural = list(table.property("naturalWidths") or [])
