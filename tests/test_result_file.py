@@ -179,3 +179,29 @@ def test_bad_files_give_one_line_and_execute_nothing(tiny_scan, tmp_path, monkey
         msg = str(err.value)
         assert expected in msg and "\n" not in msg and len(msg) < 400, msg
     assert not marker.exists()
+
+
+def test_cli_overlaps_result_holds_the_ranked_list(tmp_path):
+    """`tessera overlaps --out` on the scenario's clashing model: the file (read with plain h5py)
+    holds the ranked atom pairs the JSON lists, and each stored distance is the distance of
+    those two atoms in the PDB file (coordinates read with MDAnalysis, an outside reader)."""
+    import MDAnalysis as mda
+
+    from app.cli.main import main
+    pdb = os.path.join(SCENARIO, "complex_clash.pdb")
+    out, js = tmp_path / "o.h5", tmp_path / "o.json"
+    assert main(["overlaps", pdb, "--out", str(out), "--json", str(js), "--quiet"]) == 0
+    doc = json.loads(js.read_text())
+    with h5py.File(out, "r") as fh:
+        assert fh.attrs["kind"] == "overlaps"
+        g = fh["overlaps"]
+        assert list(g["atom_i"][()]) == [c["atom_i"] for c in doc["clashes"]]
+        assert list(g["atom_j"][()]) == [c["atom_j"] for c in doc["clashes"]]
+        np.testing.assert_array_equal(g["overlap"][()], [c["overlap"] for c in doc["clashes"]])
+        ai, aj, dist = g["atom_i"][()], g["atom_j"][()], g["distance"][()]
+    assert len(ai) > 0
+    x = mda.Universe(pdb).atoms.positions.astype(np.float64)
+    np.testing.assert_allclose(dist, np.linalg.norm(x[ai] - x[aj], axis=1), atol=2e-3)  # PDB: 3 decimals
+    stored = results.load(out)
+    assert stored.kind == "overlaps" and len(stored.overlaps["atom_i"]) == len(ai)
+    assert json.loads(stored.overlaps["options"]) == doc["options"]

@@ -64,6 +64,8 @@ def configure_parser(p: argparse.ArgumentParser) -> None:
                    help="rows shown on stdout (default 20; 0 for all)")
     p.add_argument("--json", metavar="OUT", help="write every clash and the summaries as JSON")
     p.add_argument("--csv", metavar="OUT", help="write the ranked clash list as CSV")
+    p.add_argument("--out", metavar="RESULT.h5", help="write the ranked clash list to a result file "
+                   "(HDF5, docs/result-file.md)")
     p.add_argument("--quiet", action="store_true", help="print nothing on success")
 
 
@@ -83,14 +85,15 @@ def run(args) -> int:
     from energy.output.files import atomic_write_text
 
     options = options_from_args(args)
-    outs = [o for o in (args.json, args.csv) if o]
+    outs = [o for o in (args.json, args.csv, getattr(args, "out", None)) if o]
     for out in outs:
         if not os.path.isdir(os.path.dirname(os.path.abspath(out))):
             raise EnergyError(f"{out}: the output folder does not exist")
         if os.path.isdir(out):
             raise EnergyError(f"{out}: is a folder, expected a file name")
-    if args.json and args.csv and os.path.abspath(args.json) == os.path.abspath(args.csv):
-        raise SettingsError("--json and --csv name the same file")
+    named = [os.path.abspath(o) for o in outs]
+    if len(set(named)) < len(named):
+        raise SettingsError("--json, --csv and --out must name different files")
     if args.top < 0:
         raise SettingsError(f"--top must be >= 0, got {args.top}")
     loaded = load_system(args.structure, args.coords, args.params, frame=args.frame,
@@ -104,6 +107,9 @@ def run(args) -> int:
         atomic_write_text(args.json, json.dumps(doc, indent=1, allow_nan=False) + "\n")
     if args.csv:
         atomic_write_text(args.csv, clash_csv(loaded.system, report))
+    if getattr(args, "out", None):
+        from energy.output.overlap_result import write_overlap_result
+        write_overlap_result(args.out, loaded, report)
     if not args.quiet:
         print(clash_table(loaded.system, report, top=args.top))
     return 0
