@@ -33,6 +33,7 @@ from app.state.document import SOLVENT_CHAIN, Dataset, LoadSpec
 from energy import results
 from energy.analysis.compare import compare_results
 from energy.decomposition.atom_pairs import selection_interaction
+from energy.errors import EnergyError
 from energy.model.settings import EnergySettings
 from energy.terms.registry import map_quantities
 from energy.units import ENERGY_UNITS
@@ -261,11 +262,15 @@ class MainWindow(QMainWindow):
         self.start_side(worker)
 
     def _on_stored(self, stored) -> None:
+        try:
+            ds = Dataset.from_stored(stored)
+        except EnergyError as exc:   # a result kind without a map: say so, keep what is on screen
+            show_error(self, "Could not open the result file", str(exc), "")
+            return
         self.snapshot, self.second, self.comparison, self._comparison_pair = None, None, None, None
         self.stored = stored
         self.trajectory.open(None)
         self.frame_toolbar.setVisible(False)
-        ds = Dataset.from_stored(stored)
         size = f"result file: {ds.n:,} residues, {len(ds.pairs):,} residue pairs ({stored.kind})"
         changed = stored.changed_inputs()
         if changed:

@@ -288,3 +288,15 @@ def test_result_file_asks_for_moved_inputs_and_checks_their_hash(qtbot, opened, 
     before = opened.dataset
     opened.recompute()
     assert len(error_boxes) == 1 and "is missing" in error_boxes[0] and opened.dataset is before
+
+
+def test_overlaps_result_file_is_named_not_drawn(qtbot, opened, tmp_path, error_boxes):
+    """An overlap list (tessera overlaps --out) has no residue-pair map: opening it gives one
+    error naming what it holds, and the map on screen stays."""
+    from app.cli.main import main
+    out = tmp_path / "o.h5"
+    assert main(["overlaps", str(opened.snapshot.spec.structure), "--out", str(out), "--quiet"]) == 0
+    before = opened.dataset
+    opened.open_files([str(out)])
+    qtbot.waitUntil(lambda: len(error_boxes) == 1, timeout=20000)
+    assert "overlap list" in error_boxes[0] and opened.dataset is before
