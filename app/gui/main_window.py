@@ -33,7 +33,6 @@ from app.state.document import SOLVENT_CHAIN, Dataset, LoadSpec
 from energy import results
 from energy.analysis.compare import compare_results
 from energy.decomposition.atom_pairs import selection_interaction
-from energy.errors import EnergyError
 from energy.model.settings import EnergySettings
 from energy.terms.registry import map_quantities
 from energy.units import ENERGY_UNITS
@@ -256,22 +255,30 @@ class MainWindow(QMainWindow):
     def open_result(self, path: str) -> None:
         """Show a result file: map, ledger and term bars with no recomputation (read in a
         background job; a bad file gives one error dialog and keeps what is on screen)."""
-        worker = CallWorker(results.load, path)
-        worker.finished.connect(self._on_stored)
-        worker.failed.connect(lambda msg, details: show_error(self, "Could not open the result file", msg, details))
+        self._show_stored_job(lambda: _stored_dataset(results.load(path), self.show_blocks))
+
+    def _show_stored_job(self, make) -> None:
+        """Read and arrange a result file in the background (``make()`` -> (stored, dataset));
+        a file that cannot be shown gives one error and keeps what is on screen."""
+        worker = CallWorker(make)
+        worker.finished.connect(self._on_stored)        # bound methods: queued into the GUI thread
+        worker.failed.connect(self._on_stored_failed)
         self.start_side(worker)
 
-    def _on_stored(self, stored) -> None:
-        try:
-            ds = Dataset.from_stored(stored)
-        except EnergyError as exc:   # a result kind without a map: say so, keep what is on screen
-            show_error(self, "Could not open the result file", str(exc), "")
-            return
+    def _on_stored_failed(self, msg: str, details: str) -> None:
+        show_error(self, "Could not open the result file", msg, details)
+
+    def _on_stored(self, stored_and_dataset) -> None:
+        stored, ds = stored_and_dataset
         self.snapshot, self.second, self.comparison, self._comparison_pair = None, None, None, None
         self.stored = stored
         self.trajectory.open(None)
         self.frame_toolbar.setVisible(False)
-        size = f"result file: {ds.n:,} residues, {len(ds.pairs):,} residue pairs ({stored.kind})"
+        full = ds.full_pairs if ds.full_pairs is not None else ds.pairs
+        size = f"result file: {len(ds.labels) if ds.blocks is None else len(ds.blocks.residue_to_row):,} residues, " \
+               f"{len(full):,} residue pairs ({stored.kind})"
+        if ds.blocks is not None:
+            size += f" | solvent as blocks: {', '.join(ds.labels[ds.blocks.n_solute:])}"
         changed = stored.changed_inputs()
         if changed:
             size += f" | {len(changed)} input file(s) missing or changed"
@@ -295,16 +302,17 @@ class MainWindow(QMainWindow):
         background job; returns its handle (None if nothing to save)."""
         if self.snapshot is None:
             return None
-        snap, second = self.snapshot, self.second
-        if second is not None:
-            comparison = self._current_comparison()
-            worker = CallWorker(results.save_comparison, path, (snap.loaded, snap.result),
-                                (second.loaded, second.result), comparison, snap.result.settings)
-        else:
-            worker = CallWorker(results.save_scan, path, snap.loaded, snap.result)
-        worker.finished.connect(lambda _=None: self.statusBar().showMessage(f"Result saved to {path}", 8000))
-        worker.failed.connect(lambda msg, details: show_error(self, "Could not save the result", msg, details))
+        comparison = self._current_comparison() if self.second is not None else None
+        worker = CallWorker(_save_result, path, self.snapshot, self.second, comparison)
+        worker.finished.connect(self._on_result_saved)   # bound methods: queued into the GUI thread
+        worker.failed.connect(self._on_result_save_failed)
         return self.start_side(worker)
+
+    def _on_result_saved(self, path: str) -> None:
+        self.statusBar().showMessage(f"Result saved to {path}", 8000)
+
+    def _on_result_save_failed(self, msg: str, details: str) -> None:
+        show_error(self, "Could not save the result", msg, details)
 
     def open_spec(self, spec: LoadSpec, compare: bool = False) -> None:
         if compare:
@@ -586,15 +594,15 @@ class MainWindow(QMainWindow):
             self.bars.set_values("pair", None)
             return
         ds = self.dataset
+        contacts = ds.solvent_contacts(pair)
+        if contacts is not None or any(ds.is_block(p) for p in pair):
+            self._show_block_pair(ds, pair, contacts)
+            return
         if self.snapshot is None:  # a result file: the table is there, the atoms are not
             self.atoms.show_contributions(None, None, "Atom pairs need the structure: Compute > Recompute "
                                           "opens the result's input files, or File > Open structure.")
             self.profile.show_pair(None, None, None)
             self._show_pair_bars(ds, pair)
-            return
-        contacts = ds.solvent_contacts(pair)
-        if contacts is not None or any(ds.is_block(p) for p in pair):
-            self._show_block_pair(ds, pair, contacts)
             return
         snap, (i, j) = self._pair_snapshot(pair)
         contrib = pair_contributions(snap, i, j)
@@ -622,12 +630,13 @@ class MainWindow(QMainWindow):
                                           "block (the bars). Turn off View > Solvent as blocks to list "
                                           "every water and ion.")
             return
-        system = ds.snapshot.system
+        residues = ds.snapshot.system.residues if ds.snapshot is not None else ds.stored.residues
         block = next(ds.labels[p] for p in pair if ds.is_block(p))
-        self.atoms.show_solvent_contacts(system, contacts,
-                                         f"<b>{system.residues.label(contacts.residue)} – {block}</b>: "
-                                         f"{len(contacts):,} of its residues interact, strongest first. "
-                                         "Double-click one for its atom pairs.")
+        more = ("Double-click one for its atom pairs." if ds.snapshot is not None else
+                "Atom pairs need the structure (Compute > Recompute).")
+        self.atoms.show_solvent_contacts(residues, contacts,
+                                         f"<b>{residues.label(contacts.residue)} – {block}</b>: "
+                                         f"{len(contacts):,} of its residues interact, strongest first. {more}")
 
     def show_solvent_member(self, residue: int, member: int) -> None:
         """Atom pairs of a solute residue with one water or ion of a block (from the contacts
@@ -649,6 +658,9 @@ class MainWindow(QMainWindow):
         self.act_blocks.setChecked(self.show_blocks)
         if self.snapshot is not None and self.stored is None:
             self._show(keep_view=False)
+        elif self.stored is not None:
+            stored, blocks = self.stored, self.show_blocks
+            self._show_stored_job(lambda: _stored_dataset(stored, blocks))
 
     def _show_pair_bars(self, ds, pair) -> None:
         k = ds.pairs.lookup(*pair)
@@ -722,3 +734,18 @@ class MainWindow(QMainWindow):
             return False
         self.statusBar().showMessage(f"Wrote {path}", 6000)
         return True
+
+
+def _stored_dataset(stored, blocks: bool):
+    """(stored, its Dataset) for a worker thread; kinds without a map raise EnergyError."""
+    return stored, Dataset.from_stored(stored, blocks=blocks)
+
+
+def _save_result(path: str, snap, second, comparison) -> str:
+    """Write one structure (``second`` None) or a comparison as a result file; returns ``path``."""
+    if second is None:
+        results.save_scan(path, snap.loaded, snap.result)
+    else:
+        results.save_comparison(path, (snap.loaded, snap.result), (second.loaded, second.result),
+                                comparison, snap.result.settings)
+    return path

@@ -168,19 +168,26 @@ class Dataset:
     def over_residue_pairs(cls, snap: Snapshot, pairs, title: str, totals: dict, blocks: bool = True) -> Dataset:
         """The dataset of a residue-pair table over the residues of ``snap``'s system (its own
         result, or the mean over a trajectory's frames), solvent blocked when ``blocks``."""
+        return cls.over_residues(snap.system.residues, snap.system.residue_classes, pairs, title, totals,
+                                 blocks, snapshot=snap)
+
+    @classmethod
+    def over_residues(cls, residues, classes, pairs, title: str, totals: dict, blocks: bool = True,
+                      **fields) -> Dataset:
+        """The dataset of ``pairs`` over ``residues`` (a ResidueTable) of ``classes``; with
+        solvent and ``blocks``, water and ions one row each.  ``fields``: ``snapshot`` or
+        ``stored``."""
         from energy.decomposition.blocks import block_residue_pairs, has_solvent
-        r = snap.system.residues
-        labels = np.array([r.label(i) for i in range(len(r))], dtype=object)
-        chains = np.array([str(c).strip() for c in r.chain], dtype=object)
-        classes = snap.system.residue_classes
+        labels = np.array([residues.label(i) for i in range(len(residues))], dtype=object)
+        chains = np.array([str(c).strip() for c in residues.chain], dtype=object)
         if blocks and has_solvent(classes):
             blocked = block_residue_pairs(pairs, classes, labels)
             solute = np.array([m[0] for m in blocked.members[:blocked.n_solute]], np.intp)
             block_chains = np.array([SOLVENT_CHAIN] * blocked.n_blocks, dtype=object)
             return cls(np.asarray(blocked.labels, dtype=object),
                        np.concatenate([chains[solute], block_chains]), blocked.pairs, title,
-                       snapshot=snap, totals=totals, blocks=blocked, full_pairs=pairs)
-        return cls(labels, chains, pairs, title, snapshot=snap, totals=totals)
+                       totals=totals, blocks=blocked, full_pairs=pairs, **fields)
+        return cls(labels, chains, pairs, title, totals=totals, **fields)
 
     @classmethod
     def from_comparison(cls, comparison, first: Snapshot, second: Snapshot) -> Dataset:
@@ -192,7 +199,7 @@ class Dataset:
                            for t in (*TERMS, "total")})
 
     @classmethod
-    def from_stored(cls, stored) -> Dataset:
+    def from_stored(cls, stored, blocks: bool = True) -> Dataset:
         """The dataset of a result file: a scan (its table), a trajectory (the mean over its
         frames) or a comparison (second minus first)."""
         name = os.path.basename(stored.path)
@@ -205,15 +212,15 @@ class Dataset:
             return cls(np.asarray(c.labels, dtype=object), np.asarray(c.chains, dtype=object), c.difference,
                        f"{name} (comparison: second minus first)", comparison=c, stored=stored,
                        totals={t: c.totals_second[t] - c.totals_first[t] for t in (*TERMS, "total")})
+        from energy.model.residue_classes import residue_classes
         r = stored.residues
-        labels = np.array([r.label(i) for i in range(len(r))], dtype=object)
-        chains = np.array([str(c).strip() for c in r.chain], dtype=object)
+        classes = residue_classes(r)
         if stored.kind == "trajectory":
             pairs, totals = stored_trajectory_mean(stored)
-            return cls(labels, chains, pairs, f"{name} (mean over {len(stored.frames['index'])} frames)",
-                       stored=stored, totals=totals)
-        return cls(labels, chains, stored.residue_pairs, f"{name} (result file)", stored=stored,
-                   totals=dict(stored.totals))
+            return cls.over_residues(r, classes, pairs, f"{name} (mean over {len(stored.frames['index'])} frames)",
+                                     totals, blocks, stored=stored)
+        return cls.over_residues(r, classes, stored.residue_pairs, f"{name} (result file)", dict(stored.totals),
+                                 blocks, stored=stored)
 
 
 def stored_trajectory_mean(stored):

@@ -19,6 +19,9 @@ from energy.decomposition.residue_pairs import ResiduePairEnergies
 from energy.model.residue_classes import SOLVENT_CLASSES
 from energy.terms.registry import TERMS
 
+#: Up to this many (row, row) keys the blocked table is binned directly on the key (an array of
+#: that size, 8 bytes each); above it, the keys are sorted (np.unique).
+DIRECT_KEY_SPACE = 4_000_000
 #: Label of each solvent block (the count of residues is appended).
 BLOCK_NAMES = {"water": "Water", "ion": "Ions"}
 
@@ -94,7 +97,15 @@ def block_residue_pairs(rp: ResiduePairEnergies, classes: np.ndarray, labels) ->
             members.append(idx)
     m = len(out_labels)
     keys = ordered_pair_keys(row[rp.pair_i], row[rp.pair_j], m)
-    uniq, inverse = np.unique(keys, return_inverse=True)
+    if m * m <= DIRECT_KEY_SPACE:
+        # few rows (the usual protein in water): bin straight on the key, no sort of the pairs
+        count = np.bincount(keys, minlength=m * m)
+        uniq = np.flatnonzero(count)
+        slot = np.full(m * m, -1, np.intp)
+        slot[uniq] = np.arange(len(uniq))
+        inverse = slot[keys]
+    else:
+        uniq, inverse = np.unique(keys, return_inverse=True)
     values = {}
     for t in TERMS:
         v = np.bincount(inverse, weights=rp.values[t], minlength=len(uniq))

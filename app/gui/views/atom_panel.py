@@ -61,11 +61,12 @@ class AtomContributionsView(QWidget):
         self.back.setVisible(self.contacts is not None)
         fit_columns(self.table)
 
-    def show_solvent_contacts(self, system, contacts, caption: str) -> None:
+    def show_solvent_contacts(self, residues, contacts, caption: str) -> None:
         """The members of a solvent block that interact with one solute residue
-        (:class:`energy.decomposition.blocks.SolventContacts`)."""
+        (:class:`energy.decomposition.blocks.SolventContacts`); ``residues`` the ResidueTable
+        that names them."""
         self.contacts, self._contacts_caption = contacts, caption
-        lab = system.residues.label
+        lab = residues.label
         cols = [Column("Residue", np.array([lab(int(k)) for k in contacts.residues], dtype=object),
                        sort_key=contacts.residues),
                 Column("Total", contacts.total, "energy", "all terms of this residue with the solute residue")]
