@@ -18,6 +18,7 @@ from energy._kernels.neighbors import ResidueAtoms, residue_spheres, spatial_lay
 from energy._kernels.pair_key import ordered_pair_keys, split_keys
 from energy._kernels.pbc import is_orthorhombic, periodic_cell, perpendicular_widths
 from energy.decomposition.finiteness import check_finite
+from energy.errors import SettingsError
 from energy.decomposition.residue_pairs import BondedAttribution, ResiduePairEnergies, assemble, sorted_unique
 from energy.io.validation import check_frame
 from energy.model.cell import nonbonded_cell
@@ -26,6 +27,7 @@ from energy.model.system import Frame, MolecularSystem
 from energy.terms import registry
 from energy.terms.exclusions import exclusion_csr
 from energy.terms.nonbonded import KernelConstants, exception_energies
+from energy.terms.solvation import solvation_energies
 from energy.terms.registry import BONDED_TERMS, TERMS
 
 #: Use the SIMD path of the nonbonded kernel where it applies (Lennard-Jones); False sends every
@@ -177,6 +179,9 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
     cell = nonbonded_cell(frame.box, system.n_atoms, settings.use_periodic)
     box = cell.box
     periodic = box is not None and settings.cutoff_angstrom is not None
+    if periodic and settings.implicit_solvent is not None:
+        raise SettingsError("implicit solvent with a periodic cell and a cutoff is not supported; "
+                            "turn periodicity off (--no-periodic) or drop the cutoff")
     h = periodic_cell(box, settings.cutoff_angstrom) if periodic else np.eye(3)
     orthorhombic = is_orthorhombic(h)
     min_width = float(perpendicular_widths(h).min())
@@ -205,7 +210,7 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
     # Ordinary nonbonded pairs, residue pair by residue pair.
     res_atoms = system.derived("residue_atoms", _residue_atoms)
     excl_ptr, excl_idx = system.derived("exclusion_csr", _exclusions)
-    kc = KernelConstants.from_settings(settings)
+    kc = KernelConstants.from_settings(settings.coulomb_settings())
     blocked = (settings.cutoff_angstrom is None
                and n_res * (n_res + 1) // 2 > residue_rows.ALL_PAIRS_LISTED_LIMIT)
     spatial_order = None
@@ -241,6 +246,20 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
     totals["lj"] += rows.lj_total
     t_kernel = time.perf_counter()
 
+    # Implicit solvent: Born radii over the whole system, GB pairs per residue pair, self and
+    # nonpolar terms on the residue diagonal (energy.terms.solvation).
+    if settings.implicit_solvent is not None:
+        solv = solvation_energies(system, x, settings, res_atoms)
+        interactions["solvation"] = {"born_radius": solv.born_radius, "self_polar": solv.self_polar,
+                                     "nonpolar": solv.nonpolar}
+        contributions.append(("solvation_polar", solv.pair_i, solv.pair_j, solv.pair_polar))
+        res = np.arange(n_res)
+        contributions.append(("solvation_nonpolar", res, res,
+                              np.bincount(system.resindex, solv.nonpolar, minlength=n_res)))
+        totals["solvation_polar"] += solv.polar_total
+        totals["solvation_nonpolar"] += solv.nonpolar_total
+    t_solvation = time.perf_counter()
+
     residue_pairs = assemble(n_res, rows.pair_i, rows.pair_j, rows.row_start,
                              {"coulomb": rows.coulomb, "lj": rows.lj},
                              rows.min_heavy,
@@ -249,7 +268,8 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
     check_finite(system, frame, settings, totals, interactions, residue_pairs)
     t_end = time.perf_counter()
     timings = {"bonded": t_bonded - t0, "neighbour_search": t_search - t_bonded,
-               "nonbonded": t_kernel - t_search, "aggregate": t_end - t_kernel,
+               "nonbonded": t_kernel - t_search, "solvation": t_solvation - t_kernel,
+               "aggregate": t_end - t_solvation,
                "compute": t_end - t0, "checks": t0 - t_checks}
     return EnergyResult(settings=settings, totals=totals, interactions=interactions,
                         residue_pairs=residue_pairs, timings=timings, periodic=periodic,

@@ -1,0 +1,155 @@
+"""Compiled generalized Born kernels: effective Born radii (many-body, over the whole system)
+and the GB pair sums per residue pair.
+
+The formulas are written out in docs/physics.md ("Implicit solvent"); lengths in A, energies in
+kcal/mol.  A cutoff (``cutoff2`` finite) drops atom pairs at r >= cutoff from both the
+descreening integral and the pair sum, and shifts the pair form by 1/cutoff (OpenMM's
+convention for its CustomGBForce-based models).
+"""
+from __future__ import annotations
+
+import math
+
+import numba
+import numpy as np
+from numba import prange
+
+
+@numba.njit(cache=True, error_model="numpy", fastmath=False)
+def _integral_of_atom(i, x, rho, scaled, radius, neck_index, neck_m0, neck_d0, neck_scale, neck_cut,
+                      cutoff2):
+    """Descreening integral of atom i: the HCT pair integral over every other atom, plus the
+    GBn2 neck term when ``neck_scale`` is nonzero (1/A)."""
+    n = x.shape[0]
+    xi, yi, zi = x[i, 0], x[i, 1], x[i, 2]
+    rho_i = rho[i]
+    total = 0.0
+    for j in range(n):
+        if j == i:
+            continue
+        dx, dy, dz = x[j, 0] - xi, x[j, 1] - yi, x[j, 2] - zi
+        r2 = dx * dx + dy * dy + dz * dz
+        if r2 >= cutoff2:
+            continue
+        r = math.sqrt(r2)
+        s = scaled[j]
+        if r + s >= rho_i:
+            upper = r + s
+            lower = max(rho_i, abs(r - s))
+            inv_u, inv_l = 1.0 / upper, 1.0 / lower
+            total += 0.5 * (inv_l - inv_u + 0.25 * (r - s * s / r) * (inv_u * inv_u - inv_l * inv_l)
+                            + 0.5 * math.log(lower / upper) / r)
+        if neck_scale != 0.0 and r < radius[i] + radius[j] + neck_cut:
+            # Table entry [radius of j, radius of i] (OpenMM's getm0(radindex1, radindex2) reads
+            # its Discrete2DFunction at x = radius index of i, y = that of j, i.e. row j).
+            row, col = neck_index[j], neck_index[i]
+            d = r - neck_d0[row, col]
+            d2 = d * d
+            total += neck_scale * neck_m0[row, col] / (1.0 + d2 + 0.3 * d2 * d2 * d2)
+    return total
+
+
+@numba.njit(cache=True, parallel=True, error_model="numpy")
+def born_radii(x, rho, scaled, radius, alpha, beta, gamma, neck_index, neck_m0, neck_d0, neck_scale,
+               neck_cut, cutoff2):
+    """Effective Born radii B_i = 1 / (1/rho_i - tanh(a psi - b psi^2 + c psi^3) / R_i), psi = I_i rho_i.
+
+    Parameters
+    ----------
+    x : (n, 3) float64
+        Positions, A.
+    rho, scaled, radius : (n,) float64
+        Offset radius, screened offset radius and intrinsic radius, A.
+    alpha, beta, gamma : (n,) float64
+        tanh coefficients.
+    neck_index : (n,) int64
+        Rows of the neck tables.
+    neck_m0, neck_d0 : (k, k) float64
+        Neck maximum (1/A) and its distance (A).
+    neck_scale, neck_cut : float
+        Neck scale (0: no neck term) and the neck's reach past R_i + R_j, A.
+    cutoff2 : float
+        Squared cutoff, A^2 (inf: none).
+
+    Returns
+    -------
+    (n,) float64
+        Born radii, A.
+    """
+    n = x.shape[0]
+    out = np.empty(n)
+    for i in prange(n):
+        integral = _integral_of_atom(i, x, rho, scaled, radius, neck_index, neck_m0, neck_d0,
+                                     neck_scale, neck_cut, cutoff2)
+        psi = integral * rho[i]
+        out[i] = 1.0 / (1.0 / rho[i] - math.tanh(psi * (alpha[i] - psi * (beta[i] - psi * gamma[i])))
+                        / radius[i])
+    return out
+
+
+@numba.njit(cache=True, error_model="numpy")
+def _pair_row(res, atom_start, atom_end, x, q, born, resindex, prefactor, inv_in, inv_out, kappa,
+              cutoff2, inv_cutoff, out):
+    """GB pair sum of every atom pair (a, b), a in residue ``res``, b > a (residue order)."""
+    n = x.shape[0]
+    for a in range(atom_start, atom_end):
+        xa, ya, za, qa, ba = x[a, 0], x[a, 1], x[a, 2], q[a], born[a]
+        if qa == 0.0:
+            continue
+        for b in range(a + 1, n):
+            dx, dy, dz = x[b, 0] - xa, x[b, 1] - ya, x[b, 2] - za
+            r2 = dx * dx + dy * dy + dz * dz
+            if r2 >= cutoff2:
+                continue
+            bb = ba * born[b]
+            f = math.sqrt(r2 + bb * math.exp(-r2 / (4.0 * bb)))
+            screen = inv_in - math.exp(-kappa * f) * inv_out
+            out[res, resindex[b]] += prefactor * screen * qa * q[b] * (1.0 / f - inv_cutoff)
+
+
+@numba.njit(cache=True, parallel=True, error_model="numpy")
+def gb_pair_table(x, q, born, resindex, res_start, res_end, row_order, coulomb_constant, eps_in,
+                  eps_out, kappa, cutoff2, inv_cutoff):
+    """Residue-pair sums of the GB pair term, -k (1/eps_in - exp(-kappa f)/eps_out) q_a q_b (1/f - 1/r_c).
+
+    Atoms must be in residue order (residue r's atoms are rows ``res_start[r]:res_end[r]``).
+
+    Parameters
+    ----------
+    x : (n, 3) float64
+        Positions, A (residue order).
+    q : (n,) float64
+        Charges, e.
+    born : (n,) float64
+        Born radii, A.
+    resindex : (n,) int64
+        Residue of each row.
+    res_start, res_end : (n_res,) int64
+        Atom rows of each residue.
+    row_order : (n_res,) int64
+        The order the residue rows are dealt to threads (balanced: long rows with short ones).
+    coulomb_constant : float
+        k, kcal/mol A / e^2.
+    eps_in, eps_out : float
+        Solute and solvent dielectrics.
+    kappa : float
+        Debye-Hueckel screening, 1/A.
+    cutoff2 : float
+        Squared cutoff, A^2 (inf: none).
+    inv_cutoff : float
+        1 / cutoff, 1/A (0 without a cutoff).
+
+    Returns
+    -------
+    (n_res, n_res) float64
+        Entry (I, J), I <= J: the pair term summed over the atom pairs of residues I and J, kcal/mol
+        (zero below the diagonal).
+    """
+    n_res = res_start.shape[0]
+    out = np.zeros((n_res, n_res))
+    inv_in, inv_out = 1.0 / eps_in, 1.0 / eps_out
+    for k in prange(n_res):
+        res = row_order[k]
+        _pair_row(res, res_start[res], res_end[res], x, q, born, resindex, -coulomb_constant, inv_in,
+                  inv_out, kappa, cutoff2, inv_cutoff, out)
+    return out
