@@ -108,7 +108,7 @@ def ace_energies(radius: np.ndarray, born: np.ndarray) -> np.ndarray:
 
 
 def solvation_energies(system: MolecularSystem, positions: np.ndarray, settings: EnergySettings,
-                       residue_order) -> SolvationResult:
+                       residue_order, params: BornParameters | None = None) -> SolvationResult:
     """Born radii, self terms, residue-pair GB sums and the nonpolar term of one frame.
 
     Parameters
@@ -121,13 +121,16 @@ def solvation_energies(system: MolecularSystem, positions: np.ndarray, settings:
         ``implicit_solvent`` set; dielectrics, salt, cutoff, ``nonpolar``.
     residue_order : ResidueAtoms
         The atoms of each residue together (``atoms``, ``ptr``), from the pipeline.
+    params : BornParameters or None, optional
+        The GB parameters to use (None: :func:`~energy.terms.born_parameters.born_parameters`
+        of the system for ``settings.implicit_solvent``; a topology's own radii otherwise).
 
     Returns
     -------
     SolvationResult
         Per-atom and per-residue-pair energies, kcal/mol.
     """
-    params = born_parameters(system, settings.implicit_solvent)
+    params = params if params is not None else born_parameters(system, settings.implicit_solvent)
     rc = settings.cutoff_angstrom
     born = compute_born_radii(params, positions, rc)
     self_polar = self_energies(system.charges, born, settings)
