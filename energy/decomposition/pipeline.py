@@ -18,8 +18,8 @@ from energy._kernels.neighbors import ResidueAtoms, residue_spheres, spatial_lay
 from energy._kernels.pair_key import ordered_pair_keys, split_keys
 from energy._kernels.pbc import is_orthorhombic, periodic_cell, perpendicular_widths
 from energy.decomposition.finiteness import check_finite
-from energy.errors import SettingsError
 from energy.decomposition.residue_pairs import BondedAttribution, ResiduePairEnergies, assemble, sorted_unique
+from energy.errors import SettingsError
 from energy.io.validation import check_frame
 from energy.model.cell import nonbonded_cell
 from energy.model.settings import EnergySettings
@@ -27,8 +27,8 @@ from energy.model.system import Frame, MolecularSystem
 from energy.terms import registry
 from energy.terms.exclusions import exclusion_csr
 from energy.terms.nonbonded import KernelConstants, exception_energies
-from energy.terms.solvation import solvation_energies
 from energy.terms.registry import BONDED_TERMS, TERMS
+from energy.terms.solvation import solvation_energies
 
 #: Use the SIMD path of the nonbonded kernel where it applies (Lennard-Jones); False sends every
 #: residue pair through the atom-pair-by-atom-pair path (tests compare the two).
