@@ -19,7 +19,6 @@ from energy._kernels.pair_key import ordered_pair_keys, split_keys
 from energy._kernels.pbc import is_orthorhombic, periodic_cell, perpendicular_widths
 from energy.decomposition.finiteness import check_finite
 from energy.decomposition.residue_pairs import BondedAttribution, ResiduePairEnergies, assemble, sorted_unique
-from energy.errors import SettingsError
 from energy.io.validation import check_frame
 from energy.model.cell import nonbonded_cell
 from energy.model.settings import EnergySettings
@@ -176,12 +175,11 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
     t0 = time.perf_counter()
     x = frame.positions
     n_res = system.n_residues
-    cell = nonbonded_cell(frame.box, system.n_atoms, settings.use_periodic)
+    # Implicit solvent is a non-periodic model (OpenMM's CutoffNonPeriodic convention): no cell.
+    cell = nonbonded_cell(frame.box, system.n_atoms,
+                          settings.use_periodic and settings.implicit_solvent is None)
     box = cell.box
     periodic = box is not None and settings.cutoff_angstrom is not None
-    if periodic and settings.implicit_solvent is not None:
-        raise SettingsError("implicit solvent with a periodic cell and a cutoff is not supported; "
-                            "turn periodicity off (--no-periodic) or drop the cutoff")
     h = periodic_cell(box, settings.cutoff_angstrom) if periodic else np.eye(3)
     orthorhombic = is_orthorhombic(h)
     min_width = float(perpendicular_widths(h).min())
