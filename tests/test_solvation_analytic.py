@@ -90,8 +90,9 @@ def _numpy_obc2(x, q, radius, screen, resindex, n_res, kappa, cutoff):
         r, sj = d[ok], s[ok]
         upper = r + sj
         lower = np.maximum(rho[i], np.abs(r - sj))
-        integral = np.sum(0.5 * (1 / lower - 1 / upper + (r / 4) * (1 / upper ** 2 - 1 / lower ** 2)
-                                 + np.log(lower / upper) / (2 * r) + (sj ** 2 / (4 * r)) * (1 / lower ** 2 - 1 / upper ** 2)))
+        inv_u2, inv_l2 = 1 / upper ** 2, 1 / lower ** 2
+        integral = np.sum(0.5 * (1 / lower - 1 / upper + (r / 4) * (inv_u2 - inv_l2)
+                                 + np.log(lower / upper) / (2 * r) + (sj ** 2 / (4 * r)) * (inv_l2 - inv_u2)))
         psi = integral * rho[i]
         born[i] = 1.0 / (1.0 / rho[i] - np.tanh(psi - 0.8 * psi ** 2 + 4.85 * psi ** 3) / radius[i])
     table = np.zeros((n_res, n_res))

@@ -14,6 +14,7 @@ import numpy as np
 
 from energy._kernels.born import born_radii, gb_pair_table
 from energy._kernels.csr import interleaved_rows
+from energy.errors import SettingsError
 from energy.model.settings import EnergySettings
 from energy.model.system import MolecularSystem
 from energy.terms.born_parameters import GBN2_NECK_CUT, BornParameters, born_parameters
@@ -23,6 +24,8 @@ from energy.units import COULOMB_CONSTANT
 #: the solvent probe radius, A (Schaefer, Bartels & Karplus 1998, in OpenMM's form).
 ACE_SURFACE_TENSION = 0.0054
 ACE_PROBE_RADIUS = 1.4
+#: The GB pair sums are gathered in a dense residue table (8 n^2 bytes): at most this many residues.
+MAX_RESIDUES = 6000
 
 
 @dataclass(frozen=True)
@@ -129,7 +132,15 @@ def solvation_energies(system: MolecularSystem, positions: np.ndarray, settings:
     -------
     SolvationResult
         Per-atom and per-residue-pair energies, kcal/mol.
+
+    Raises
+    ------
+    SettingsError
+        If the system has more than :data:`MAX_RESIDUES` residues.
     """
+    if system.n_residues > MAX_RESIDUES:
+        raise SettingsError(f"implicit solvent is limited to {MAX_RESIDUES} residues (this system has "
+                            f"{system.n_residues}); remove explicit water and ions first")
     params = params if params is not None else born_parameters(system, settings.implicit_solvent)
     rc = settings.cutoff_angstrom
     born = compute_born_radii(params, positions, rc)
