@@ -15,37 +15,51 @@ import numpy as np
 from numba import prange
 
 
-@numba.njit(cache=True, error_model="numpy", fastmath=False)
-def _integral_of_atom(i, x, rho, scaled, radius, neck_index, neck_m0, neck_d0, neck_scale, neck_cut,
-                      cutoff2):
-    """Descreening integral of atom i: the HCT pair integral over every other atom, plus the
-    GBn2 neck term when ``neck_scale`` is nonzero (1/A)."""
+@numba.njit(cache=True, error_model="numpy")
+def _hct_sum(i, x, rho, scaled, cutoff2):
+    """Sum over j != i of the HCT descreening integral of atom i by atom j (1/A), branch-free:
+    pairs that do not count (j = i, beyond the cutoff, j's sphere not reaching i) are evaluated
+    at a harmless stand-in distance and selected away."""
     n = x.shape[0]
     xi, yi, zi = x[i, 0], x[i, 1], x[i, 2]
     rho_i = rho[i]
     total = 0.0
     for j in range(n):
-        if j == i:
-            continue
         dx, dy, dz = x[j, 0] - xi, x[j, 1] - yi, x[j, 2] - zi
         r2 = dx * dx + dy * dy + dz * dz
-        if r2 >= cutoff2:
-            continue
-        r = math.sqrt(r2)
         s = scaled[j]
-        if r + s >= rho_i:
-            upper = r + s
-            lower = max(rho_i, abs(r - s))
-            inv_u, inv_l = 1.0 / upper, 1.0 / lower
-            total += 0.5 * (inv_l - inv_u + 0.25 * (r - s * s / r) * (inv_u * inv_u - inv_l * inv_l)
-                            + 0.5 * math.log(lower / upper) / r)
-        if neck_scale != 0.0 and r < radius[i] + radius[j] + neck_cut:
-            # Table entry [radius of j, radius of i] (OpenMM's getm0(radindex1, radindex2) reads
-            # its Discrete2DFunction at x = radius index of i, y = that of j, i.e. row j).
-            row, col = neck_index[j], neck_index[i]
-            d = r - neck_d0[row, col]
-            d2 = d * d
-            total += neck_scale * neck_m0[row, col] / (1.0 + d2 + 0.3 * d2 * d2 * d2)
+        r_true = math.sqrt(r2)
+        ok = (j != i) & (r2 < cutoff2) & (r_true + s >= rho_i)
+        r = r_true if ok else rho_i + s + 1.0
+        upper = r + s
+        d = abs(r - s)
+        lower = d if d > rho_i else rho_i
+        inv_u, inv_l, inv_r = 1.0 / upper, 1.0 / lower, 1.0 / r
+        term = 0.5 * (inv_l - inv_u + 0.25 * (r - s * s * inv_r) * (inv_u * inv_u - inv_l * inv_l)
+                      + 0.5 * math.log(lower * inv_u) * inv_r)
+        total += term if ok else 0.0
+    return total
+
+
+@numba.njit(cache=True, error_model="numpy")
+def _neck_sum(i, x, radius, neck_index, neck_m0, neck_d0, neck_cut, cutoff2):
+    """Sum over j != i of the GBn2 neck term (1/A, before the neck scale)."""
+    n = x.shape[0]
+    xi, yi, zi = x[i, 0], x[i, 1], x[i, 2]
+    total = 0.0
+    col = neck_index[i]
+    for j in range(n):
+        dx, dy, dz = x[j, 0] - xi, x[j, 1] - yi, x[j, 2] - zi
+        r2 = dx * dx + dy * dy + dz * dz
+        reach = radius[i] + radius[j] + neck_cut
+        if j == i or r2 >= cutoff2 or r2 >= reach * reach:
+            continue
+        # Table entry [radius of j, radius of i] (OpenMM's getm0(radindex1, radindex2) reads
+        # its Discrete2DFunction at x = radius index of i, y = that of j, i.e. row j).
+        row = neck_index[j]
+        d = math.sqrt(r2) - neck_d0[row, col]
+        d2 = d * d
+        total += neck_m0[row, col] / (1.0 + d2 + 0.3 * d2 * d2 * d2)
     return total
 
 
@@ -79,8 +93,9 @@ def born_radii(x, rho, scaled, radius, alpha, beta, gamma, neck_index, neck_m0, 
     n = x.shape[0]
     out = np.empty(n)
     for i in prange(n):
-        integral = _integral_of_atom(i, x, rho, scaled, radius, neck_index, neck_m0, neck_d0,
-                                     neck_scale, neck_cut, cutoff2)
+        integral = _hct_sum(i, x, rho, scaled, cutoff2)
+        if neck_scale != 0.0:
+            integral += neck_scale * _neck_sum(i, x, radius, neck_index, neck_m0, neck_d0, neck_cut, cutoff2)
         psi = integral * rho[i]
         out[i] = 1.0 / (1.0 / rho[i] - math.tanh(psi * (alpha[i] - psi * (beta[i] - psi * gamma[i])))
                         / radius[i])
@@ -88,27 +103,40 @@ def born_radii(x, rho, scaled, radius, alpha, beta, gamma, neck_index, neck_m0, 
 
 
 @numba.njit(cache=True, error_model="numpy")
-def _pair_row(res, atom_start, atom_end, x, q, born, resindex, prefactor, inv_in, inv_out, kappa,
-              cutoff2, inv_cutoff, out):
-    """GB pair sum of every atom pair (a, b), a in residue ``res``, b > a (residue order)."""
-    n = x.shape[0]
-    for a in range(atom_start, atom_end):
+def _pair_row(res, res_start, res_end, x, q, born, prefactor, inv_in, inv_out, kappa, cutoff2,
+              inv_cutoff, out):
+    """GB pair sum of every atom pair (a, b), a in residue ``res``, b > a (residue order), summed
+    per partner residue (a contiguous run of b: no scattered writes in the inner loop)."""
+    n_res = res_start.shape[0]
+    screen0 = inv_in - inv_out
+    for a in range(res_start[res], res_end[res]):
         xa, ya, za, qa, ba = x[a, 0], x[a, 1], x[a, 2], q[a], born[a]
         if qa == 0.0:
             continue
-        for b in range(a + 1, n):
-            dx, dy, dz = x[b, 0] - xa, x[b, 1] - ya, x[b, 2] - za
-            r2 = dx * dx + dy * dy + dz * dz
-            if r2 >= cutoff2:
-                continue
-            bb = ba * born[b]
-            f = math.sqrt(r2 + bb * math.exp(-r2 / (4.0 * bb)))
-            screen = inv_in - math.exp(-kappa * f) * inv_out
-            out[res, resindex[b]] += prefactor * screen * qa * q[b] * (1.0 / f - inv_cutoff)
+        for partner in range(res, n_res):
+            lo = a + 1 if partner == res else res_start[partner]
+            acc = 0.0
+            if kappa == 0.0:
+                for b in range(lo, res_end[partner]):
+                    dx, dy, dz = x[b, 0] - xa, x[b, 1] - ya, x[b, 2] - za
+                    r2 = dx * dx + dy * dy + dz * dz
+                    bb = ba * born[b]
+                    f = math.sqrt(r2 + bb * math.exp(-r2 / (4.0 * bb)))
+                    e = screen0 * q[b] * (1.0 / f - inv_cutoff)
+                    acc += e if r2 < cutoff2 else 0.0
+            else:
+                for b in range(lo, res_end[partner]):
+                    dx, dy, dz = x[b, 0] - xa, x[b, 1] - ya, x[b, 2] - za
+                    r2 = dx * dx + dy * dy + dz * dz
+                    bb = ba * born[b]
+                    f = math.sqrt(r2 + bb * math.exp(-r2 / (4.0 * bb)))
+                    e = (inv_in - math.exp(-kappa * f) * inv_out) * q[b] * (1.0 / f - inv_cutoff)
+                    acc += e if r2 < cutoff2 else 0.0
+            out[res, partner] += prefactor * qa * acc
 
 
 @numba.njit(cache=True, parallel=True, error_model="numpy")
-def gb_pair_table(x, q, born, resindex, res_start, res_end, row_order, coulomb_constant, eps_in,
+def gb_pair_table(x, q, born, res_start, res_end, row_order, coulomb_constant, eps_in,
                   eps_out, kappa, cutoff2, inv_cutoff):
     """Residue-pair sums of the GB pair term, -k (1/eps_in - exp(-kappa f)/eps_out) q_a q_b (1/f - 1/r_c).
 
@@ -122,8 +150,6 @@ def gb_pair_table(x, q, born, resindex, res_start, res_end, row_order, coulomb_c
         Charges, e.
     born : (n,) float64
         Born radii, A.
-    resindex : (n,) int64
-        Residue of each row.
     res_start, res_end : (n_res,) int64
         Atom rows of each residue.
     row_order : (n_res,) int64
@@ -150,6 +176,6 @@ def gb_pair_table(x, q, born, resindex, res_start, res_end, row_order, coulomb_c
     inv_in, inv_out = 1.0 / eps_in, 1.0 / eps_out
     for k in prange(n_res):
         res = row_order[k]
-        _pair_row(res, res_start[res], res_end[res], x, q, born, resindex, -coulomb_constant, inv_in,
-                  inv_out, kappa, cutoff2, inv_cutoff, out)
+        _pair_row(res, res_start, res_end, x, q, born, -coulomb_constant, inv_in, inv_out, kappa,
+                  cutoff2, inv_cutoff, out)
     return out

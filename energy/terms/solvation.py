@@ -151,7 +151,6 @@ def solvation_energies(system: MolecularSystem, positions: np.ndarray, settings:
     table = gb_pair_table(np.ascontiguousarray(positions[order], np.float64),
                           np.ascontiguousarray(system.charges[order], np.float64),
                           np.ascontiguousarray(born[order]),
-                          np.ascontiguousarray(system.resindex[order], np.int64),
                           np.ascontiguousarray(residue_order.ptr[:-1], np.int64),
                           np.ascontiguousarray(residue_order.ptr[1:], np.int64),
                           np.ascontiguousarray(interleaved_rows(0, n_res), np.int64),
