@@ -65,7 +65,8 @@ def compute_born_radii(params: BornParameters, positions: np.ndarray, cutoff_ang
         Born radii, A.
     """
     cutoff2 = math.inf if cutoff_angstrom is None else cutoff_angstrom ** 2
-    return born_radii(np.ascontiguousarray(positions, np.float64), params.rho, params.scaled_rho,
+    # a writable C-contiguous copy: one compiled signature whatever the frame's array flags
+    return born_radii(np.array(positions, dtype=np.float64, order="C"), params.rho, params.scaled_rho,
                       params.radius, params.alpha, params.beta, params.gamma, params.neck_index,
                       params.neck_m0, params.neck_d0, params.neck_scale, GBN2_NECK_CUT, cutoff2)
 
