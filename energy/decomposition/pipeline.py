@@ -41,7 +41,9 @@ class EnergyResult:
 
     ``totals``: term -> kcal/mol (all of :data:`TERMS` plus ``total``).
     ``interactions``: system attribute (``bonds``, ``angles``, ..., ``exceptions``) -> (n,) energies
-      aligned with that table's rows; for ``exceptions`` a dict with ``coulomb``, ``lj``, ``distance``.
+      aligned with that table's rows; for ``exceptions`` a dict with ``coulomb``, ``lj``, ``distance``;
+      with implicit solvent ``solvation``: per-atom ``born_radius`` (A), ``self_polar`` and
+      ``nonpolar`` (kcal/mol) (energy.terms.solvation).
     ``residue_pairs``: the sparse decomposition.  ``timings``: seconds per phase (``compute``: the
     terms and the decomposition; ``checks``: the geometry checks before them, not included).
     """

@@ -13,7 +13,9 @@ live views of the names in report order (bonded first).
 Adding a bonded term (DEVELOPERS.md, "Adding an energy term"): write its energy function in a
 module of :mod:`energy.terms`, then :func:`register` a :class:`Term` whose table the loaders
 fill (``MolecularSystem(..., other_tables={attr: TermTable(...)})``).  A nonbonded term also
-needs the residue-row kernel to produce it, so it is not added through the registry alone.
+needs the residue-row kernel (or, like the implicit-solvent terms, its own module called by the
+pipeline: :mod:`energy.terms.solvation`) to produce it, so it is not added through the registry
+alone.
 """
 from __future__ import annotations
 
