@@ -61,6 +61,8 @@ def prepare_kernels(settings: EnergySettings | None = None) -> None:
     plain = None
     if "none" in todo:
         plain = compute(system, frame, EnergySettings())
+        # implicit solvent: the Born-radius and GB pair kernels (one signature for every model)
+        compute(system, frame, EnergySettings(implicit_solvent="obc2"))
     if "cutoff" in todo:
         compute(system, frame, EnergySettings(cutoff_angstrom=10.0, electrostatics="reaction-field",
                                               switch_angstrom=8.0))

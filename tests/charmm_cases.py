@@ -93,11 +93,15 @@ def invent_parameters(psf, positions, seed: int = 7, type_names=None) -> CharmmP
 
 
 def openmm_energies(psf_path, param_paths, positions_angstrom, *, cutoff=None, periodic=False,
-                    rf_dielectric=78.5, box=None):
+                    rf_dielectric=78.5, box=None, implicit_solvent=None, kappa_per_nm=0.0):
     """Per-term energies (kcal/mol) computed by OpenMM's own CHARMM reader.
 
     Each force gets its own group; Coulomb and LJ are separated by evaluating copies of the
     nonbonded forces with all LJ switched off (Coulomb) and with all charges zeroed (LJ).
+    ``implicit_solvent``: None or OpenMM's ``app.OBC2`` / ``app.GBn2`` (``createSystem``'s
+    ``implicitSolvent``, with ``implicitSolventKappa=kappa_per_nm``, ACE on); the CustomGBForce
+    is split into ``solvation_polar`` and ``solvation_nonpolar`` by a second system built with
+    ``sasaMethod=None``.  Without it both are 0.
     """
     import openmm
     from openmm import app, unit
@@ -109,12 +113,15 @@ def openmm_energies(psf_path, param_paths, positions_angstrom, *, cutoff=None, p
     method = app.NoCutoff if cutoff is None else (app.CutoffPeriodic if periodic
                                                    else app.CutoffNonPeriodic)
     kwargs = {} if cutoff is None else {"nonbondedCutoff": cutoff / 10.0 * unit.nanometer}
-    system = psf.createSystem(params, nonbondedMethod=method, constraints=None, **kwargs)
+    if implicit_solvent is not None:
+        kwargs.update(implicitSolvent=implicit_solvent, implicitSolventKappa=kappa_per_nm / unit.nanometer)
+    ace = {"sasaMethod": "ACE"} if implicit_solvent is not None else {}
+    system = psf.createSystem(params, nonbondedMethod=method, constraints=None, **ace, **kwargs)
     bond_pairs = {tuple(sorted((b.atom1.idx, b.atom2.idx))) for b in psf.bond_list}
     groups = {}
     for index, force in enumerate(system.getForces()):
         force.setForceGroup(index)
-        if isinstance(force, openmm.NonbondedForce):
+        if isinstance(force, openmm.NonbondedForce) and implicit_solvent is None:
             force.setReactionFieldDielectric(rf_dielectric)
         if isinstance(force, openmm.HarmonicBondForce):
             pairs = {tuple(sorted(force.getBondParameters(k)[:2])) for k in range(force.getNumBonds())}
@@ -123,7 +130,7 @@ def openmm_energies(psf_path, param_paths, positions_angstrom, *, cutoff=None, p
             kind = {openmm.HarmonicAngleForce: "angle", openmm.PeriodicTorsionForce: "dihedral",
                     openmm.CustomTorsionForce: "improper", openmm.CMAPTorsionForce: "cmap",
                     openmm.NonbondedForce: "nonbonded", openmm.CustomNonbondedForce: "nonbonded",
-                    openmm.CMMotionRemover: None}[type(force)]
+                    openmm.CustomGBForce: "gb", openmm.CMMotionRemover: None}[type(force)]
         if kind is not None:
             groups.setdefault(kind, set()).add(index)
     pos = np.asarray(positions_angstrom, float) / 10.0
@@ -139,13 +146,23 @@ def openmm_energies(psf_path, param_paths, positions_angstrom, *, cutoff=None, p
         state = context.getState(getEnergy=True, groups=set(group_set))
         return state.getPotentialEnergy().value_in_unit(unit.kilojoule_per_mole) * KCAL_PER_KJ
 
-    out = {kind: energy(system, g) for kind, g in groups.items() if kind != "nonbonded"}
+    out = {kind: energy(system, g) for kind, g in groups.items() if kind not in ("nonbonded", "gb")}
+    out["solvation_polar"] = out["solvation_nonpolar"] = 0.0
+    if implicit_solvent is not None:
+        with_ace = energy(system, groups["gb"])
+        polar_only = psf.createSystem(params, nonbondedMethod=method, constraints=None, sasaMethod=None, **kwargs)
+        gb_index = next(k for k, f in enumerate(polar_only.getForces()) if isinstance(f, openmm.CustomGBForce))
+        polar_only.getForce(gb_index).setForceGroup(gb_index)
+        for k, f in enumerate(polar_only.getForces()):
+            f.setForceGroup(k)
+        out["solvation_polar"] = energy(polar_only, {gb_index})
+        out["solvation_nonpolar"] = with_ace - out["solvation_polar"]
     for kind in ("bond", "urey_bradley", "angle", "dihedral", "improper", "cmap"):
         out.setdefault(kind, 0.0)
     out["coulomb"] = energy(_nonbonded_copy(system, keep="charge"), groups["nonbonded"])
     out["lj"] = energy(_nonbonded_copy(system, keep="lj"), groups["nonbonded"])
     out["total"] = sum(out[k] for k in ("bond", "urey_bradley", "angle", "dihedral", "improper",
-                                        "cmap", "coulomb", "lj"))
+                                        "cmap", "coulomb", "lj", "solvation_polar", "solvation_nonpolar"))
     return out
 
 

@@ -53,7 +53,7 @@ def test_peptide_matches_openmm(peptide, cutoff):
                           rf_dielectric=settings.solvent_dielectric)
     assert_terms_agree(ours, ref, f"probe peptide, cutoff {cutoff}")
     # every term of the sample is exercised (a zero here would make the check vacuous)
-    assert all(abs(ref[t]) > 1e-2 for t in TERMS), ref
+    assert all(abs(ref[t]) > 1e-2 for t in TERMS if not t.startswith("solvation")), ref
 
 
 def test_peptide_periodic_box_matches_openmm(peptide):
@@ -121,4 +121,5 @@ def test_adk_invented_parameters_match_openmm(adk, cutoff):
     ref = openmm_energies(psf_path, param_files, frame.positions, cutoff=cutoff,
                           rf_dielectric=settings.solvent_dielectric)
     assert_terms_agree(ours, ref, f"adk with invented parameters, cutoff {cutoff}")
-    assert all(abs(ref[t]) > 1e-2 for t in TERMS if t != "cmap"), ref  # adk.psf has no CMAP
+    assert all(abs(ref[t]) > 1e-2 for t in TERMS
+               if t != "cmap" and not t.startswith("solvation")), ref  # adk.psf has no CMAP

@@ -47,12 +47,12 @@ def test_registered_term_is_listed_after_the_bonded_terms_and_removed_again():
     assert NAME not in TERMS
     with toy_term_registered():
         assert TERMS[:7] == ("bond", "urey_bradley", "angle", "dihedral", "improper", "cmap", NAME)
-        assert NAME in BONDED_TERMS and TERMS[-2:] == ("coulomb", "lj")
+        assert NAME in BONDED_TERMS and TERMS[-4:] == ("coulomb", "lj", "solvation_polar", "solvation_nonpolar")
         assert registry.short_label(NAME) == "restr"
         assert "restraint" in registry.map_quantities()
         with pytest.raises(ValueError, match="already registered"):
             registry.register(registry.term(NAME))
-    assert NAME not in TERMS and len(TERMS) == 8
+    assert NAME not in TERMS and len(TERMS) == 10
 
 
 def test_toy_term_in_totals_and_residue_pairs(toy_result):

@@ -6,7 +6,7 @@ import os
 import sys
 
 from energy.errors import EnergyError
-from energy.model.settings import EXP6_ALPHA_MATCHING_LJ, EnergySettings
+from energy.model.settings import EXP6_ALPHA_MATCHING_LJ, IMPLICIT_SOLVENT_MODELS, NONPOLAR_MODELS, EnergySettings
 
 #: Residue pairs above which ``--json`` warns that the file gets large (about 200 bytes a pair in
 #: JSON) and points to ``--out``.
@@ -62,10 +62,23 @@ def add_settings_arguments(p: argparse.ArgumentParser) -> None:
                         "minimum per pair")
     p.add_argument("--exp6-alpha", type=float, default=None, metavar="ALPHA",
                    help="exp-6 steepness (default 13.772, matching the LJ curvature at the minimum)")
-    p.add_argument("--dielectric", type=float, default=1.0,
-                   help="relative dielectric (plain), or D in eps = D*r (distance-dependent)")
+    p.add_argument("--dielectric", "--solute-dielectric", dest="dielectric", type=float, default=1.0,
+                   help="relative dielectric (plain; the solute's with --implicit-solvent), or D in "
+                        "eps = D*r (distance-dependent)")
     p.add_argument("--solvent-dielectric", type=float, default=78.5,
-                   help="dielectric beyond the cutoff for the reaction field (default 78.5)")
+                   help="solvent dielectric: of the reaction field beyond the cutoff, or of the "
+                        "implicit solvent (default 78.5)")
+    g = p.add_argument_group("implicit solvent (generalized Born, docs/physics.md)")
+    g.add_argument("--implicit-solvent", choices=IMPLICIT_SOLVENT_MODELS, default=None,
+                   help="add polar solvation by generalized Born: obc2 (Onufriev-Bashford-Case II) or "
+                        "gbn2 (Nguyen-Roe-Simmerling); Coulomb then uses the solute dielectric")
+    g.add_argument("--salt", type=float, default=0.0, metavar="MOLAR",
+                   help="ionic strength of the implicit solvent in mol/L (Debye-Hueckel screening; default 0)")
+    g.add_argument("--salt-temperature", type=float, default=298.15, metavar="K",
+                   help="temperature of the Debye length, K (default 298.15)")
+    g.add_argument("--nonpolar", choices=NONPOLAR_MODELS, default="ace",
+                   help="nonpolar solvation with --implicit-solvent: ace (surface-area-like term from "
+                        "the Born radii, default) or none")
     p.add_argument("--no-periodic", action="store_true",
                    help="ignore the unit cell (no minimum image)")
 
@@ -75,7 +88,11 @@ def settings_from_args(args):
     return EnergySettings(cutoff_angstrom=args.cutoff, switch_angstrom=args.switch,
                           electrostatics=args.electrostatics, dielectric=args.dielectric,
                           solvent_dielectric=args.solvent_dielectric,
-                          use_periodic=not args.no_periodic, vdw=args.vdw, exp6_alpha=alpha)
+                          use_periodic=not args.no_periodic, vdw=args.vdw, exp6_alpha=alpha,
+                          implicit_solvent=getattr(args, "implicit_solvent", None),
+                          salt_molar=getattr(args, "salt", 0.0),
+                          temperature_kelvin=getattr(args, "salt_temperature", 298.15),
+                          nonpolar=getattr(args, "nonpolar", "ace"))
 
 
 def add_result_file_argument(p: argparse.ArgumentParser) -> None:

@@ -27,6 +27,7 @@ from energy.terms import registry
 from energy.terms.exclusions import exclusion_csr
 from energy.terms.nonbonded import KernelConstants, exception_energies
 from energy.terms.registry import BONDED_TERMS, TERMS
+from energy.terms.solvation import solvation_energies
 
 #: Use the SIMD path of the nonbonded kernel where it applies (Lennard-Jones); False sends every
 #: residue pair through the atom-pair-by-atom-pair path (tests compare the two).
@@ -40,7 +41,9 @@ class EnergyResult:
 
     ``totals``: term -> kcal/mol (all of :data:`TERMS` plus ``total``).
     ``interactions``: system attribute (``bonds``, ``angles``, ..., ``exceptions``) -> (n,) energies
-      aligned with that table's rows; for ``exceptions`` a dict with ``coulomb``, ``lj``, ``distance``.
+      aligned with that table's rows; for ``exceptions`` a dict with ``coulomb``, ``lj``, ``distance``;
+      with implicit solvent ``solvation``: per-atom ``born_radius`` (A), ``self_polar`` and
+      ``nonpolar`` (kcal/mol) (energy.terms.solvation).
     ``residue_pairs``: the sparse decomposition.  ``timings``: seconds per phase (``compute``: the
     terms and the decomposition; ``checks``: the geometry checks before them, not included).
     """
@@ -174,7 +177,9 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
     t0 = time.perf_counter()
     x = frame.positions
     n_res = system.n_residues
-    cell = nonbonded_cell(frame.box, system.n_atoms, settings.use_periodic)
+    # Implicit solvent is a non-periodic model (OpenMM's CutoffNonPeriodic convention): no cell.
+    cell = nonbonded_cell(frame.box, system.n_atoms,
+                          settings.use_periodic and settings.implicit_solvent is None)
     box = cell.box
     periodic = box is not None and settings.cutoff_angstrom is not None
     h = periodic_cell(box, settings.cutoff_angstrom) if periodic else np.eye(3)
@@ -205,7 +210,7 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
     # Ordinary nonbonded pairs, residue pair by residue pair.
     res_atoms = system.derived("residue_atoms", _residue_atoms)
     excl_ptr, excl_idx = system.derived("exclusion_csr", _exclusions)
-    kc = KernelConstants.from_settings(settings)
+    kc = KernelConstants.from_settings(settings.coulomb_settings())
     blocked = (settings.cutoff_angstrom is None
                and n_res * (n_res + 1) // 2 > residue_rows.ALL_PAIRS_LISTED_LIMIT)
     spatial_order = None
@@ -241,6 +246,20 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
     totals["lj"] += rows.lj_total
     t_kernel = time.perf_counter()
 
+    # Implicit solvent: Born radii over the whole system, GB pairs per residue pair, self and
+    # nonpolar terms on the residue diagonal (energy.terms.solvation).
+    if settings.implicit_solvent is not None:
+        solv = solvation_energies(system, x, settings, res_atoms)
+        interactions["solvation"] = {"born_radius": solv.born_radius, "self_polar": solv.self_polar,
+                                     "nonpolar": solv.nonpolar}
+        contributions.append(("solvation_polar", solv.pair_i, solv.pair_j, solv.pair_polar))
+        res = np.arange(n_res)
+        contributions.append(("solvation_nonpolar", res, res,
+                              np.bincount(system.resindex, solv.nonpolar, minlength=n_res)))
+        totals["solvation_polar"] += solv.polar_total
+        totals["solvation_nonpolar"] += solv.nonpolar_total
+    t_solvation = time.perf_counter()
+
     residue_pairs = assemble(n_res, rows.pair_i, rows.pair_j, rows.row_start,
                              {"coulomb": rows.coulomb, "lj": rows.lj},
                              rows.min_heavy,
@@ -249,7 +268,8 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
     check_finite(system, frame, settings, totals, interactions, residue_pairs)
     t_end = time.perf_counter()
     timings = {"bonded": t_bonded - t0, "neighbour_search": t_search - t_bonded,
-               "nonbonded": t_kernel - t_search, "aggregate": t_end - t_kernel,
+               "nonbonded": t_kernel - t_search, "solvation": t_solvation - t_kernel,
+               "aggregate": t_end - t_solvation,
                "compute": t_end - t0, "checks": t0 - t_checks}
     return EnergyResult(settings=settings, totals=totals, interactions=interactions,
                         residue_pairs=residue_pairs, timings=timings, periodic=periodic,

@@ -19,7 +19,7 @@ import scipy.sparse as sp
 from energy._kernels.csr import PAIR_INDEX, accumulate, locate_pairs, zeros_in_parallel
 from energy._kernels.pair_key import pair_keys, split_keys  # noqa: F401 (pair_keys: public here)
 from energy.terms import registry
-from energy.terms.registry import BONDED_TERMS, TERMS
+from energy.terms.registry import BONDED_TERMS, DERIVED_SUMS, TERMS
 
 
 def split_over_residue_pairs(atoms: np.ndarray, energies: np.ndarray, resindex: np.ndarray):
@@ -137,7 +137,8 @@ class ResiduePairEnergies:
         Parameters
         ----------
         quantity : str
-            A term name (``values`` key), ``total``, ``bonded`` or ``nonbonded`` (Coulomb + LJ).
+            A term name (``values`` key), ``total``, ``bonded``, ``nonbonded`` (Coulomb + LJ) or
+            ``effective_electrostatics`` (Coulomb + polar solvation).
 
         Returns
         -------
@@ -153,8 +154,9 @@ class ResiduePairEnergies:
             return self.total
         if quantity == "bonded":
             return sum(self.values[t] for t in BONDED_TERMS)
-        if quantity == "nonbonded":
-            return self.values["coulomb"] + self.values["lj"]
+        if quantity in DERIVED_SUMS:
+            first, second = DERIVED_SUMS[quantity]
+            return self.values[first] + self.values[second]
         return self.values[quantity]
 
     def matrix(self, quantity: str = "total"):

@@ -13,7 +13,9 @@ live views of the names in report order (bonded first).
 Adding a bonded term (DEVELOPERS.md, "Adding an energy term"): write its energy function in a
 module of :mod:`energy.terms`, then :func:`register` a :class:`Term` whose table the loaders
 fill (``MolecularSystem(..., other_tables={attr: TermTable(...)})``).  A nonbonded term also
-needs the residue-row kernel to produce it, so it is not added through the registry alone.
+needs the residue-row kernel (or, like the implicit-solvent terms, its own module called by the
+pipeline: :mod:`energy.terms.solvation`) to produce it, so it is not added through the registry
+alone.
 """
 from __future__ import annotations
 
@@ -95,13 +97,19 @@ _BUILTIN = (
     Term("cmap", "CMAP", "CMAP", True, (_builtin_table("cmap", _cmap_energies),)),
     Term("coulomb", "Coul", "Coulomb", False),
     Term("lj", "LJ", "Lennard-Jones", False),
+    # Implicit solvent (energy.terms.solvation): zero unless EnergySettings.implicit_solvent is set.
+    Term("solvation_polar", "GB", "Polar solvation (generalized Born)", False),
+    Term("solvation_nonpolar", "SA", "Nonpolar solvation (ACE)", False),
 )
 
 _terms: list[Term] = list(_BUILTIN)
 
 #: Labels of the derived quantities every result also has.
 _DERIVED = {"total": ("total", "Total"), "bonded": ("bonded", "Bonded (all bonded terms)"),
-            "nonbonded": ("nonbonded", "Nonbonded (Coulomb + LJ)")}
+            "nonbonded": ("nonbonded", "Nonbonded (Coulomb + LJ)"),
+            "effective_electrostatics": ("eff. elec", "Effective electrostatics (Coulomb + polar solvation)")}
+#: Derived quantities that are sums of terms (the residue-pair tables compute them on request).
+DERIVED_SUMS = {"nonbonded": ("coulomb", "lj"), "effective_electrostatics": ("coulomb", "solvation_polar")}
 
 
 def register(term: Term) -> Term:
@@ -160,7 +168,7 @@ def terms() -> tuple:
     Returns
     -------
     tuple of Term
-        Bonded terms first, then ``coulomb`` and ``lj``.
+        Bonded terms first, then ``coulomb``, ``lj``, ``solvation_polar``, ``solvation_nonpolar``.
     """
     return tuple(_terms)
 
@@ -280,14 +288,17 @@ def long_label(name: str) -> str:
 def map_quantities() -> dict:
     """Quantity key -> long label of every quantity a residue-pair map can show.
 
-    The total, the nonbonded and bonded sums, and each term (read from the registry when called).
+    The total, the nonbonded and bonded sums, the effective electrostatics (Coulomb + polar
+    solvation) and each term (read from the registry when called).
 
     Returns
     -------
     dict of str to str
-        In the order ``total``, ``nonbonded``, the nonbonded terms, ``bonded``, the bonded terms.
+        In the order ``total``, ``nonbonded``, ``effective_electrostatics``, the nonbonded terms,
+        ``bonded``, the bonded terms.
     """
-    out = {"total": long_label("total"), "nonbonded": long_label("nonbonded")}
+    out = {"total": long_label("total"), "nonbonded": long_label("nonbonded"),
+           "effective_electrostatics": long_label("effective_electrostatics")}
     out.update({name: long_label(name) for name in NONBONDED_TERMS})
     out["bonded"] = long_label("bonded")
     out.update({name: long_label(name) for name in BONDED_TERMS})
@@ -363,5 +374,5 @@ TERMS = TermNames()
 COLUMNS = TermNames(extra=("total",))
 #: Bonded term names (live).
 BONDED_TERMS = TermNames(bonded=True)
-#: Nonbonded term names (live): ``coulomb``, ``lj``.
+#: Nonbonded term names (live): ``coulomb``, ``lj``, ``solvation_polar``, ``solvation_nonpolar``.
 NONBONDED_TERMS = TermNames(bonded=False)

@@ -38,7 +38,15 @@ class PairTableModel(ArrayTableModel):
         dist = rp.min_heavy_distance[rows]
         vals = {t: rp.values[t][rows] for t in TERMS}   # the listed rows only, then the sums
         sums = {"bonded": sum(vals[t] for t in BONDED_TERMS), "total": sum(vals.values())}
+        sums["effective_electrostatics"] = vals["coulomb"] + vals["solvation_polar"]
         col = lambda q: sums[q] if q in sums else vals[q]  # noqa: E731
+        solvated = bool(np.any(vals["solvation_polar"]) or np.any(vals["solvation_nonpolar"]))
+        prefix = "Δ " if ds.is_difference else ""
+        solvation = ([Column(prefix + "Polar solv.", col("solvation_polar"), "energy",
+                             "generalized Born: pair terms off the diagonal, self terms on it"),
+                      Column(prefix + "Nonpolar", col("solvation_nonpolar"), "energy", "ACE, on the diagonal"),
+                      Column(prefix + "Eff. elec.", col("effective_electrostatics"), "energy",
+                             "effective electrostatics: Coulomb + polar solvation")] if solvated else [])
         if ds.is_difference:
             c = ds.comparison
             cols = [Column("Residue 1", self._lab_i, sort_key=pi), Column("Residue 2", self._lab_j, sort_key=pj),
@@ -47,12 +55,14 @@ class PairTableModel(ArrayTableModel):
                     Column("Change", col("total"), "energy", "second minus first"),
                     Column("Size", np.abs(col("total")), "energy", "|second minus first|"),
                     Column("Δ Coulomb", col("coulomb"), "energy"), Column("Δ LJ", col("lj"), "energy"),
+                    *solvation,
                     Column("Δ Bonded", col("bonded"), "energy", "bonded terms: " + ", ".join(BONDED_TERMS)),
                     Column("Closest", dist, "distance", "minimum heavy-atom distance, second structure")]
         else:
             cols = [Column("Residue 1", self._lab_i, sort_key=pi), Column("Residue 2", self._lab_j, sort_key=pj),
                     Column("Closest", dist, "distance", "minimum heavy-atom distance"),
                     Column("Coulomb", col("coulomb"), "energy"), Column("LJ", col("lj"), "energy"),
+                    *solvation,
                     Column("Bonded", col("bonded"), "energy", "bonded terms: " + ", ".join(BONDED_TERMS)),
                     Column("Total", col("total"), "energy")]
         self.set_columns(cols, len(rows))

@@ -23,6 +23,10 @@ from app.gui.views.flow_layout import compact_combo
 from energy.errors import SettingsError
 from energy.model.settings import EXP6_ALPHA_MATCHING_LJ, EnergySettings
 
+#: Implicit-solvent choices of the panel (key "" is in vacuo).
+IMPLICIT_CHOICES = {"": "none (in vacuo)", "obc2": "GB OBC2", "gbn2": "GB GBn2"}
+NONPOLAR_CHOICES = {"ace": "ACE (from Born radii)", "none": "none"}
+
 ELECTROSTATICS = {"plain": "Plain Coulomb, ε constant", "reaction-field": "Reaction field (needs cutoff)",
                   "distance-dependent": "Distance-dependent, ε = D·r",
                   "shifted": "Shifted force, zero at the cutoff (needs cutoff)"}
@@ -59,7 +63,19 @@ class ComputeSettingsPanel(QWidget):
                               "at the minimum (docs/physics.md)")
         self.alpha_default = QPushButton("LJ-matched"); self.alpha_default.setObjectName("exp6AlphaDefault")
         self.alpha_default.clicked.connect(lambda: self.alpha.setValue(EXP6_ALPHA_MATCHING_LJ))
+        self.implicit = QComboBox(); self.implicit.setObjectName("implicitSolvent")
+        for key, text in IMPLICIT_CHOICES.items():
+            self.implicit.addItem(text, key)
+        self.implicit.setToolTip("Generalized Born polar solvation (docs/physics.md); Coulomb then "
+                                 "uses the solute dielectric, without a reaction field")
+        self.salt = QDoubleSpinBox(); self.salt.setObjectName("saltMolar")
+        self.salt.setRange(0.0, 5.0); self.salt.setDecimals(3); self.salt.setSingleStep(0.05)
+        self.salt.setSuffix(" M")
+        self.nonpolar = QComboBox(); self.nonpolar.setObjectName("nonpolar")
+        for key, text in NONPOLAR_CHOICES.items():
+            self.nonpolar.addItem(text, key)
         compact_combo(self.electrostatics, 16); compact_combo(self.vdw, 16)
+        compact_combo(self.implicit, 16); compact_combo(self.nonpolar, 16)
         self.unit = QComboBox(); self.unit.setObjectName("unit")
         for u in UNITS:
             self.unit.addItem(u, u)
@@ -70,8 +86,11 @@ class ComputeSettingsPanel(QWidget):
         form.addRow(self.use_cutoff, self.cutoff)
         form.addRow(self.use_switch, self.switch)
         form.addRow("Electrostatics", self.electrostatics)
-        form.addRow("Dielectric ε or D", self.dielectric)
-        form.addRow("Solvent ε (reaction field)", self.solvent)
+        form.addRow("Dielectric ε or D (solute)", self.dielectric)
+        form.addRow("Implicit solvent", self.implicit)
+        form.addRow("Solvent ε (RF or GB)", self.solvent)
+        form.addRow("Salt (ionic strength)", self.salt)
+        form.addRow("Nonpolar solvation", self.nonpolar)
         form.addRow("Repulsion model", self.vdw)
         arow = QHBoxLayout(); arow.addWidget(self.alpha, 1); arow.addWidget(self.alpha_default)
         form.addRow("Exp-6 steepness α", arow)
@@ -85,16 +104,19 @@ class ComputeSettingsPanel(QWidget):
         self.unit.setCurrentIndex(max(0, k))
         for w in (self.use_cutoff, self.use_switch, self.periodic):
             w.toggled.connect(self._changed)
-        for w in (self.cutoff, self.switch, self.dielectric, self.solvent, self.alpha):
+        for w in (self.cutoff, self.switch, self.dielectric, self.solvent, self.alpha, self.salt):
             w.valueChanged.connect(self._changed)
         self.electrostatics.currentIndexChanged.connect(self._changed)
+        self.implicit.currentIndexChanged.connect(self._changed)
+        self.nonpolar.currentIndexChanged.connect(self._changed)
         self.vdw.currentIndexChanged.connect(self._changed)
         self.unit.currentIndexChanged.connect(lambda: self.unitChanged.emit(self.unit.currentData()))
         self.recompute.clicked.connect(self._emit)
 
     def set_settings(self, s: EnergySettings) -> None:
         widgets = (self.use_cutoff, self.cutoff, self.use_switch, self.switch, self.electrostatics,
-                   self.dielectric, self.solvent, self.periodic, self.vdw, self.alpha)
+                   self.dielectric, self.solvent, self.periodic, self.vdw, self.alpha, self.implicit,
+                   self.salt, self.nonpolar)
         for w in widgets:
             w.blockSignals(True)
         self.use_cutoff.setChecked(s.cutoff_angstrom is not None)
@@ -107,6 +129,9 @@ class ComputeSettingsPanel(QWidget):
         self.periodic.setChecked(s.use_periodic)
         self.vdw.setCurrentIndex(self.vdw.findData(s.vdw))
         self.alpha.setValue(s.exp6_alpha)
+        self.implicit.setCurrentIndex(max(0, self.implicit.findData(s.implicit_solvent or "")))
+        self.salt.setValue(s.salt_molar)
+        self.nonpolar.setCurrentIndex(max(0, self.nonpolar.findData(s.nonpolar)))
         for w in widgets:
             w.blockSignals(False)
         self._enable()
@@ -115,7 +140,9 @@ class ComputeSettingsPanel(QWidget):
         on = self.use_cutoff.isChecked()
         self.cutoff.setEnabled(on); self.use_switch.setEnabled(on)
         self.switch.setEnabled(on and self.use_switch.isChecked())
-        self.solvent.setEnabled(self.electrostatics.currentData() == "reaction-field")
+        implicit = bool(self.implicit.currentData())
+        self.solvent.setEnabled(self.electrostatics.currentData() == "reaction-field" or implicit)
+        self.salt.setEnabled(implicit); self.nonpolar.setEnabled(implicit)
         exp6 = self.vdw.currentData() == "exp6"
         self.alpha.setEnabled(exp6); self.alpha_default.setEnabled(exp6)
 
@@ -128,7 +155,9 @@ class ComputeSettingsPanel(QWidget):
                               dielectric=self.dielectric.value(),
                               solvent_dielectric=self.solvent.value(),
                               use_periodic=self.periodic.isChecked(),
-                              vdw=self.vdw.currentData(), exp6_alpha=self._alpha())
+                              vdw=self.vdw.currentData(), exp6_alpha=self._alpha(),
+                              implicit_solvent=self.implicit.currentData() or None,
+                              salt_molar=self.salt.value(), nonpolar=self.nonpolar.currentData())
 
     def _alpha(self) -> float:
         """The spin box shows 3 decimals; the LJ-matched value is kept exact."""
