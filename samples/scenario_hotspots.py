@@ -7,7 +7,8 @@ chain; Gly and Ala left out) of each model is truncated to alanine with OpenMM's
 field for the atoms, CB's hydrogens then set to an ideal staggered methyl, N-CA-CB-HB
 60/180/300), the single mutant is parameterised by OpenMM's
 ``ForceField('amber14-all.xml')``, and the chain A - chain B interaction is a numpy sum over
-every A-B atom pair of OpenMM's own NonbondedForce parameters (plain Coulomb, eps = 1, Lorentz-Berthelot LJ, no cutoff, vacuum).
+every A-B atom pair of OpenMM's own NonbondedForce parameters (plain Coulomb, eps = 1,
+Lorentz-Berthelot LJ, no cutoff, vacuum).
 
 Run:  .venv/bin/python samples/scenario_hotspots.py
 """
