@@ -8,9 +8,10 @@ Two ways to turn a residue into alanine (docs/hotspots.md):
   together, so a residue's hydrogens would depend on the others truncated with it), and the
   force field that parameterised the wild type parameterises the mutant.  Every scanned
   residue is truncated in one model and parameterised by one ``createSystem``: Amber-style
-  charges and LJ types belong to the residue's own template, so each mutant's atoms are those of its single mutant (the scan's tests check
-  this against a full recomputation of each single mutant written out as a PDB).
-* **side chain switched off** (PSF route, and disulfide-bonded Cys anywhere): the atoms beyond CB
+  charges and LJ types belong to the residue's own template, so each mutant's atoms are those
+  of its single mutant (the scan's tests check this against a full recomputation of each
+  single mutant written out as a PDB).
+* **side chain switched off** (PSF route, disulfide-bonded Cys and an N-terminal Pro): the atoms beyond CB
   are dropped from the interaction; CB and its hydrogens keep their wild-type parameters.
 
 Rebuilt hydrogens are placed at PDB precision (0.001 A), so a mutant written out as a PDB and read
