@@ -54,6 +54,7 @@ bench: $(STAMP)
 	QT_QPA_PLATFORM=offscreen $(PY) benchmarks/run.py
 	QT_QPA_PLATFORM=offscreen $(PY) benchmarks/trajectory_bench.py
 	$(PY) benchmarks/result_file_bench.py
+	$(PY) benchmarks/hotspots_bench.py
 
 clean:
 	rm -rf $(VENV) .pytest_cache
