@@ -1,6 +1,6 @@
 """Alanine models of interface residues: which atoms a truncation keeps, and the rebuilt ones.
 
-Two ways to turn a residue into alanine (docs/hotspots.md):
+Two ways to turn a residue into alanine (conventions in docs/physics.md, "Alanine scan"):
 
 * **ALA template** (built-in route): the side-chain atoms beyond CB are deleted, the residue is
   renamed ALA, CB's hydrogens (and the backbone H of a former Pro) are rebuilt by ideal geometry

@@ -9,7 +9,7 @@ only the rows of its own residue, so
     dE = - E(deleted atoms, partner) + [E'(kept + rebuilt atoms, partner) - E(kept atoms, partner)]
 
 (``removed`` and ``rebuilt`` in the result), with the same pair forms, cutoff and minimum image.
-Conventions (classes, the 2 kcal/mol flag, what the number is not) are in docs/hotspots.md.
+Conventions (classes, the 2 kcal/mol flag, what the number is not) are in docs/physics.md, "Alanine scan".
 """
 from __future__ import annotations
 

@@ -1,6 +1,6 @@
 """An alanine scan as files and text: ranked rows, CSV, the JSON document of ``tessera hotspots``
 and its summary.  Every output names the truncation method of each residue and says what the
-2 kcal/mol marker is (docs/hotspots.md)."""
+2 kcal/mol marker is (docs/physics.md, "Alanine scan")."""
 from __future__ import annotations
 
 import csv
