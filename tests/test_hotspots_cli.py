@@ -47,6 +47,25 @@ def test_json_and_csv_of_the_scenario(tmp_path):
                                [r["delta_total"] for r in doc["residues"]], atol=1e-6)
 
 
+def test_result_file_round_trip(tmp_path):
+    """The result file read back (energy.results.load) holds the same
+    rows as the JSON (which the test above checks against the OpenMM-only scenario facts)."""
+    from energy.results import load
+    out, h5 = tmp_path / "h.json", tmp_path / "h.h5"
+    assert main(["hotspots", SCENARIO_FIXED_PDB, "--select-a", "segid A", "--select-b", "segid B",
+                 "--json", str(out), "--out", str(h5), "--quiet"]) == 0
+    doc = json.loads(out.read_text())
+    stored = load(str(h5))
+    assert stored.kind == "hotspots"
+    t = stored.hotspots
+    assert list(t["residue"]) == [r["residue"] for r in doc["residues"]]
+    np.testing.assert_array_equal(t["delta_coulomb"] + t["delta_lj"], [r["delta_total"] for r in doc["residues"]])
+    assert list(t["method"]) == [r["method"] for r in doc["residues"]]
+    assert t["select_a"] == "segid A" and json.loads(t["terms"]) == ["coulomb", "lj"]
+    assert len(t["skipped_residue"]) == len(doc["skipped"])
+    assert stored.residues.label(int(t["residue"][0])) == doc["residues"][0]["label"]
+
+
 def test_psf_route_switches_the_side_chain_off_and_says_so(tmp_path, capsys):
     psf, pdb = os.path.join(PEPTIDE, "probe_peptide.psf"), os.path.join(PEPTIDE, "probe_peptide.pdb")
     prm = os.path.join(PEPTIDE, "probe_ff.prm")

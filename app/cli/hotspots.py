@@ -28,6 +28,8 @@ def configure_parser(p: argparse.ArgumentParser) -> None:
                         "other selection (default 5)")
     p.add_argument("--json", metavar="OUT.json", help="write the ranked scan as JSON")
     p.add_argument("--csv", metavar="OUT.csv", help="write the ranked table as CSV")
+    p.add_argument("--out", metavar="RESULT.h5",
+                   help="write the scan to a result file (HDF5, kind 'hotspots'; layout in docs/result-file.md)")
     p.add_argument("--top", type=int, default=15, help="residues shown in the summary (default 15)")
     p.add_argument("--quiet", action="store_true", help="no summary or progress")
 
@@ -46,7 +48,7 @@ def run(args) -> int:
     if args.interface <= 0:
         raise EnergyError(f"--interface must be a positive distance in A, got {args.interface}")
     settings = settings_from_args(args)
-    check_output_folders(args.json, args.csv)
+    check_output_folders(args.json, args.csv, args.out)
     t0 = time.perf_counter()
     prepare_kernels(settings)
     options = preparation_from_args(args)
@@ -67,6 +69,9 @@ def run(args) -> int:
         report.write_json(args.json, hotspot_document(scan, loaded.system, inputs, timings))
     if args.csv:
         atomic_write_text(args.csv, hotspot_csv(scan, loaded.system))
+    if args.out:
+        from energy.output.hotspot_result import write_hotspot_result
+        write_hotspot_result(args.out, loaded, scan)
     if not args.quiet:
         print(summary_text(scan, loaded.system, args.top))
         print(f"timings: load {timings['load']:.2f} s, scan {timings['scan']:.2f} s "

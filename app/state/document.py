@@ -147,6 +147,10 @@ class Dataset:
         """The dataset of a result file: a scan (its table), a trajectory (the mean over its
         frames) or a comparison (second minus first)."""
         name = os.path.basename(stored.path)
+        if stored.kind == "hotspots":
+            from energy.errors import EnergyError
+            raise EnergyError(f"{name} holds an alanine scan (tessera hotspots), not a residue-pair map: "
+                              "open its structure and run the scan in the Hot spots panel")
         if stored.kind == "comparison":
             c = stored.comparison
             return cls(np.asarray(c.labels, dtype=object), np.asarray(c.chains, dtype=object), c.difference,

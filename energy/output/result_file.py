@@ -367,7 +367,8 @@ class StoredResult:
     ``totals``, ``residue_pairs``.  Trajectory: also ``frames`` (dict of per-frame arrays) and
     ``statistics`` (dict of arrays).  Comparison: ``sides`` (``first``/``second`` -> dict with
     ``residues``, ``totals``, ``residue_pairs``) and ``comparison`` (the engine's
-    :class:`~energy.analysis.compare.Comparison`).
+    :class:`~energy.analysis.compare.Comparison`).  Alanine scan: ``residues`` and ``hotspots``
+    (dict of the ``hotspots`` group's arrays and attributes, :mod:`energy.output.hotspot_result`).
     """
 
     path: str
@@ -382,6 +383,7 @@ class StoredResult:
     statistics: dict = field(default_factory=dict)
     sides: dict = field(default_factory=dict)
     comparison: object = None
+    hotspots: dict = field(default_factory=dict)
 
     def changed_inputs(self) -> list[str]:
         """Why each recorded input file no longer matches (missing or changed); [] if all do.
@@ -534,4 +536,9 @@ def _read_open(fh, path) -> StoredResult:
             unmatched_first_labels=list(a["unmatched_first_labels"]),
             unmatched_second_labels=list(a["unmatched_second_labels"]))
         return StoredResult(**common, sides=sides, comparison=comparison)
+    if kind == "hotspots":
+        g = fh["hotspots"]
+        table = _group_arrays(g, path)
+        table.update({k: (v.item() if hasattr(v, "item") else v) for k, v in g.attrs.items()})
+        return StoredResult(**common, residues=_read_residues(fh, path), hotspots=table)
     raise ResultFileError(path, f"unknown result kind {kind!r}")
