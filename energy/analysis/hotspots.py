@@ -3,12 +3,14 @@
 Every residue of A within ``interface_angstrom`` of B (and the reverse) is truncated to alanine
 (:mod:`energy.analysis.alanine_models`) and the change of the A-vs-B nonbonded interaction,
 ``dE = E_int(mutant) - E_int(wild type)``, is given per term.  The wild type's atom-pair table
-(:func:`energy.decomposition.atom_pairs.atom_pair_energies`) is computed once; a mutant changes
-only the rows of its own residue, so
+(the A-B total, and each scanned residue's rows against the partner) is computed once; a mutant
+changes only the rows of its own residue, so
 
     dE = - E(deleted atoms, partner) + [E'(kept + rebuilt atoms, partner) - E(kept atoms, partner)]
 
-(``removed`` and ``rebuilt`` in the result), with the same pair forms, cutoff and minimum image.
+(``removed`` and ``rebuilt`` in the result), with the pair forms, cutoff and minimum image of
+:func:`energy.decomposition.atom_pairs.atom_pair_energies`.  Rows are evaluated residue by residue
+(k atoms x the partner's atoms), never as one table of every A-B pair.
 Conventions (classes, the 2 kcal/mol flag, what the number is not) are in docs/physics.md, "Alanine scan".
 """
 from __future__ import annotations
@@ -21,7 +23,6 @@ from scipy.spatial import cKDTree
 
 from energy._kernels.pbc import minimum_image_vectors, periodic_cell
 from energy.analysis.alanine_models import ALA_TEMPLATE, SWITCHED_OFF, ResidueModel
-from energy.decomposition.atom_pairs import atom_pair_energies
 from energy.errors import EnergyError, SelectionError
 from energy.io.validation import check_frame
 from energy.model.cell import nonbonded_cell
@@ -229,16 +230,10 @@ def residue_flag(system: MolecularSystem, residue: int, bonds) -> str:
     return ""
 
 
-def _grouped(keys: np.ndarray, n: int):
-    order = np.argsort(keys, kind="stable")
-    starts = np.searchsorted(keys[order], np.arange(n + 1))
-    return order, starts
-
-
 def _model_rows(model: ResidueModel, partner_atoms, system, frame, settings, kc, box):
-    """Per-term energies of the model's atoms with every partner atom in range: (terms, partner)."""
-    x = frame.positions
-    xp = x[partner_atoms]
+    """Per-term energies of the model's atoms with every partner atom in range, and the partner
+    index of each pair (ordinary pairs: the caller excludes bonded partners)."""
+    xp = frame.positions[partner_atoms]
     d = minimum_image_vectors((xp[None, :, :] - model.positions[:, None, :]).reshape(-1, 3), box)
     r2 = np.einsum("ij,ij->i", d, d)
     mi = np.repeat(np.arange(len(model.origin)), len(partner_atoms))
@@ -246,7 +241,7 @@ def _model_rows(model: ResidueModel, partner_atoms, system, frame, settings, kc,
     if settings.cutoff_angstrom is not None:
         near = r2 <= settings.cutoff_angstrom ** 2
         r2, mi, pj = r2[near], mi[near], pj[near]
-    if model.method == SWITCHED_OFF:  # wild-type atoms: the system's own type-pair table
+    if model.method != ALA_TEMPLATE:  # wild-type atoms: the system's own type-pair table
         ti, tj = system.lj_type[model.origin[mi]], system.lj_type[partner_atoms[pj]]
         rmin, eps = system.lj_rmin[ti, tj], system.lj_eps[ti, tj]
     else:
@@ -254,12 +249,52 @@ def _model_rows(model: ResidueModel, partner_atoms, system, frame, settings, kc,
         rmin = model.rmin_half[mi] + p_rh[partner_atoms[pj]]
         eps = np.sqrt(model.eps[mi] * p_eps[partner_atoms[pj]])
     coul, lj = pair_energies(r2, model.charges[mi] * system.charges[partner_atoms[pj]], rmin, eps, kc.values)
-    return pair_term_values(coul, lj), pj
+    return pair_term_values(coul, lj), mi, pj
 
 
 def _partner_lj(system):
     from energy.analysis.alanine_models import per_atom_lj
     return system.derived("per_atom_lj", per_atom_lj)
+
+
+def _wild_type_rows(system, frame, atoms) -> ResidueModel:
+    """The wild-type atoms ``atoms`` as a model (their own positions and parameters)."""
+    nan = np.full(len(atoms), np.nan)
+    return ResidueModel(-1, atoms, system.names[atoms], frame.positions[atoms], system.charges[atoms],
+                        nan, nan, "wild type")
+
+
+#: Atom pairs evaluated at once when the wild-type interaction is summed.
+PAIR_BLOCK = 2_000_000
+
+
+def _wild_type_total(system, frame, settings, atoms_a, atoms_b, kc, box) -> dict:
+    """The A-B interaction per term: every ordinary pair (blocks of A rows), the cross exception
+    pairs with their own parameters instead (as :func:`atom_pair_energies` counts them)."""
+    names = list(pair_term_values(np.zeros(0), np.zeros(0)))
+    total = dict.fromkeys(names, 0.0)
+    rows = max(1, PAIR_BLOCK // max(len(atoms_b), 1))
+    for start in range(0, len(atoms_a), rows):
+        block = _wild_type_rows(system, frame, atoms_a[start:start + rows])
+        values, _, _ = _model_rows(block, atoms_b, system, frame, settings, kc, box)
+        for t in names:
+            total[t] += float(values[t].sum())
+    ex = system.exception_pairs
+    in_a = np.zeros(system.n_atoms, bool); in_a[atoms_a] = True
+    in_b = np.zeros(system.n_atoms, bool); in_b[atoms_b] = True
+    cross = np.flatnonzero((in_a[ex[:, 0]] & in_b[ex[:, 1]]) | (in_b[ex[:, 0]] & in_a[ex[:, 1]])) if len(ex) else []
+    if len(cross):
+        from energy.terms.nonbonded import exception_energies
+        for i, j in ex[cross]:  # the ordinary form counted above is replaced by the exception's
+            a, b = (i, j) if in_a[i] else (j, i)
+            values, _, _ = _model_rows(_wild_type_rows(system, frame, np.array([a])), np.array([b]),
+                                       system, frame, settings, kc, box)
+            for t in names:
+                total[t] -= float(values[t].sum())
+        coul, lj, _ = exception_energies(system, frame.positions, settings, None)
+        for t, v in pair_term_values(coul[cross], lj[cross]).items():
+            total[t] += float(v.sum())
+    return total
 
 
 def alanine_scan(system: MolecularSystem, frame: Frame, settings: EnergySettings | None, atoms_a, atoms_b,
@@ -308,20 +343,14 @@ def alanine_scan(system: MolecularSystem, frame: Frame, settings: EnergySettings
     atoms_b = np.unique(np.asarray(atoms_b, np.intp))
     check_sides(system, atoms_a, atoms_b)
     flags = flags or {}
-    wt = atom_pair_energies(system, frame, settings, atoms_a, atoms_b)
-    wt_terms = pair_term_values(wt.coulomb, wt.lj)
-    names = list(wt_terms)
+    box = nonbonded_cell(frame.box, system.n_atoms, settings.use_periodic).box
+    box = box if box is not None and settings.cutoff_angstrom is not None else None
+    kc = KernelConstants.from_settings(settings)
+    # The wild type once: its A-B total, and below each scanned residue's own rows (computed once).
+    wild_total = _wild_type_total(system, frame, settings, atoms_a, atoms_b, kc, box)
+    names = list(wild_total)
     in_a = np.zeros(system.n_atoms, bool)
     in_a[atoms_a] = True
-    # Each pair row once under its A atom and once under its B atom, grouped by that atom's residue.
-    a_end = np.where(in_a[wt.pairs[:, 0]], 0, 1)
-    owner_atom = np.concatenate([wt.pairs[np.arange(len(wt)), a_end], wt.pairs[np.arange(len(wt)), 1 - a_end]])
-    other_atom = np.concatenate([wt.pairs[np.arange(len(wt)), 1 - a_end], wt.pairs[np.arange(len(wt)), a_end]])
-    row = np.concatenate([np.arange(len(wt)), np.arange(len(wt))])
-    order, starts = _grouped(system.resindex[owner_atom], system.n_residues)
-    box = nonbonded_cell(frame.box, system.n_atoms, settings.use_periodic).box
-    periodic = box is not None and settings.cutoff_angstrom is not None
-    kc = KernelConstants.from_settings(settings)
     ex = system.exception_pairs
     n_res = system.n_residues
 
@@ -335,22 +364,16 @@ def alanine_scan(system: MolecularSystem, frame: Frame, settings: EnergySettings
                         | np.isin(ex[:, 1], own) & np.isin(ex[:, 0], partner)).any():
             raise EnergyError(f"{system.residues.label(r)} is bonded to the other selection; "
                               "the alanine scan needs two separate molecules")
-        rows = order[starts[r]:starts[r + 1]]
-        pair_rows, owner, other = row[rows], owner_atom[rows], other_atom[rows]
-        deleted = ~np.isin(owner, model.origin[model.origin >= 0])
-        mutant, pj = _model_rows(model, partner, system, frame, settings, kc, box if periodic else None)
-        partner_res = system.resindex[partner[pj]]
-        wt_by_partner = np.zeros(n_res)
-        delta = {}
-        for t in names:
-            v = wt_terms[t][pair_rows]
-            delta[t] = float(mutant[t].sum() - v.sum())
-        wt_total = sum(wt_terms[t][pair_rows] for t in names) if names else np.zeros(len(rows))
-        mut_total = sum(mutant[t] for t in names) if names else np.zeros(len(pj))
+        wild, wi, wj = _model_rows(_wild_type_rows(system, frame, own), partner, system, frame, settings, kc, box)
+        mutant, _, pj = _model_rows(model, partner, system, frame, settings, kc, box)
+        delta = {t: float(mutant[t].sum() - wild[t].sum()) for t in names}
+        wt_total = sum(wild[t] for t in names)
+        mut_total = sum(mutant[t] for t in names)
+        deleted = ~np.isin(own[wi], model.origin[model.origin >= 0])
         removed = -float(wt_total[deleted].sum())
-        np.add.at(wt_by_partner, system.resindex[other], wt_total)
-        change = -wt_by_partner
-        np.add.at(change, partner_res, mut_total)
+        change = np.zeros(n_res)
+        np.add.at(change, system.resindex[partner[wj]], -wt_total)
+        np.add.at(change, system.resindex[partner[pj]], mut_total)
         top = np.argsort(-change, kind="stable")[:LOST_CONTACTS]
         top = top[change[top] > 0]
         out["residue"].append(r)
@@ -381,7 +404,7 @@ def alanine_scan(system: MolecularSystem, frame: Frame, settings: EnergySettings
         rebuilt=np.array(out["rebuilt"], float).reshape(n)[rank],
         lost_partner=np.array(out["lost_p"], np.intp).reshape(n, LOST_CONTACTS)[rank],
         lost_energy=np.array(out["lost_e"], float).reshape(n, LOST_CONTACTS)[rank],
-        wild_type={t: float(wt_terms[t].sum()) for t in names},
+        wild_type=dict(wild_total),
         skipped=tuple((int(r), str(why)) for r, why in skipped),
         select_a=select_a, select_b=select_b, interface_angstrom=float(interface_angstrom),
         settings=settings)
