@@ -264,8 +264,12 @@ def truncated_topology(topology, positions_angstrom, residues):
     return new, np.array(pos, np.float64).reshape(-1, 3), np.array(origin, np.intp)
 
 
-def template_models(topology, positions_angstrom, residues, force_field) -> tuple[dict, object]:
+def template_models(topology, positions_angstrom, residues, force_field) -> dict:
     """Alanine models of ``residues`` parameterised by ``force_field`` (one ``createSystem``).
+
+    Only the NonbondedForce parameters of the truncated residues are read (converted as
+    :func:`energy.io.builtin.system_from_openmm` converts them: kJ -> kcal, nm -> A,
+    Rmin = 2^(1/6) sigma).
 
     Parameters
     ----------
@@ -280,19 +284,18 @@ def template_models(topology, positions_angstrom, residues, force_field) -> tupl
 
     Returns
     -------
-    models : dict
+    dict
         Residue index -> :class:`ResidueModel` (method :data:`ALA_TEMPLATE`).
-    mutant : MolecularSystem
-        The parameterised model with every residue of ``residues`` truncated.
 
     Raises
     ------
     EnergyError
         If the force field cannot parameterise the truncated model.
     """
-    from openmm import app
+    from openmm import NonbondedForce, app
 
-    from energy.io.builtin import system_from_openmm
+    from energy.io.builtin import RMIN_PER_SIGMA
+    from energy.units import ANGSTROM_PER_NM, KJ_PER_KCAL
     top, pos, origin = truncated_topology(topology, positions_angstrom, residues)
     try:
         omm = force_field.createSystem(top, nonbondedMethod=app.NoCutoff, constraints=None,
@@ -300,11 +303,16 @@ def template_models(topology, positions_angstrom, residues, force_field) -> tupl
     except ValueError as exc:
         raise EnergyError(f"the force field cannot parameterise the alanine mutants: "
                           f"{' '.join(str(exc).split())[:200]}") from None
-    mutant = system_from_openmm(omm, top, force_field="alanine mutants")
-    rh, ee = per_atom_lj(mutant)
+    nb = next(f for f in omm.getForces() if isinstance(f, NonbondedForce))
+    atoms = list(top.atoms())
+    by_residue = {}
+    for a in atoms:
+        by_residue.setdefault(a.residue.index, []).append(a.index)
     models = {}
     for r in residues:
-        rows = np.flatnonzero(mutant.resindex == int(r))
-        models[int(r)] = ResidueModel(int(r), origin[rows], mutant.names[rows], pos[rows],
-                                      mutant.charges[rows], rh[rows], ee[rows], ALA_TEMPLATE)
-    return models, mutant
+        rows = np.array(by_residue[int(r)], np.intp)
+        p = np.array([[v._value for v in nb.getParticleParameters(int(i))] for i in rows]).reshape(-1, 3)
+        models[int(r)] = ResidueModel(
+            int(r), origin[rows], np.array([atoms[i].name for i in rows]), pos[rows], p[:, 0],
+            RMIN_PER_SIGMA * p[:, 1] * ANGSTROM_PER_NM / 2.0, p[:, 2] / KJ_PER_KCAL, ALA_TEMPLATE)
+    return models

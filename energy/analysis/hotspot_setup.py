@@ -126,7 +126,7 @@ def scan_loaded(loaded, settings, select_a: str, select_b: str,
         if force_field is None:
             from energy.io.builtin import build_force_field
             force_field = build_force_field()
-        models.update(template_models(loaded.prepared_topology, frame.positions, templated, force_field)[0])
+        models.update(template_models(loaded.prepared_topology, frame.positions, templated, force_field))
     for r in switched:
         models[r] = switched_off_model(system, frame.positions, r, system.bonds.atoms)
     return alanine_scan(system, frame, settings, atoms_a, atoms_b, models, skipped, flags,
