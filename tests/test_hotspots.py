@@ -204,3 +204,23 @@ def test_scenario_clash_model_trp_gains(tmp_path):
     assert k == len(scan) - 1
     assert scan.delta["lj"][k] < -0.5 * FACTS["energies_kcal_mol"]["clash"]["clash_lj"]
     assert scan.total[k] == pytest.approx(FACTS["hotspots"]["clash"]["delta_kcal_mol"][trp], abs=0.01)
+
+
+def test_periodic_cutoff_scan_matches_the_written_mutant(tmp_path):
+    """OpenMM's test.pdb (protein in a periodic TIP3P box, tests/data.py): protein vs water with a
+    9 A cutoff, reaction field and the minimum image; two mutants recomputed in full as above."""
+    from data import OPENMM_TEST_PDB
+    loaded = load_system(OPENMM_TEST_PDB)
+    settings = EnergySettings(cutoff_angstrom=9.0, electrostatics="reaction-field")
+    a, b = "protein", "resname HOH"
+    scan = scan_loaded(loaded, settings, a, b, 4.0)
+    assert loaded.frame.box is not None and set(scan.side) == {"A"}  # water is not scanned
+    assert {why for _, why in scan.skipped} >= {"not an amino acid (water)"}
+    wild = selection_interaction(loaded.system, loaded.frame, settings, a, b)
+    for k in (0, len(scan) - 1):
+        r = int(scan.residue[k])
+        path, *_ = _write_mutant(loaded, r, tmp_path)
+        mutant = load_system(path)
+        assert mutant.frame.box is not None
+        direct = selection_interaction(mutant.system, mutant.frame, settings, a, b)
+        assert scan.total[k] == pytest.approx(direct["total"] - wild["total"], abs=1e-6)
