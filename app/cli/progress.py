@@ -9,7 +9,8 @@ class ProgressBar:
     """``frames 12/40 [#####.....] 3.2 frames/s, 9 s left`` on stderr (a line every 10 % when
     stderr is not a terminal)."""
 
-    def __init__(self, stream=None, width: int = 30):
+    def __init__(self, stream=None, width: int = 30, unit: str = "frames"):
+        self.unit = unit
         self.stream = stream or sys.stderr
         self.width = width
         self.tty = bool(getattr(self.stream, "isatty", lambda: False)())
@@ -26,9 +27,9 @@ class ProgressBar:
         if self.first is not None and done > self.first[1]:
             rate = (done - self.first[1]) / max(now - self.first[0], 1e-9)
         filled = int(self.width * done / max(total, 1))
-        text = f"frames {done}/{total} [{'#' * filled}{'.' * (self.width - filled)}]"
+        text = f"{self.unit} {done}/{total} [{'#' * filled}{'.' * (self.width - filled)}]"
         if rate:
-            text += f" {rate:.2f} frames/s, {max(total - done, 0) / rate:.0f} s left"
+            text += f" {rate:.2f} {self.unit}/s, {max(total - done, 0) / rate:.0f} s left"
         if self.tty:
             self.stream.write("\r" + text.ljust(78))
             self.stream.flush()

@@ -267,7 +267,7 @@ class JobQueue(QObject):
                 handle.wait(ms)
 
 
-__all__ = ["EnergyWorker", "JobQueue", "JobResult", "WorkerHandle", "CallWorker", "TrajectoryWorker"]
+__all__ = ["EnergyWorker", "JobQueue", "JobResult", "WorkerHandle", "CallWorker", "TrajectoryWorker", "HotspotWorker"]
 
 
 class CallWorker(QObject):
@@ -328,3 +328,46 @@ class TrajectoryWorker(QObject):
                 self.progress.emit(int(done), int(total))
         except Exception as exc:  # noqa: BLE001  (every failure reaches the window as a message)
             self.failed.emit(*failure_message(exc))
+
+
+class HotspotWorker(QObject):
+    """Run an alanine scan (:func:`energy.analysis.hotspot_setup.scan_loaded`) with progress per
+    residue and cancel.  ``finished`` carries the :class:`energy.analysis.hotspots.HotspotScan`."""
+
+    progress = Signal(int, int)
+    phase = Signal(str)
+    finished = Signal(object)
+    cancelled = Signal()
+    failed = Signal(str, str)
+
+    def __init__(self, loaded, settings, select_a: str, select_b: str, interface: float, force_field_files=()):
+        super().__init__()
+        self._args = (loaded, settings, select_a, select_b, interface)
+        self._files = tuple(force_field_files)
+        self._cancel = threading.Event()
+        self.elapsed = 0.0
+
+    def cancel(self) -> None:
+        self._cancel.set()
+
+    def _progress(self, done: int, total: int) -> bool:
+        self.progress.emit(int(done), int(total))
+        return not self._cancel.is_set()
+
+    def run(self) -> None:
+        from energy.analysis.hotspot_setup import scan_loaded
+        from energy.io.builtin import DEFAULT_FORCE_FIELD, build_force_field
+        t0 = time.perf_counter()
+        loaded, settings, a, b, interface = self._args
+        try:
+            self.phase.emit("Alanine scan: building the mutants")
+            self.progress.emit(0, 0)
+            ff = build_force_field(DEFAULT_FORCE_FIELD, self._files) if loaded.prepared_topology is not None else None
+            scan = scan_loaded(loaded, settings, a, b, interface, ff, self._progress)
+            self.elapsed = time.perf_counter() - t0
+            self.finished.emit(scan)
+        except Exception as exc:  # noqa: BLE001  (every failure reaches the window as a message)
+            if self._cancel.is_set():
+                self.cancelled.emit()
+            else:
+                self.failed.emit(*failure_message(exc))

@@ -11,6 +11,7 @@ from PySide6.QtWidgets import QDockWidget, QFileDialog, QLabel, QMainWindow, QPr
 import resources
 from app.gui import exports, screen_fit
 from app.gui.controllers.checks import ChecksController
+from app.gui.controllers.hotspots import HotspotController
 from app.gui.controllers.trajectory import TrajectoryController
 from app.gui.dialogs.errors import show_error
 from app.gui.jobs import CallWorker, JobQueue, WorkerHandle
@@ -20,6 +21,7 @@ from app.gui.settings import AppSettings
 from app.gui.views.atom_panel import AtomContributionsView
 from app.gui.views.clash_panel import ClashCheckView
 from app.gui.views.frame_bar import FrameBar
+from app.gui.views.hotspot_panel import HotspotView
 from app.gui.views.model_panel import ModelComparisonView
 from app.gui.views.pair_ledger import PairLedgerView
 from app.gui.views.pair_map import PairMapView
@@ -93,6 +95,7 @@ class MainWindow(QMainWindow):
         self.settings_panel = ComputeSettingsPanel(self.energy_settings, self.unit)
         self.clash_panel = ClashCheckView(self.selection)
         self.model_panel = ModelComparisonView(self.selection)
+        self.hotspot_panel = HotspotView(self.selection)
         self.time_series = TimeSeriesView()
         self.frame_bar = FrameBar()
         self.docks = {}
@@ -105,7 +108,8 @@ class MainWindow(QMainWindow):
                 ("bars", "Term bars", self.bars, Qt.DockWidgetArea.BottomDockWidgetArea),
                 ("clashes", "Clash check", self.clash_panel, Qt.DockWidgetArea.LeftDockWidgetArea),
                 ("models", "Model comparison", self.model_panel, Qt.DockWidgetArea.BottomDockWidgetArea),
-                ("series", "Pair over time", self.time_series, Qt.DockWidgetArea.BottomDockWidgetArea)):
+                ("series", "Pair over time", self.time_series, Qt.DockWidgetArea.BottomDockWidgetArea),
+                ("hotspots", "Hot spots", self.hotspot_panel, Qt.DockWidgetArea.BottomDockWidgetArea)):
             dock = QDockWidget(title, self)
             dock.setObjectName(f"dock_{key}")
             dock.setWidget(screen_fit.scrollable(widget) if key == "settings" else widget)
@@ -113,6 +117,7 @@ class MainWindow(QMainWindow):
             self.docks[key] = dock
         self.trajectory = TrajectoryController(self, self.frame_bar, self.time_series)
         self.checks = ChecksController(self, self.clash_panel, self.model_panel)
+        self.hotspots = HotspotController(self, self.hotspot_panel)
 
         self._build_status()
         self.jobs.phase.connect(self.phase_label.setText)
@@ -485,7 +490,7 @@ class MainWindow(QMainWindow):
         self.app_settings.unit = unit
         factor = ENERGY_UNITS[unit]
         for view in (self.map, self.profile, self.bars, self.ledger.model, self.atoms, self.roster.model,
-                     self.clash_panel, self.model_panel, self.time_series):
+                     self.clash_panel, self.model_panel, self.time_series, self.hotspot_panel):
             view.set_unit(factor, unit)
         self._update_groups_label()
 
@@ -545,6 +550,7 @@ class MainWindow(QMainWindow):
                 self.selection.set_atom_pair(keep_atoms)
         self.map.set_clashes([])
         self.checks.run_clash_check()
+        self.hotspots.structure_shown(self.snapshot)
         self._group_results = None
         self.roster.show_group_result("—")
         if all(self.selection.groups) and self.snapshot is not None:

@@ -29,7 +29,8 @@ LEFT_COLUMN = 300
 MAX_MINIMUM_WIDTH = 1024
 #: Minimum width of each dock (px): narrower than this a panel stops being usable.
 DOCK_MIN_WIDTH = {"roster": 200, "settings": 220, "clashes": 220, "atoms": 230, "profile": 230,
-                  "ledger": 380, "bars": 300, "models": 380, "series": 300}
+                  "ledger": 380, "bars": 300, "models": 380, "series": 300,
+                  "hotspots": 380}
 #: Height of the window's chrome around the map's plot: menu bar, tool bar, status bar, the
 #: bottom docks' title bars, the map's control bar and hover line (px, measured under Xvfb at
 #: 1366 x 768 with the Fusion style; used only to share the width out, not as a limit).
@@ -192,6 +193,8 @@ def arrange_docks(window: QMainWindow, docks: dict[str, QDockWidget], arrangemen
     window.addDockWidget(BOTTOM, d["ledger"])
     window.splitDockWidget(d["ledger"], d["bars"], H)
     window.tabifyDockWidget(d["ledger"], d["models"])
+    if "hotspots" in d:
+        window.tabifyDockWidget(d["ledger"], d["hotspots"])
     window.tabifyDockWidget(d["bars"], d["series"])
     window.addDockWidget(RIGHT, d["atoms"])
     window.splitDockWidget(d["atoms"], d["profile"], H)

@@ -203,10 +203,14 @@ class Dataset:
         """The dataset of a result file: a scan (its table), a trajectory (the mean over its
         frames) or a comparison (second minus first)."""
         name = os.path.basename(stored.path)
-        if stored.kind == "overlaps":
+        no_map = {"overlaps": "an overlap list (tessera overlaps); open its structure and the Clash check "
+                              "panel finds the overlaps again",
+                  "hotspots": "an alanine scan (tessera hotspots); open its structure and run the scan in "
+                              "the Hot spots panel"}
+        if stored.kind in no_map:
             from energy.errors import EnergyError
-            raise EnergyError(f"{name} holds an overlap list (tessera overlaps), not a residue-pair map: "
-                              "open its structure; the Clash check panel finds the overlaps again")
+            what, advice = no_map[stored.kind].split("; ", 1)
+            raise EnergyError(f"{name} holds {what}, not a residue-pair map: {advice}")
         if stored.kind == "comparison":
             c = stored.comparison
             return cls(np.asarray(c.labels, dtype=object), np.asarray(c.chains, dtype=object), c.difference,

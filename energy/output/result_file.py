@@ -375,8 +375,9 @@ class StoredResult:
     ``totals``, ``residue_pairs``.  Trajectory: also ``frames`` (dict of per-frame arrays) and
     ``statistics`` (dict of arrays).  Comparison: ``sides`` (``first``/``second`` -> dict with
     ``residues``, ``totals``, ``residue_pairs``) and ``comparison`` (the engine's
-    :class:`~energy.analysis.compare.Comparison`).  Overlaps: ``residues`` and ``overlaps``
-    (dict of the ``overlaps`` group's arrays and attributes, :mod:`energy.output.overlap_result`).
+    :class:`~energy.analysis.compare.Comparison`).  Overlaps and alanine scans: ``residues``
+    and ``overlaps`` or ``hotspots`` (dict of that group's arrays and attributes,
+    :mod:`energy.output.overlap_result`, :mod:`energy.output.hotspot_result`).
     """
 
     path: str
@@ -392,6 +393,7 @@ class StoredResult:
     sides: dict = field(default_factory=dict)
     comparison: object = None
     overlaps: dict = field(default_factory=dict)
+    hotspots: dict = field(default_factory=dict)
 
     def changed_inputs(self) -> list[str]:
         """Why each recorded input file no longer matches (missing or changed); [] if all do.
@@ -544,9 +546,9 @@ def _read_open(fh, path) -> StoredResult:
             unmatched_first_labels=list(a["unmatched_first_labels"]),
             unmatched_second_labels=list(a["unmatched_second_labels"]))
         return StoredResult(**common, sides=sides, comparison=comparison)
-    if kind == "overlaps":
-        g = fh["overlaps"]
+    if kind in ("overlaps", "hotspots"):   # one table of rows with its attributes
+        g = fh[kind]
         table = _group_arrays(g, path)
         table.update({k: (v.item() if hasattr(v, "item") else v) for k, v in g.attrs.items()})
-        return StoredResult(**common, residues=_read_residues(fh, path), overlaps=table)
+        return StoredResult(**common, residues=_read_residues(fh, path), **{kind: table})
     raise ResultFileError(path, f"unknown result kind {kind!r}")

@@ -178,6 +178,12 @@ class PairMapView(QWidget):
         self.clash_marks.setZValue(11)
         self.plot.addItem(self.clash_marks)
         self.clashes = {}                          # (i, j) residue pair -> (count, worst overlap A)
+        # hot-spot marks: a triangle on both axes at every residue above the alanine-scan marker
+        self.axis_marks = pg.ScatterPlotItem(pxMode=True, size=9, symbol="t", brush=pg.mkBrush("#b2182b"),
+                                             pen=pg.mkPen("#7f0000", width=1))
+        self.axis_marks.setZValue(12)
+        self.plot.addItem(self.axis_marks)
+        self.marked_residues = []
         self.show_clashes = True
         self.boundaries = pg.PlotCurveItem(connect="pairs", pen=pg.mkPen(
             QColor(40, 40, 40, 200), width=1.2, style=Qt.PenStyle.DashLine))
@@ -243,6 +249,27 @@ class PairMapView(QWidget):
             count, worst = self.clashes.get(key, (0, 0.0))
             self.clashes[key] = (count + int(p.count), max(worst, float(p.worst_overlap)))
         self._draw_clashes()
+
+    def set_axis_marks(self, residues) -> None:
+        """Mark ``residues`` (residue indices, e.g. the alanine scan's hot spots) along both axes;
+        empty to clear."""
+        self.marked_residues = sorted(int(r) for r in residues)
+        self._draw_axis_marks()
+
+    def axis_mark_positions(self) -> list[int]:
+        """Display positions (row = column) currently marked on the axes."""
+        xs, ys = self.axis_marks.getData()
+        return sorted({int(round(x)) for x, y in zip(xs, ys) if y == -0.5})
+
+    def _draw_axis_marks(self) -> None:
+        n = len(self.order)
+        keep = [r for r in self.marked_residues if r < n]
+        if not keep:
+            self.axis_marks.setData([], [])
+            return
+        pos = [float(self.position[r]) for r in keep]
+        edge = -0.5  # on the map's top and left border, beside the residue labels
+        self.axis_marks.setData(pos + [edge] * len(pos), [edge] * len(pos) + pos)
 
     def set_show_clashes(self, on: bool) -> None:
         self.show_clashes = bool(on)
@@ -326,6 +353,7 @@ class PairMapView(QWidget):
         self._redraw()
         self._raster_timer.stop()   # drawn for the range just set
         self._draw_clashes()
+        self._draw_axis_marks()
         self._draw_tree()
         self._on_selection(self.selection.pair)
 
