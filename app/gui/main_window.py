@@ -531,7 +531,8 @@ class MainWindow(QMainWindow):
         keep_atoms = self.selection.atom_pair
         self.selection.set_pair(None)
         self.dataset = ds
-        self.selection.set_row_of_residue(ds.row_of_residue if ds.blocks is not None else None)
+        self.selection.set_row_of_residue(*((ds.row_of_residue, ds.residue_of_row) if ds.blocks is not None
+                                            else (None, None)))
         self.map.set_dataset(ds, keep_view=keep_view)
         self.ledger.set_dataset(ds, keep_sort=keep_view)
         self.roster.set_dataset(ds)

@@ -33,6 +33,7 @@ class SelectionModel(QObject):
         self._atom_pair = None
         self._groups = ("", "")
         self._row_of_residue = None
+        self._residue_of_row = None
 
     @property
     def pair(self):
@@ -56,10 +57,19 @@ class SelectionModel(QObject):
             self.atomPairChanged.emit(())
         self.pairChanged.emit(pair or ())
 
-    def set_row_of_residue(self, row_of_residue) -> None:
-        """How system residues map to rows of the shown dataset (``Dataset.row_of_residue``;
-        None when rows are residues).  Solvent blocks make them differ."""
+    def set_row_of_residue(self, row_of_residue, residue_of_row=None) -> None:
+        """How system residues map to rows of the shown dataset (``Dataset.row_of_residue``,
+        ``Dataset.residue_of_row``; None when rows are residues).  Solvent blocks make them
+        differ."""
         self._row_of_residue = row_of_residue
+        self._residue_of_row = residue_of_row
+
+    def residue_pair(self):
+        """The selected pair as system residues (None for nothing; a block row gives None in
+        its place)."""
+        if self._pair is None or self._residue_of_row is None:
+            return self._pair
+        return tuple(self._residue_of_row(r) for r in self._pair)
 
     def set_residue_pair(self, pair) -> None:
         """Select the rows showing system residues ``pair`` (clash reports and other panels

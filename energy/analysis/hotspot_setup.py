@@ -21,7 +21,7 @@ from energy.analysis.hotspots import (
     interface_residues,
     residue_flag,
 )
-from energy.errors import SelectionError
+from energy.errors import SelectionError, SettingsError
 from energy.io.selection import select_atoms, universe_for
 
 
@@ -108,7 +108,12 @@ def scan_loaded(loaded, settings, select_a: str, select_b: str,
     ------
     SelectionError
         Invalid, overlapping or residue-splitting selections, or no interface.
+    SettingsError
+        Implicit-solvent settings (the scan is in vacuo).
     """
+    if settings is not None and getattr(settings, "implicit_solvent", None):
+        raise SettingsError("the alanine scan does not include generalized-Born solvation yet: run it "
+                            "without implicit solvent (the scan's energies are in vacuo)")
     system, frame = loaded.system, loaded.frame
     u = universe_for(system, frame)
     atoms_a = select_atoms(system, frame, select_a, u)

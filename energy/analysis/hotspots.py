@@ -48,6 +48,8 @@ SIDE_CHAIN_CLASS = {
     **dict.fromkeys(("ALA", "VAL", "LEU", "ILE", "MET", "PRO", "GLY"), "hydrophobic"),
     **dict.fromkeys(("PHE", "TYR", "TRP"), "aromatic"),
 }
+#: Registry terms without an atom-pair form (generalized Born: they need every atom's Born radius).
+MANY_BODY_TERMS = ("solvation_polar", "solvation_nonpolar")
 #: Residue names with nothing to truncate.
 NOT_SCANNED = {"GLY": "glycine has no side chain", "ALA": "already alanine"}
 PROLINE = ("PRO",)
@@ -65,7 +67,8 @@ def pair_term_values(pairs_coulomb: np.ndarray, pairs_lj: np.ndarray) -> dict:
     Returns
     -------
     dict
-        Term name -> (n,) float64 kcal/mol, in registry order.
+        Term name -> (n,) float64 kcal/mol, in registry order (the pairwise terms: Coulomb and LJ;
+        the many-body generalized-Born terms are not part of the scan).
 
     Raises
     ------
@@ -73,10 +76,12 @@ def pair_term_values(pairs_coulomb: np.ndarray, pairs_lj: np.ndarray) -> dict:
         If the registry holds a nonbonded term that has no atom-pair form here.
     """
     known = {"coulomb": pairs_coulomb, "lj": pairs_lj}
-    missing = [t for t in registry.NONBONDED_TERMS if t not in known]
+    # the generalized-Born terms are many-body (Born radii) and zero in vacuo; the scan runs in
+    # vacuo only (scan_loaded refuses implicit-solvent settings) and leaves them out
+    missing = [t for t in registry.NONBONDED_TERMS if t not in known and t not in MANY_BODY_TERMS]
     if missing:
         raise EnergyError(f"the alanine scan has no atom-pair form for the term(s) {', '.join(missing)}")
-    return {t: known[t] for t in registry.NONBONDED_TERMS}
+    return {t: known[t] for t in registry.NONBONDED_TERMS if t in known}
 
 
 @dataclass(frozen=True)

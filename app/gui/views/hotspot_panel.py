@@ -203,7 +203,7 @@ class HotspotView(QWidget):
     # -- selection -----------------------------------------------------------------------------
     def select_residue(self, residue: int) -> None:
         """Pick ``residue`` everywhere: (r, r) in the shared selection, its row here, its lost contacts."""
-        self.selection.set_pair((residue, residue))
+        self.selection.set_residue_pair((residue, residue))
         self._show_residue(residue)
 
     def _on_row(self, current, _previous) -> None:
@@ -214,7 +214,7 @@ class HotspotView(QWidget):
     def _on_pair(self, pair) -> None:
         if self.scan is None or not pair:
             return
-        i, j = pair
+        i, j = self.selection.residue_pair()   # map rows -> residues (solvent blocks: None)
         hits = [r for r in ((i,) if i == j else (i, j)) if r in set(self.scan.residue.tolist())]
         if hits:
             self._show_residue(int(hits[0]))

@@ -263,7 +263,10 @@ class PairMapView(QWidget):
 
     def _draw_axis_marks(self) -> None:
         n = len(self.order)
-        keep = [r for r in self.marked_residues if r < n]
+        row = self.dataset.row_of_residue if self.dataset is not None else int
+        keep = [row(r) for r in self.marked_residues if self.dataset is not None
+                and r < len(self.dataset.blocks.residue_to_row if self.dataset.blocks is not None else self.order)]
+        keep = [r for r in keep if r < n]
         if not keep:
             self.axis_marks.setData([], [])
             return
