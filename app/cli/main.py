@@ -27,6 +27,7 @@ SUBCOMMANDS = {
     "view": ("view", "open the desktop window"),
     "compare": ("compare", "difference map of two structures of the same system"),
     "overlaps": ("overlaps", "rank overlapping atom pairs (steric clashes)"),
+    "forcefields": ("forcefields", "list the force fields and water models --forcefield/--water choose"),
 }
 
 
