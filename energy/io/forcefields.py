@@ -58,6 +58,12 @@ FORCE_FIELDS = {
                                  ("charmm36.xml",),
                                  {"tip3p": "charmm36/water.xml", "tip4pew": "charmm36/tip4pew.xml",
                                   "spce": "charmm36/spce.xml"}, "tip3p"),
+    "charmm36_2024": ForceFieldChoice("charmm36_2024", "CHARMM36m (July 2024 release as converted for "
+                                      "OpenMM; NBFIX pairs such as Arg NC2 - carboxylate OC)",
+                                      ("charmm36_2024.xml",),
+                                      {"tip3p": "charmm36_2024/water.xml",
+                                       "tip4pew": "charmm36_2024/tip4pew.xml",
+                                       "spce": "charmm36_2024/spce.xml"}, "tip3p"),
 }
 DEFAULT_FORCE_FIELD_NAME = "amber14"
 #: Water models with a virtual site (4-site): their extra particles are added to the water.
