@@ -5,8 +5,8 @@ independent brute-force numpy sum of the residue-pair nonbonded energies from Op
   (double precision); the NonbondedForce evaluated once with its Lennard-Jones zeroed (Coulomb)
   and once with its charges zeroed (LJ, to which the CustomNonbondedForce and its CustomBondForce
   1-4 companion are added).  Urey-Bradley rows (1-3 pairs of the HarmonicBondForce outside
-  3-atom molecules) are evaluated alone by zeroing the other rows.  OpenMM places virtual sites
-  itself before every energy evaluation.
+  3-atom molecules) are evaluated alone by zeroing the other rows.  Virtual sites are placed by
+  OpenMM's ``Context.computeVirtualSites`` before every evaluation.
 * :func:`brute_force_residue_pairs`: Coulomb and LJ of every atom pair (no cutoff, plain
   Coulomb), summed into a dense residue x residue matrix, from the NonbondedForce particles and
   exceptions and, where present, the tabulated A/B of the CustomNonbondedForce and the 1-4
@@ -30,6 +30,7 @@ def _context(system, positions_nm, box_vectors=None):
     if box_vectors is not None:
         ctx.setPeriodicBoxVectors(*box_vectors)
     ctx.setPositions(positions_nm)
+    ctx.computeVirtualSites()  # OpenMM's own placement of the sites from their parents
     return ctx
 
 
@@ -150,7 +151,6 @@ def reference_terms(omm_system, topology, positions_angstrom, cutoff_nm=None, bo
 def openmm_site_positions(omm_system, positions_angstrom) -> np.ndarray:
     """Positions (A) with OpenMM's ``Context.computeVirtualSites`` applied."""
     ctx = _context(copy.deepcopy(omm_system), np.asarray(positions_angstrom) / 10.0)
-    ctx.computeVirtualSites()
     return np.asarray(ctx.getState(getPositions=True).getPositions(asNumpy=True).value_in_unit(unit.angstrom))
 
 

@@ -159,7 +159,7 @@ def test_amber19_opc_virtual_sites_terms_and_residue_pairs(small_solvated):
     spoiled = x.copy()
     spoiled[system.virtual_sites.site] += 0.37
     ours = compute(system, Frame(spoiled, None), EnergySettings())
-    ref = reference_terms(omm, top, spoiled)  # OpenMM places the sites itself, too
+    ref = reference_terms(omm, top, spoiled)  # OpenMM's computeVirtualSites places them there
     _compare_terms(ours, ref)
     coul, lj = brute_force_residue_pairs(omm, top, spoiled)
     assert_matrices_close(dense_pairs(ours, "coulomb"), coul, "coulomb residue pairs (OPC)")
