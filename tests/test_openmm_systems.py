@@ -283,3 +283,67 @@ def test_copy_keeps_virtual_sites(small_solvated):
     system = system_from_openmm(omm, top)
     again = pickle.loads(pickle.dumps(copy.deepcopy(system)))
     np.testing.assert_array_equal(again.virtual_sites.parents, system.virtual_sites.parents)
+
+
+def test_sites_are_placed_in_every_trajectory_frame(small_solvated, tmp_path):
+    """A PDB with OPC waters (sites included, written by OpenMM's PDBFile) and a 2-frame DCD whose
+    second frame moves hydrogens but leaves the sites where they were: every frame's terms match
+    OpenMM with its computeVirtualSites."""
+    import MDAnalysis as mda
+
+    from energy.analysis.trajectory import TrajectoryRequest, TrajectorySource
+    from energy.io.preparation import PreparationOptions
+    omm, top, x = _built(small_solvated, force_field_files("amber19", "opc"))
+    pdb = tmp_path / "opc.pdb"
+    with open(pdb, "w") as handle:
+        app.PDBFile.writeFile(top, x * unit.angstrom, handle, keepIds=True)
+    moved = x.copy()
+    hydrogens = [a.index for a in top.atoms() if a.residue.name == "HOH" and a.name == "H1"][:20]
+    moved[hydrogens] += 0.25
+    dcd = tmp_path / "opc.dcd"
+    u = mda.Universe.empty(len(x), trajectory=True)
+    with mda.Writer(str(dcd), len(x)) as writer:
+        for positions in (x, moved):
+            u.atoms.positions = positions
+            writer.write(u.atoms)
+    request = TrajectoryRequest(str(pdb), str(dcd),
+                                preparation=PreparationOptions(force_field_name="amber19", water="opc"))
+    source = TrajectorySource(request)
+    system = source.system
+    assert len(system.virtual_sites) == len([r for r in top.residues() if r.name == "HOH"])
+    for frame, positions in zip(source.frames([0, 1]), (x, moved)):
+        record, _ = source.evaluate(frame)
+        raw = positions.astype(np.float32).astype(np.float64)  # as the DCD stores them
+        ref = reference_terms(omm, top, raw)
+        assert_close(record.totals["coulomb"], ref["coulomb"], f"frame {frame.index}: coulomb")
+        assert_close(record.totals["lj"], ref["lj"], f"frame {frame.index}: lj")
+
+
+def test_pdb_route_adds_the_sites_of_a_four_site_water(small_solvated, tmp_path, capsys):
+    """--forcefield amber19 --water opc on a PDB with 3-site waters: the M sites are added
+    (OpenMM's Modeller.addExtraParticles) and the terms match OpenMM's ForceField on the same
+    atoms; the command line takes the same options."""
+    from app.cli.main import main
+    from energy.io.loaders import load_system
+    from energy.io.preparation import PreparationOptions
+    pdb = tmp_path / "three_site.pdb"
+    with open(pdb, "w") as handle:
+        app.PDBFile.writeFile(small_solvated.topology, small_solvated.positions, handle, keepIds=True)
+    loaded = load_system(str(pdb), preparation=PreparationOptions(force_field_name="amber19", water="opc"))
+    n_water = sum(1 for r in small_solvated.topology.residues() if r.name == "HOH")
+    assert len(loaded.system.virtual_sites) == n_water
+    ff = app.ForceField(*force_field_files("amber19", "opc"))
+    reread = app.PDBFile(str(pdb))
+    m = app.Modeller(reread.topology, reread.positions)
+    m.addExtraParticles(ff)
+    omm = ff.createSystem(m.topology, nonbondedMethod=app.NoCutoff, constraints=None, rigidWater=False,
+                          removeCMMotion=False)
+    ours = compute(loaded.system, loaded.frame, EnergySettings())
+    _compare_terms(ours, reference_terms(omm, m.topology, loaded.frame.positions))
+    assert main(["scan", str(pdb), "--forcefield", "amber19", "--water", "opc", "--json",
+                 str(tmp_path / "r.json")]) == 0
+    assert main(["forcefields"]) == 0
+    listing = capsys.readouterr().out
+    assert "amber19" in listing and "charmm36" in listing and "opc" in listing
+    assert main(["scan", str(pdb), "--forcefield", "charmm36", "--water", "opc"]) == 2  # CHARMM36 has no OPC
+    assert "--water opc: the charmm36 force field has" in capsys.readouterr().err
