@@ -82,3 +82,20 @@ def test_cli_scan_with_include_dir(gromacs_files, tmp_path):
     assert main(["scan", top, gro, "--include-dir", include_dir, "--cutoff", "10",
                  "--electrostatics", "reaction-field", "--json", str(out)]) == 0
     assert out.stat().st_size > 0
+
+
+def test_amber_netcdf_restart_gives_the_ascii_restart_frame(tmp_path):
+    """A NetCDF restart (.ncrst) written by ParmEd from parmed_ala2_solv.rst7 (MDAnalysisTests)
+    gives the same positions and box as the ASCII restart (both read by OpenMM's AmberInpcrdFile)."""
+    import warnings
+
+    import numpy as np
+    structure = parmed.load_file(mdat.PRM7_ala2, xyz=mdat.RST7_ala2)
+    ncrst = tmp_path / "ala2.ncrst"
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # ParmEd notes that it falls back on scipy's NetCDF
+        structure.save(str(ncrst), overwrite=True)
+    binary = load_system(mdat.PRM7_ala2, str(ncrst))
+    ascii_ = load_system(mdat.PRM7_ala2, mdat.RST7_ala2)
+    np.testing.assert_allclose(binary.frame.positions, ascii_.frame.positions, atol=1e-6)
+    np.testing.assert_allclose(binary.frame.box, ascii_.frame.box, atol=1e-6)
