@@ -135,6 +135,13 @@ def test_trajectory_frame_and_overlaps_command(tmp_path, capsys):
     assert main(["overlaps", mdat.PRM, mdat.TRJ, "--frame", "3"]) == 0
     assert main(["scan", mdat.PRM, mdat.TRJ, "--json", str(tmp_path / "r.json")]) == 0
     assert (tmp_path / "r.json").stat().st_size > 0
+    # the trajectory route: frames 0..2, frame 2's totals equal the single-frame computation
+    import json
+    assert main(["scan", mdat.PRM, mdat.TRJ, "--frames", "0:3", "--json", str(tmp_path / "t.json")]) == 0
+    frames = json.loads((tmp_path / "t.json").read_text())
+    frame2 = load_system(mdat.PRM, mdat.TRJ, frame=2)
+    single = compute(frame2.system, frame2.frame, EnergySettings())
+    assert_close(_frame_total(frames, 2, "coulomb"), single.totals["coulomb"], "frame 2 coulomb")
 
 
 def test_missing_coordinates_and_tpr_give_one_line(tmp_path):
@@ -145,3 +152,25 @@ def test_missing_coordinates_and_tpr_give_one_line(tmp_path):
     tpr.write_bytes(b"\x00\x01")
     with pytest.raises(StructureFileError, match=r"\.tpr.*pass the \.top and the \.gro"):
         load_system(str(tpr))
+
+
+def test_ff19sb_opc_topology_sites_are_placed_as_openmm_places_them(tmp_path):
+    """MDAnalysisTests' ala.ff19SB.OPC.parm7 (ff19SB with CMAP, OPC water with its extra point):
+    AmberPrmtopFile's virtual sites become the engine's, and for any parent positions the sites
+    sit where OpenMM's computeVirtualSites puts them."""
+    from openmm_terms import openmm_site_positions
+
+    from energy.io.openmm_system import system_from_openmm
+    parm = tmp_path / "ala.ff19SB.OPC.parm7"
+    parm.write_bytes(bz2.decompress(open(os.path.join(AMBER, "ala.ff19SB.OPC.parm7.bz2"), "rb").read()))
+    omm, top = _reference_system(str(parm))
+    system = system_from_openmm(omm, top)
+    n_sites = sum(omm.isVirtualSite(i) for i in range(omm.getNumParticles()))
+    assert n_sites > 0 and len(system.virtual_sites) == n_sites and len(system.cmap) > 0
+    x = np.random.default_rng(3).uniform(0, 20, (system.n_atoms, 3))
+    np.testing.assert_allclose(system.virtual_sites.place(x), openmm_site_positions(omm, x), atol=1e-6)
+
+
+def _frame_total(document, index, term):
+    """A term's total of frame ``index`` in the trajectory JSON (``frames`` and ``per_frame_totals``)."""
+    return document["per_frame_totals"][term][document["frames"].index(index)]
