@@ -1,14 +1,13 @@
 """The built-in force-field route: a PDB or mmCIF alone, parameterised with OpenMM's library.
 
 OpenMM's ``ForceField`` matches residue templates (default: the Amber 14 protein force field,
-``amber14-all.xml``, with TIP3P water, ``amber14/tip3p.xml``, plus any ``--forcefield-file``),
-after the preparation asked for (:mod:`energy.io.preparation`: chain breaks, repair, hydrogens).
-Residues that match no template stop the run with one message naming them all
-(:mod:`energy.io.residue_messages`).  The resulting ``openmm.System`` is converted
-into the engine's own arrays: harmonic forces to ``K (x - x0)^2`` form (K = k/2), kJ -> kcal,
-nm -> A, sigma -> Rmin = 2^(1/6) sigma; NonbondedForce exceptions keep OpenMM's own 1-4 scaling
-(for Amber: Coulomb 1/1.2, LJ 1/2).  Periodic torsions whose four atoms are not a bonded chain
-are periodic impropers.
+``amber14-all.xml``, with TIP3P water, ``amber14/tip3p.xml``; ``--forcefield``/``--water`` pick
+another bundled one, :mod:`energy.io.forcefields`; plus any ``--forcefield-file``), after the
+preparation asked for (:mod:`energy.io.preparation`: chain breaks, repair, hydrogens).  A 4-site
+water model gets its virtual sites (OpenMM's ``Modeller.addExtraParticles``).  Residues that
+match no template stop the run with one message naming them all
+(:mod:`energy.io.residue_messages`).  The resulting ``openmm.System`` is converted into the
+engine's own arrays by :func:`energy.io.openmm_system.system_from_openmm`.
 """
 from __future__ import annotations
 
