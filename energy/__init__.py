@@ -15,13 +15,15 @@ from energy.errors import (
     SettingsError,
     StructureFileError,
     UnknownResidueError,
+    UnsupportedForceError,
 )
 from energy.model.settings import EnergySettings
 from energy.model.system import Frame, MolecularSystem, ResidueTable, TermTable
 from energy.terms.registry import TERMS
 
 __all__ = ["EnergyError", "InputMismatchError", "MissingParametersError", "SelectionError",
-           "SettingsError", "StructureFileError", "UnknownResidueError", "EnergySettings",
+           "SettingsError", "StructureFileError", "UnknownResidueError", "UnsupportedForceError",
+           "EnergySettings",
            "TERMS", "Frame", "prepare_kernels", "MolecularSystem", "ResidueTable", "TermTable"]
 
 

@@ -161,6 +161,17 @@ class MissingParametersError(EnergyError, KeyError):
         super().__init__(head + "; ".join(shown) + (f" ({rest} more)" if rest else "") + hint)
 
 
+class UnsupportedForceError(StructureFileError):
+    """An OpenMM ``System`` holds a force (or a form of one) the engine has no term for.
+
+    ``force_class`` names the OpenMM class (``GBSAOBCForce``, ``CustomCompoundBondForce``, ...).
+    """
+
+    def __init__(self, path, force_class: str, message: str):
+        super().__init__(path, message)
+        self.force_class = force_class
+
+
 class InputMismatchError(EnergyError, ValueError):
     """Two inputs that must describe the same atoms disagree (count, names, order)."""
 

@@ -15,9 +15,11 @@ LARGE_JSON_PAIRS = 1_000_000
 
 def add_input_arguments(p: argparse.ArgumentParser) -> None:
     """Arguments shared by every command that loads a system."""
-    p.add_argument("structure", help="PSF topology, or a PDB/mmCIF for the built-in force field")
+    p.add_argument("structure", help="PSF, Amber .prmtop/.parm7, GROMACS .top, serialised OpenMM "
+                   "System .xml, or a PDB/mmCIF for the built-in force fields")
     p.add_argument("coords", nargs="?", default=None,
-                   help="coordinates (PDB, CRD, DCD, ...); required with a PSF")
+                   help="coordinates (PDB, CRD, DCD, .inpcrd/.rst7/.nc, .gro, ...); required with a "
+                        "PSF, .prmtop, .top or .xml")
     p.add_argument("--params", action="append", default=[], metavar="FILE",
                    help="CHARMM-style parameter or stream file (repeat for several)")
     p.add_argument("--frame", type=int, default=0, metavar="N", help="frame of a trajectory (0-based)")
@@ -38,6 +40,13 @@ def add_preparation_arguments(p: argparse.ArgumentParser) -> None:
                    help="OpenMM force-field XML with extra residue templates (ligands, cofactors); repeat")
     g.add_argument("--drop-unmatched", action="store_true",
                    help="leave out residues that match no template (listed in the summary)")
+    g.add_argument("--forcefield", default="", metavar="NAME",
+                   help="force field bundled with OpenMM: amber14 (default), amber19, charmm36 "
+                        "(tessera forcefields lists them)")
+    g.add_argument("--water", default="", metavar="MODEL",
+                   help="water model of that force field: tip3p, opc, tip4pew, spce (default: its own)")
+    p.add_argument("--include-dir", action="append", default=[], metavar="DIR",
+                   help="folder searched for #include files of a GROMACS .top (repeat for several)")
 
 
 def preparation_from_args(args):
@@ -47,7 +56,10 @@ def preparation_from_args(args):
                               repair=bool(getattr(args, "repair", False)),
                               ph=float(getattr(args, "ph", 7.0)),
                               forcefield_files=tuple(getattr(args, "forcefield_file", None) or ()),
-                              drop_unmatched=bool(getattr(args, "drop_unmatched", False)))
+                              drop_unmatched=bool(getattr(args, "drop_unmatched", False)),
+                              force_field_name=str(getattr(args, "forcefield", "") or ""),
+                              water=str(getattr(args, "water", "") or ""),
+                              include_dirs=tuple(getattr(args, "include_dir", None) or ()))
 
 
 def add_settings_arguments(p: argparse.ArgumentParser) -> None:

@@ -28,6 +28,7 @@ SUBCOMMANDS = {
     "compare": ("compare", "difference map of two structures of the same system"),
     "overlaps": ("overlaps", "rank overlapping atom pairs (steric clashes)"),
     "hotspots": ("hotspots", "alanine scan of an interface: which residues hold it together"),
+    "forcefields": ("forcefields", "list the force fields and water models --forcefield/--water choose"),
 }
 
 

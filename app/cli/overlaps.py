@@ -9,6 +9,7 @@ import argparse
 import json
 import math
 import os
+import sys
 
 from app.cli.arguments import add_input_arguments, preparation_from_args
 from energy.analysis.clashes import DEFAULT_OVERLAP, RADII_SOURCES, ClashOptions
@@ -98,6 +99,8 @@ def run(args) -> int:
         raise SettingsError(f"--top must be >= 0, got {args.top}")
     loaded = load_system(args.structure, args.coords, args.params, frame=args.frame,
                          preparation=preparation_from_args(args))
+    for note in loaded.system.notes:
+        print(f"note: {note}", file=sys.stderr)
     report = find_clashes(loaded.system, loaded.frame, options)
     if args.json:
         source = {"structure": loaded.structure_path, "coords": loaded.coords_path,

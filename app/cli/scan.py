@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import os
+import sys
 import time
 
 from app.cli.arguments import (
@@ -87,6 +88,8 @@ def run(args) -> int:
     prepare_seconds = time.perf_counter() - t0
     loaded = load_system(args.structure, args.coords, args.params, frame=args.frame,
                          preparation=preparation_from_args(args))
+    for note in loaded.system.notes:
+        print(f"note: {note}", file=sys.stderr)
     if args.write_prepared:
         write_prepared(loaded, args.write_prepared)
     t0 = time.perf_counter()

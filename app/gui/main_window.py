@@ -35,6 +35,7 @@ from app.state.document import SOLVENT_CHAIN, Dataset, LoadSpec
 from energy import results
 from energy.analysis.compare import compare_results
 from energy.decomposition.atom_pairs import selection_interaction
+from energy.errors import EnergyError
 from energy.model.settings import EnergySettings
 from energy.terms.registry import map_quantities
 from energy.units import ENERGY_UNITS
@@ -254,7 +255,12 @@ class MainWindow(QMainWindow):
         if len(files) == 1 and files[0].lower().endswith(RESULT_SUFFIXES):
             self.open_result(files[0])
             return
-        self.open_spec(LoadSpec.from_files(files))
+        try:
+            spec = LoadSpec.from_files(files)
+        except EnergyError as exc:  # one line naming the files and what is missing
+            show_error(self, "Could not open these files", str(exc), "")
+            return
+        self.open_spec(spec)
 
     # -- result files (docs/result-file.md) -------------------------------------------------
     def open_result(self, path: str) -> None:

@@ -36,11 +36,17 @@ class LoadSpec:
     ph: float = 7.0
     forcefield_files: tuple = ()
     drop_unmatched: bool = False
+    #: PDB/mmCIF: a force field bundled with OpenMM by name and its water model ("" = defaults).
+    force_field_name: str = ""
+    water: str = ""
+    #: GROMACS .top: further folders for #include.
+    include_dirs: tuple = ()
 
     def as_dict(self) -> dict:
         d = asdict(self)
         d["params"] = list(self.params)
         d["forcefield_files"] = list(self.forcefield_files)
+        d["include_dirs"] = list(self.include_dirs)
         return d
 
     @classmethod
@@ -50,28 +56,26 @@ class LoadSpec:
                    add_hydrogens=bool(d.get("add_hydrogens")), repair=bool(d.get("repair")),
                    ph=float(d.get("ph", 7.0) or 7.0),
                    forcefield_files=tuple(d.get("forcefield_files") or ()),
-                   drop_unmatched=bool(d.get("drop_unmatched")))
+                   drop_unmatched=bool(d.get("drop_unmatched")),
+                   force_field_name=str(d.get("force_field_name") or ""), water=str(d.get("water") or ""),
+                   include_dirs=tuple(d.get("include_dirs") or ()))
 
     def preparation(self):
         """The :class:`energy.io.preparation.PreparationOptions` of this spec."""
         from energy.io.preparation import PreparationOptions
         return PreparationOptions(add_hydrogens=self.add_hydrogens, repair=self.repair, ph=self.ph,
                                   forcefield_files=self.forcefield_files,
-                                  drop_unmatched=self.drop_unmatched)
+                                  drop_unmatched=self.drop_unmatched, force_field_name=self.force_field_name,
+                                  water=self.water, include_dirs=self.include_dirs)
 
     @classmethod
     def from_files(cls, files) -> LoadSpec:
-        """Sort a list of dropped/command-line files into a spec (PSF first, params, coords)."""
-        files = [os.fspath(f) for f in files]
-        ext = lambda f: os.path.splitext(f)[1].lower()  # noqa: E731
-        psf = [f for f in files if ext(f) == ".psf"]
-        params = [f for f in files if ext(f) in (".prm", ".par", ".str", ".rtf", ".inp")]
-        rest = [f for f in files if f not in psf and f not in params]
-        if psf:
-            return cls(psf[0], rest[0] if rest else None, tuple(params))
-        if not rest:
-            return cls(files[0] if files else "", None, tuple(params))
-        return cls(rest[0], rest[1] if len(rest) > 1 else None, tuple(params))
+        """Sort a list of dropped/command-line files into a spec by their suffixes
+        (:func:`energy.io.input_files.arrange_inputs`; raises its one-line StructureFileError)."""
+        from energy.io.input_files import arrange_inputs
+        arranged = arrange_inputs(files)
+        return cls(arranged.structure, arranged.coords, arranged.params,
+                   forcefield_files=arranged.forcefield_files)
 
     def short_name(self) -> str:
         name = os.path.basename(self.structure)

@@ -34,6 +34,7 @@ from energy.errors import SettingsError
 from energy.io.validation import check_frame
 from energy.model.settings import EXP6_ALPHA_MATCHING_LJ
 from energy.model.system import Frame, MolecularSystem
+from energy.model.virtual_sites import placed_frame
 from energy.terms.exclusions import excluded_and_14
 from energy.terms.nonbonded import plain_pair_energies
 
@@ -409,11 +410,14 @@ def find_clashes(system: MolecularSystem, frame: Frame, options: ClashOptions | 
     """
     opt = options or ClashOptions()
     n = system.n_atoms
+    if np.shape(frame.positions) != (n, 3):
+        raise SettingsError(f"the frame has {len(frame.positions)} atoms, the system {n}")
+    frame = placed_frame(system, frame)  # virtual sites from their parents
     x = np.asarray(frame.positions, float)
-    if x.shape != (n, 3):
-        raise SettingsError(f"the frame has {len(x)} atoms, the system {n}")
     check_frame(system, frame)  # coincident atoms, a degenerate cell, ...: before any energy
-    searched = np.ones(n, bool) if opt.include_hydrogens else system.is_heavy
+    searched = np.ones(n, bool) if opt.include_hydrogens else system.is_heavy.copy()
+    if system.virtual_sites is not None:
+        searched[system.virtual_sites.site] = False  # massless sites are no atoms to clash
     atoms = np.flatnonzero(searched)
     radii, fallback = atom_radii(system, opt.radii)
     excluded, keys14 = excluded_and_14(system)

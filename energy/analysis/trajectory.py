@@ -42,6 +42,7 @@ from energy.io.selection import select_atoms, universe_for
 from energy.io.whole import whole_frame
 from energy.model.settings import EnergySettings
 from energy.model.system import Frame
+from energy.model.virtual_sites import placed_frame
 
 # COLUMNS: of the pair statistics and of the chosen-pair records, every term, then their sum.
 from energy.terms.registry import TERMS
@@ -278,7 +279,8 @@ class TrajectorySource:
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")
                 ts = read_timestep(self.universe, int(k), self.path)
-            yield whole_frame(self.system, frame_from_timestep(ts, self.path, int(k)))
+            # whole molecules, then the virtual sites from their parents
+            yield placed_frame(self.system, whole_frame(self.system, frame_from_timestep(ts, self.path, int(k))))
 
     # -- one frame ------------------------------------------------------------------------
     def _pair_distances(self, frame: Frame, periodic: bool) -> np.ndarray:

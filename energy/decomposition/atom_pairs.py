@@ -20,6 +20,7 @@ from energy.io.validation import check_frame
 from energy.model.cell import nonbonded_cell
 from energy.model.settings import EnergySettings
 from energy.model.system import Frame, MolecularSystem
+from energy.model.virtual_sites import placed_frame
 from energy.terms.nonbonded import KernelConstants, exception_energies, pair_energies
 
 #: Atom pairs evaluated per block when a no-cutoff request spans many atoms.
@@ -117,7 +118,7 @@ def atom_pair_energies(system: MolecularSystem, frame: Frame, settings: EnergySe
         chosen vdW form: LJ or exp-6), ``is_exception`` (n,) bool.
     """
     settings = settings or EnergySettings()
-    x = frame.positions
+    x = placed_frame(system, frame).positions  # virtual sites from their parents
     atoms_a = np.unique(np.asarray(atoms_a, np.intp))
     atoms_b = None if atoms_b is None else np.unique(np.asarray(atoms_b, np.intp))
     box = nonbonded_cell(frame.box, system.n_atoms, settings.use_periodic).box

@@ -23,6 +23,7 @@ from energy.io.validation import check_frame
 from energy.model.cell import nonbonded_cell
 from energy.model.settings import EnergySettings
 from energy.model.system import Frame, MolecularSystem
+from energy.model.virtual_sites import placed_frame
 from energy.terms import registry
 from energy.terms.exclusions import exclusion_csr
 from energy.terms.nonbonded import KernelConstants, exception_energies
@@ -173,6 +174,7 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
     """
     settings = settings or EnergySettings()
     t_checks = time.perf_counter()
+    frame = placed_frame(system, frame)  # virtual sites from their parents, before any term
     _validate_frame(system, frame)
     t0 = time.perf_counter()
     x = frame.positions

@@ -6,6 +6,8 @@
   (:mod:`energy.io.builtin`), after the preparation asked for (:mod:`energy.io.preparation`);
   ``frame`` N without coordinates is the file's model N; optional coordinates (a trajectory or
   another frame of the same atoms) replace the positions.
+* ``*.prmtop``/``*.parm7`` (Amber), ``*.top`` (GROMACS) or ``*.xml`` (a serialised OpenMM System),
+  each with its coordinates: :mod:`energy.io.openmm_routes`.  ``*.tpr`` is refused with advice.
 """
 from __future__ import annotations
 
@@ -16,6 +18,7 @@ from dataclasses import dataclass, field
 from energy.errors import StructureFileError
 from energy.io.whole import whole_frame
 from energy.model.system import Frame, MolecularSystem
+from energy.model.virtual_sites import placed_frame
 
 STRUCTURE_SUFFIXES = (".pdb", ".ent", ".cif", ".mmcif", ".pdbx")
 
@@ -48,8 +51,36 @@ def _check_readable(path) -> str:
     return path
 
 
+def _openmm_route(suffix, structure, coords, params, frame, options, include_dirs):
+    """The Amber, GROMACS and serialised-System routes: (system, frame), or None for another suffix."""
+    from energy.io import openmm_routes as routes
+    kinds = {**dict.fromkeys(routes.AMBER_TOPOLOGY_SUFFIXES, ("Amber topology", "an .inpcrd/.rst7/.ncrst "
+                                                              "restart or a trajectory (.nc, .mdcrd, .dcd)")),
+             ".top": ("GROMACS topology", "the .gro file"),
+             ".xml": ("serialised OpenMM System", "the PDB/mmCIF of its atoms")}
+    if suffix == ".tpr":
+        raise StructureFileError(structure, "a GROMACS .tpr (binary run input) is not read: pass the .top "
+                                 "and the .gro instead (tessera scan system.top system.gro)")
+    if suffix not in kinds:
+        return None
+    what, needs = kinds[suffix]
+    if coords is None:
+        raise StructureFileError(structure, f"a {what} holds no coordinates: give {needs} after it")
+    if params:
+        raise StructureFileError(params[0], f"--params goes with a PSF; a {what} carries its own parameters")
+    if options.adds_hydrogens or options.chooses_force_field or options.drop_unmatched:
+        raise StructureFileError(structure, "--add-hydrogens, --repair, --forcefield, --water, "
+                                 "--forcefield-file and --drop-unmatched prepare a PDB/mmCIF; a "
+                                 f"{what} is used with its own parameters")
+    if suffix in routes.AMBER_TOPOLOGY_SUFFIXES:
+        return routes.load_amber(structure, coords, frame)
+    if suffix == ".top":
+        return routes.load_gromacs(structure, coords, frame, include_dirs)
+    return routes.load_serialized_system(structure, coords, frame)
+
+
 def load_system(structure, coords=None, params=(), frame: int = 0, add_hydrogens: bool = False,
-                force_field=None, preparation=None) -> LoadedSystem:
+                force_field=None, preparation=None, include_dirs=()) -> LoadedSystem:
     """Load and parameterise a system; see the module docstring for the routes.
 
     Parameters
@@ -68,6 +99,8 @@ def load_system(structure, coords=None, params=(), frame: int = 0, add_hydrogens
         Built-in route: OpenMM force-field XML files (None: :data:`energy.io.builtin.DEFAULT_FORCE_FIELD`).
     preparation : energy.io.preparation.PreparationOptions or None, optional
         Built-in route: how to prepare a deposited structure (default: only ``add_hydrogens``).
+    include_dirs : sequence of str, optional
+        GROMACS route: further folders for ``#include`` (after the top's own folder).
 
     Returns
     -------
@@ -99,8 +132,8 @@ def load_system(structure, coords=None, params=(), frame: int = 0, add_hydrogens
         if coords is None:
             raise StructureFileError(structure, "a PSF holds no coordinates: give a coordinate file "
                                      "(PDB, CRD, DCD, ...) after it")
-        if options.add_hydrogens or options.repair or options.forcefield_files or options.drop_unmatched:
-            raise StructureFileError(structure, "--add-hydrogens, --repair, --forcefield-file and "
+        if options.adds_hydrogens or options.chooses_force_field or options.drop_unmatched:
+            raise StructureFileError(structure, "--add-hydrogens, --repair, --forcefield(-file), --water and "
                                      "--drop-unmatched prepare a PDB/mmCIF for the built-in force field; "
                                      "a PSF topology is used as it is")
         psf = read_psf(structure)
@@ -113,12 +146,12 @@ def load_system(structure, coords=None, params=(), frame: int = 0, add_hydrogens
         t_coords = time.perf_counter()
         timings = {"read": (t_read - t0) + (t_coords - t_param), "parameterise": t_param - t_read}
     elif suffix in STRUCTURE_SUFFIXES:
-        from energy.io.builtin import DEFAULT_FORCE_FIELD, load_builtin_prepared
+        from energy.io.builtin import load_builtin_prepared
         if params:
             raise StructureFileError(params[0], "parameter files go with a PSF topology; a PDB/mmCIF "
                                      "alone is parameterised by the built-in force field")
         system, fr, _top, prepared = load_builtin_prepared(structure, options,
-                                                           force_field or DEFAULT_FORCE_FIELD)
+                                                           force_field or options.force_field)
         read_s = prepared.read_seconds
         t_param = time.perf_counter()
         timings = {"read": read_s, "parameterise": (t_param - t0) - read_s}
@@ -134,9 +167,17 @@ def load_system(structure, coords=None, params=(), frame: int = 0, add_hydrogens
         elif frame:
             fr = model_frame(structure, prepared.models, fr.box, frame)
     else:
-        raise StructureFileError(structure, f"unknown structure format {suffix!r}: expected a PSF "
-                                 "(with --params and coordinates) or a PDB/mmCIF file (.gz too)")
-    fr = whole_frame(system, fr)  # molecules split across a periodic box: whole again
+        loaded = _openmm_route(suffix, structure, coords, params, frame, options,
+                               tuple(include_dirs) or options.include_dirs)
+        if loaded is None:
+            raise StructureFileError(structure, f"unknown structure format {suffix!r}: expected a PSF "
+                                     "(with --params and coordinates), a PDB/mmCIF (.gz too), an Amber "
+                                     ".prmtop/.parm7, a GROMACS .top or a serialised OpenMM System .xml, "
+                                     "each with its coordinates")
+        system, fr = loaded
+        t_param = time.perf_counter()
+        timings = {"read": 0.0, "parameterise": t_param - t0}
+    fr = placed_frame(system, whole_frame(system, fr))  # whole molecules, then the virtual sites
     return LoadedSystem(system, fr, timings, structure, coords or "", params,
                         preparation=None if prepared is None else prepared.record,
                         models=None if prepared is None else prepared.models,

@@ -62,11 +62,30 @@ class PreparationOptions:
     ph: float = 7.0
     forcefield_files: tuple = ()
     drop_unmatched: bool = False
+    #: A force field bundled with OpenMM by name (energy.io.forcefields; "" = Amber 14) and its
+    #: water model ("" = the force field's default).
+    force_field_name: str = ""
+    water: str = ""
+    #: GROMACS route: further folders for ``#include``.
+    include_dirs: tuple = ()
 
     def __post_init__(self):
         object.__setattr__(self, "forcefield_files", tuple(str(f) for f in self.forcefield_files))
+        object.__setattr__(self, "include_dirs", tuple(str(f) for f in self.include_dirs))
+        from energy.io.forcefields import force_field_files
+        force_field_files(self.force_field_name or None, self.water or None)  # SettingsError if unknown
         if not (np.isfinite(self.ph) and 0.0 <= self.ph <= 14.0):
             raise SettingsError(f"--ph must lie between 0 and 14, got {self.ph}")
+
+    @property
+    def force_field(self) -> tuple:
+        """OpenMM XML files of the chosen force field and water model (Amber 14 + TIP3P by default)."""
+        from energy.io.forcefields import force_field_files
+        return force_field_files(self.force_field_name or None, self.water or None)
+
+    @property
+    def chooses_force_field(self) -> bool:
+        return bool(self.force_field_name or self.water or self.forcefield_files)
 
     @property
     def adds_hydrogens(self) -> bool:

@@ -148,7 +148,9 @@ class MolecularSystem:
       the angle triplet, distance between the outer two), ``angles`` (k, theta0),
       ``dihedrals`` (k, periodicity, phase), ``impropers`` (harmonic: k, psi0),
       ``periodic_impropers`` (k, periodicity, phase), ``cmap`` (map; atoms are the 8 atoms of the
-      phi and psi dihedrals).  ``cmap_maps`` is a tuple of (n, n) grids, kcal/mol, with
+      phi and psi dihedrals).  ``virtual_sites``: sites placed from parent atoms in every frame
+      (their interactions count toward their residue, the parent's).  ``cmap_maps`` is a tuple
+      of (n, n) grids, kcal/mol, with
       ``grid[i, j]`` the energy at phi = -180 + i*360/n, psi = -180 + j*360/n degrees.
     """
 
@@ -178,6 +180,11 @@ class MolecularSystem:
     segids: np.ndarray | None = field(default=None)
     #: Tables of terms added through :func:`energy.terms.registry.register` (name -> TermTable).
     other_tables: dict = field(default_factory=dict)
+    #: Massless interaction sites placed from parent atoms in every frame
+    #: (:class:`energy.model.virtual_sites.VirtualSites`), or None.
+    virtual_sites: object = None
+    #: One-line notes of the loader (e.g. restraint forces of an OpenMM system left out).
+    notes: tuple = ()
 
     def __post_init__(self):
         n = len(self.names)
@@ -217,6 +224,10 @@ class MolecularSystem:
             if attr in TABLE_SHAPES or not isinstance(table, TermTable):
                 raise ValueError(f"other_tables[{attr!r}]: a TermTable of a registered term's own table")
         set_("other_tables", dict(self.other_tables))
+        set_("notes", tuple(str(n) for n in self.notes))
+        sites = self.virtual_sites
+        if sites is not None and len(sites) and (sites.site.max() >= n or sites.parents.max() >= n):
+            raise ValueError("virtual_sites: a site or parent index outside the atoms")
 
     def table(self, attr: str) -> TermTable | None:
         """The bonded table ``attr``: a field such as ``bonds``, or one of ``other_tables``.
