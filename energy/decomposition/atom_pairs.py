@@ -216,7 +216,7 @@ def interaction_energy(system, frame, settings, atoms_a, atoms_b) -> dict:
     """
     check_frame(system, frame)  # the geometry checks, before any energy
     settings = settings or EnergySettings()
-    x = frame.positions
+    x = placed_frame(system, frame).positions  # virtual sites from their parents
     n = system.n_atoms
     atoms_a = np.unique(np.asarray(atoms_a, np.intp))
     atoms_b = np.unique(np.asarray(atoms_b, np.intp))
