@@ -86,13 +86,13 @@ def main(out_dir: str) -> int:
     k = inter[np.argmax(rp.total[inter])]
     w.selection.set_pair((int(rp.pair_i[k]), int(rp.pair_j[k])))
     model = w.atoms.model
-    total_col = model.columnCount() - 1
+    total_col = model.column_of("Total")
     w.atoms.table.sortByColumn(total_col, Qt.SortOrder.DescendingOrder)
     w.atoms.table.selectRow(0)
     shot("02_clash_selected_atom_curves")
     w.ledger.set_between("A", "B", True)
     w.ledger.hide_self.setChecked(True)
-    w.ledger.table.sortByColumn(w.ledger.model.columnCount() - 1, Qt.SortOrder.AscendingOrder)
+    w.ledger.table.sortByColumn(w.ledger.model.column_of("Total"), Qt.SortOrder.AscendingOrder)
     w.ledger.table.selectRow(0)
     w.roster.apply.click()
     wait_for(w.groupsComputed, 20000)
@@ -151,7 +151,7 @@ def main(out_dir: str) -> int:
     shot("08_trajectory_time_series")
     w.frame_bar.mean.setChecked(True)
     w.ledger.set_between("A", "B", True)
-    w.ledger.table.sortByColumn(w.ledger.model.columnCount() - 1, Qt.SortOrder.AscendingOrder)
+    w.ledger.table.sortByColumn(w.ledger.model.column_of("Total"), Qt.SortOrder.AscendingOrder)
     w.ledger.table.scrollToTop()
     shot("09_trajectory_mean_over_frames")
     w.close()

@@ -5,7 +5,7 @@ External references:
   memory of the published table, independently of energy/vdw_radii.py).
 * Two-atom and small-system cases: hand computations written out in each test.
 * The bundled scenario: the planted clash pair is taken from samples/scenario/scenario.json when
-  present and, independently, recomputed from OpenMM's own Amber14 NonbondedForce parameters.
+  present and, independently, recomputed from OpenMM's own Amber 14 NonbondedForce parameters.
 """
 from __future__ import annotations
 
@@ -341,7 +341,7 @@ def test_outputs_json_csv_and_table():
 @functools.cache
 def openmm_clash_pair(pdb):
     """Independent of Tessera: the chain-A residue with the largest LJ to chain B's Trp, from
-    OpenMM's Amber14 NonbondedForce sigma/epsilon (Lorentz-Berthelot, inter-chain so no
+    OpenMM's Amber 14 NonbondedForce sigma/epsilon (Lorentz-Berthelot, inter-chain so no
     exceptions apply)."""
     import openmm.app as app
     p = app.PDBFile(str(pdb))

@@ -50,7 +50,7 @@ def configure_parser(p: argparse.ArgumentParser) -> None:
     p.add_argument("--include-14", action="store_true",
                    help="let 1-4 pairs count (1-2 and 1-3 pairs never do)")
     p.add_argument("--lj-above", type=_energy_value, default=None, metavar="E",
-                   help="also flag pairs whose Lennard-Jones energy exceeds E kcal/mol")
+                   help="also flag pairs whose LJ energy exceeds E kcal/mol")
     p.add_argument("--require-all", action="store_true",
                    help="with --lj-above: flag only pairs meeting both criteria (default: either)")
     p.add_argument("--no-hbond-contact", action="store_true",

@@ -30,7 +30,7 @@ def atom_label(system: MolecularSystem, i: int) -> str:
     str
         Residue label and atom name.
     """
-    return f"{system.residues.label(int(system.resindex[i]))} {system.names[i]}"
+    return system.atom_label(i)
 
 
 def radii_description(options: ClashOptions) -> str:

@@ -94,7 +94,7 @@ _BUILTIN = (
           _builtin_table("periodic_impropers", _plain(bonded.periodic_torsion_energies)))),
     Term("cmap", "CMAP", "CMAP", True, (_builtin_table("cmap", _cmap_energies),)),
     Term("coulomb", "Coul", "Coulomb", False),
-    Term("lj", "LJ", "Lennard-Jones", False),
+    Term("lj", "LJ", "Lennard-Jones 12-6", False),
 )
 
 _terms: list[Term] = list(_BUILTIN)

@@ -48,6 +48,12 @@ def test_every_export_is_a_valid_file(opened, tmp_path):
     for a in (0, s.n_atoms // 2, s.n_atoms - 1):
         expect = min(max(per[s.resindex[a]], -999.99), 9999.99)
         assert float(atoms[a][60:66]) == pytest.approx(expect, abs=0.006)
+    # REMARK 1 is the PDB format's reference remark; ours is a number the format leaves free
+    # (wwPDB PDB format 2.3 index, "REMARKs 5-99"), and the file still reads as a PDB (MDAnalysis)
+    remarks = [l for l in (tmp_path / "energies.pdb").read_text().splitlines() if l.startswith("REMARK")]
+    assert remarks and all(5 <= int(l[6:10]) <= 99 for l in remarks), remarks
+    import MDAnalysis as mda
+    assert mda.Universe(str(tmp_path / "energies.pdb")).atoms.n_atoms == s.n_atoms
     assert not [p for p in tmp_path.iterdir() if p.name.startswith(".tessera-")]
 
 

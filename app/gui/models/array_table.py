@@ -44,6 +44,8 @@ class Column:
     kind: str = "text"
     tooltip: str = ""
     sort_key: np.ndarray | None = None   # sort by this instead of ``values`` (e.g. residue index)
+    hidden: bool = False                 # hidden by default (the header's column menu shows it)
+    signed: bool = True                  # an energy coloured by its sign (False: a magnitude, neutral)
 
 
 class ArrayTableModel(QAbstractTableModel):
@@ -78,6 +80,18 @@ class ArrayTableModel(QAbstractTableModel):
         self._mask = None if mask is None else np.asarray(mask, bool)
         self._rebuild()
         self.endResetModel()
+
+    def hidden_by_default(self, column: int) -> bool:
+        """Whether column ``column`` starts hidden (shown again from the header's column menu)."""
+        return 0 <= column < len(self._columns) and self._columns[column].hidden
+
+    def column_title(self, column: int) -> str:
+        """The column's title without its unit line."""
+        return self._columns[column].title
+
+    def column_of(self, title: str) -> int:
+        """Index of the column titled ``title`` (-1 when there is none)."""
+        return next((k for k, c in enumerate(self._columns) if c.title == title), -1)
 
     def column_values(self, title: str) -> np.ndarray:
         for c in self._columns:
@@ -144,6 +158,8 @@ class ArrayTableModel(QAbstractTableModel):
             if c.kind == "energy":
                 return format_energy(float(v) * self._factor)
             if c.kind == "distance":
+                if math.isnan(v):       # not defined here (a residue with itself, a bonded row)
+                    return ""
                 return "—" if not math.isfinite(v) else f"{v:.2f}"
             if c.kind == "number":
                 return f"{v:.3f}" if isinstance(v, float | np.floating) else str(v)
@@ -156,7 +172,7 @@ class ArrayTableModel(QAbstractTableModel):
             return int(rec)
         if role == Qt.ItemDataRole.TextAlignmentRole and c.kind != "text":
             return int(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter)
-        if role == Qt.ItemDataRole.ForegroundRole and c.kind == "energy":
+        if role == Qt.ItemDataRole.ForegroundRole and c.kind == "energy" and c.signed:
             if v > 1.0:
                 return QBrush(REPULSIVE)
             if v < -1.0:

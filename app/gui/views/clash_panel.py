@@ -24,6 +24,7 @@ from app.gui.views.flow_layout import FlowLayout
 from app.gui.views.tables import fit_columns, record_table, show_row
 from energy.analysis.clashes import DEFAULT_OVERLAP, ClashOptions
 from energy.output.clash_report import atom_label
+from energy.terms.registry import long_label
 
 RADII = {"bondi": "Bondi (1964) by element", "forcefield": "Force field (pair Rmin)"}
 
@@ -119,14 +120,14 @@ class ClashCheckView(QWidget):
                           for a, b in zip(rep.is_14, rep.is_hbond)], dtype=object)
         self._res = np.stack([np.minimum(ri, rj), np.maximum(ri, rj)], axis=1) if n else np.zeros((0, 2), np.intp)
         self.model.set_columns([
+            Column("Rank", np.arange(1, n + 1), "number", "rank: overlap, then LJ energy"),
             Column("Atom i", lab_i), Column("Atom j", lab_j),
             Column("Overlap", rep.overlap, "distance", "contact − r"),
-            Column("LJ", rep.lj, "energy", "Lennard-Jones 12-6 energy of the pair"),
-            Column("Exp-6", rep.exp6, "energy", "exp-6 energy, same minimum, softer wall"),
+            Column("LJ", rep.lj, "energy", f"{long_label('lj')} energy of the pair"),
+            Column("exp-6", rep.exp6, "energy", "exp-6 energy, same minimum, softer wall"),
             Column("r", rep.distance, "distance", "distance between the atom centres"),
             Column("Contact", rep.contact, "distance", "contact distance R_i + R_j (or H-bond contact)"),
-            Column("Note", flags),
-            Column("Rank", np.arange(1, n + 1), "number", "rank: overlap, then LJ energy")], n)
+            Column("Note", flags)], n)
         counts = check.residue_counts
         hit = np.flatnonzero(counts)
         labels = np.array([system.residues.label(int(r)) for r in hit], dtype=object)

@@ -10,6 +10,7 @@ from app.gui.models.array_table import ArrayTableModel, Column
 from app.gui.views.flow_layout import FlowLayout
 from app.gui.views.tables import fit_columns, record_table
 from energy.output.clash_report import atom_label
+from energy.terms.registry import long_label
 
 TOP_CLASHES = 10
 
@@ -84,8 +85,8 @@ class ModelComparisonView(QWidget):
         self.severity_model.set_columns([
             Column("Atom pair", pair_text),
             Column("Overlap", rep.overlap[:n], "distance"),
-            Column("LJ 12-6", lj, "energy", "force field Lennard-Jones"),
-            Column("Exp-6", e6, "energy", f"exp-6, same Rmin and well depth, α = {rep.options.exp6_alpha:.3f}"),
+            Column("LJ 12-6", lj, "energy", f"force field {long_label('lj')}"),
+            Column("exp-6", e6, "energy", f"exp-6, same Rmin and well depth, α = {rep.options.exp6_alpha:.3f}"),
             Column("LJ/exp-6", ratio, "number", "how many times harsher the 1/r¹² wall is")], n)
         self.severity_caption.setText(
             f"<b>Clash severity, LJ 12-6 vs exp-6</b>: top {n} of {len(rep)} clash(es), frame "

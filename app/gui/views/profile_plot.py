@@ -92,7 +92,7 @@ class DistanceProfileView(QWidget):
         self.key = QLabel(""); self.key.setObjectName("profileKey"); self.key.setWordWrap(True)
         self.show_both = QCheckBox("LJ and exp-6 curves"); self.show_both.setObjectName("profileBoth")
         self.show_both.setChecked(True)
-        self.show_both.setToolTip("Overlay the curve of the other repulsion model for the selected atom pair")
+        self.show_both.setToolTip("Overlay the other LJ term form (LJ 12-6 or exp-6) for the selected atom pair")
         bar.add_group(self.show_both, right=True)
 
         self.axis = EnergyAxis("left")
@@ -111,9 +111,9 @@ class DistanceProfileView(QWidget):
             item.sigClicked.connect(self._on_point_clicked)
         self.coul_curve = self.plot.plot([], [], pen=pg.mkPen(COULOMB_COLOR, width=2), name="Coulomb curve")
         self.lj_curve = self.plot.plot([], [], pen=pg.mkPen(LJ_COLOR, width=2), name="LJ curve")
-        # the other repulsion model's curve (exp-6 when the engine uses LJ, and vice versa)
+        # the other LJ term form's curve (exp-6 when the engine uses LJ, and vice versa)
         self.alt_curve = self.plot.plot([], [], pen=pg.mkPen(EXP6_COLOR, width=2, style=Qt.PenStyle.DotLine),
-                                        name="other vdW model")
+                                        name="other LJ term form")
         self.total_curve = self.plot.plot([], [], pen=pg.mkPen(TOTAL_COLOR, width=1.5, style=Qt.PenStyle.DashLine),
                                           name="sum")
         self.now_line = pg.InfiniteLine(angle=90, pen=pg.mkPen("#2ca02c", width=2))
@@ -183,7 +183,7 @@ class DistanceProfileView(QWidget):
         return "lj" if self.settings is None else self.settings.vdw
 
     def alt_settings(self):
-        """The current settings with the other repulsion model (same exp-6 steepness)."""
+        """The current settings with the other LJ term form (same exp-6 steepness)."""
         from dataclasses import replace
 
         from energy.model.settings import EnergySettings
@@ -195,7 +195,7 @@ class DistanceProfileView(QWidget):
         alt = "exp-6" if self.vdw_model == "lj" else "LJ 12-6"
         text = (f"<span style='color:{COULOMB_COLOR}'>● Coulomb</span> &nbsp; "
                 f"<span style='color:{LJ_COLOR}'>▲ {lj_name} (computed)</span> &nbsp; curves in the "
-                "same colours, dashed: their sum &nbsp; ◆ vdW minimum")
+                "same colours, dashed: their sum &nbsp; ◆ LJ minimum")
         if self.show_both.isChecked():
             text += f" &nbsp; <span style='color:{EXP6_COLOR}'>┈ {alt} curve, same Rmin and well depth</span>"
         self.key.setText(text)
@@ -256,7 +256,7 @@ class DistanceProfileView(QWidget):
             self.well.setData([], [])
         s = self.system
         a, b = self.selection.atom_pair
-        name = lambda x: f"{s.names[x]} {s.residues.label(s.resindex[x])}"  # noqa: E731
+        name = s.atom_label
         kind = " (1-4 pair, own parameters)" if params["is_exception"] else ""
         f = self.factor
         if eps > 0 and rmin > 0:

@@ -2,7 +2,7 @@
 from __future__ import annotations
 
 from PySide6.QtCore import QEvent, QItemSelectionModel, QObject, Qt
-from PySide6.QtWidgets import QAbstractItemView, QTableView, QToolTip
+from PySide6.QtWidgets import QAbstractItemView, QMenu, QTableView, QToolTip
 
 #: Text columns are narrowed to fit the table's width, but not below this (px); number columns
 #: keep the width of their contents (an elided number would read as another number).
@@ -32,6 +32,9 @@ def record_table(name: str, model=None, size_from_rows: int | None = None) -> QT
     t.setTextElideMode(Qt.TextElideMode.ElideRight)
     t.viewport().installEventFilter(ElidedCellTips(t))
     t.viewport().installEventFilter(_RefitOnResize(t))
+    header = t.horizontalHeader()
+    header.setContextMenuPolicy(Qt.ContextMenuPolicy.CustomContextMenu)
+    header.customContextMenuRequested.connect(lambda pos: column_menu(t).exec(header.mapToGlobal(pos)))
     # columns are sized from the first rows: after a sort those are other rows
     t.horizontalHeader().sortIndicatorChanged.connect(
         lambda *_: fit_columns(t) if t.property("naturalWidths") is not None else None)
@@ -47,6 +50,51 @@ def _is_number_column(table: QTableView, column: int) -> bool:
     return align is not None and bool(int(align) & int(Qt.AlignmentFlag.AlignRight))
 
 
+def _column_title(model, column: int) -> str:
+    if hasattr(model, "column_title"):
+        return model.column_title(column)
+    text = model.headerData(column, Qt.Orientation.Horizontal, Qt.ItemDataRole.DisplayRole)
+    return str(text or "").replace("\n", " ")
+
+
+def column_menu(table: QTableView) -> QMenu:
+    """The header's column menu: one checkable entry per column (shown or hidden).  A choice is
+    kept (by column title) when the table's contents change."""
+    menu = QMenu(table)
+    menu.setObjectName("columnMenu")
+    model, header = table.model(), table.horizontalHeader()
+    if model is None:
+        return menu
+    for c in range(model.columnCount()):
+        action = menu.addAction(_column_title(model, c))
+        action.setCheckable(True)
+        action.setChecked(not header.isSectionHidden(c))
+        action.toggled.connect(lambda on, c=c: set_column_shown(table, c, on))
+    return menu
+
+
+def set_column_shown(table: QTableView, column: int, shown: bool) -> None:
+    """Show or hide one column and remember the choice for that column title."""
+    model = table.model()
+    chosen = dict(table.property("columnChoices") or {})
+    chosen[_column_title(model, column)] = bool(shown)
+    table.setProperty("columnChoices", chosen)
+    table.horizontalHeader().setSectionHidden(column, not shown)
+    if table.property("naturalWidths") is not None:
+        fit_columns(table, recompute=False)
+
+
+def apply_hidden_columns(table: QTableView) -> None:
+    """Hide the columns the model hides by default, unless the user chose otherwise."""
+    model, header = table.model(), table.horizontalHeader()
+    if model is None:
+        return
+    chosen = table.property("columnChoices") or {}
+    for c in range(model.columnCount()):
+        default = bool(getattr(model, "hidden_by_default", lambda _c: False)(c))
+        header.setSectionHidden(c, not chosen.get(_column_title(model, c), not default))
+
+
 def fit_columns(table: QTableView, recompute: bool = True) -> None:
     """Columns sized to their contents, then the text columns narrowed (widest first, down to
     :data:`MIN_TEXT_COLUMN`) so that the table fits its width without scrolling; narrowed cells
@@ -58,6 +106,7 @@ def fit_columns(table: QTableView, recompute: bool = True) -> None:
     if model is None or model.columnCount() == 0:
         return
     if recompute or table.property("naturalWidths") is None:
+        apply_hidden_columns(table)
         table.resizeColumnsToContents()
         table.setProperty("naturalWidths", [header.sectionSize(c) for c in range(model.columnCount())])
     natural = list(table.property("naturalWidths") or [])
