@@ -416,7 +416,7 @@ def test_cli_clashes_writes_json_and_csv(tmp_path, capsys):
     assert all(label in first_row for label in expected), first_row
     assert "exp-6" in text.split("\n")[2]
     doc = json.loads(out_json.read_text())
-    assert doc["kind"] == "tessera-clashes" and doc["n_clashes"] >= 1
+    assert doc["kind"] == "overlaps" and doc["n_clashes"] >= 1
     assert doc["residue_pairs"][0]["count"] >= 1
     assert out_csv.read_text().count("\n") == doc["n_clashes"] + 1
     assert "exp6" in out_csv.read_text().splitlines()[0].split(",")
@@ -513,6 +513,6 @@ def test_cli_exp6_alpha_option(tmp_path):
         assert main(["overlaps", str(SCENARIO / "complex_clash.pdb"), "--exp6-alpha", alpha,
                      "--json", str(path), "--quiet"]) == 0
         doc = json.loads(path.read_text())
-        assert doc["options"]["exp6_alpha"] == pytest.approx(float(alpha))
+        assert doc["settings"]["exp6_alpha"] == pytest.approx(float(alpha))
         out[alpha] = doc["clashes"][0]["exp6"]
     assert out["10"] < out["13.772"]

@@ -97,8 +97,8 @@ def run(args) -> int:
                          preparation=preparation_from_args(args))
     report = find_clashes(loaded.system, loaded.frame, options)
     if args.json:
-        source = {"structure": loaded.structure_path, "coords": loaded.coords_path,
-                  "params": list(loaded.param_paths), "frame": int(loaded.frame.index),
+        source = {"structure": loaded.structure_path, "coordinates": loaded.coords_path,
+                  "parameters": list(loaded.param_paths), "frame": int(loaded.frame.index),
                   "force_field": loaded.system.force_field}
         doc = clash_document(loaded.system, report, source)
         atomic_write_text(args.json, json.dumps(doc, indent=1, allow_nan=False) + "\n")

@@ -13,6 +13,7 @@ import numpy as np
 from energy.analysis.clashes import ClashOptions, ClashReport
 from energy.analysis.vdw_radii import BONDI_SOURCE
 from energy.model.system import MolecularSystem
+from energy.output.header import document_header
 
 
 def atom_label(system: MolecularSystem, i: int) -> str:
@@ -93,20 +94,20 @@ def clash_document(system: MolecularSystem, report: ClashReport, source: dict | 
     report : ClashReport
         The clash finder's result.
     source : dict or None, optional
-        Description of the inputs (paths, frame, force field), stored under ``source``.
+        Description of the inputs (``structure``, ``coordinates``, ``parameters``, ``frame``,
+        ``force_field``), stored under ``inputs``.
 
     Returns
     -------
     dict
-        ``kind`` ``"tessera-clashes"``, ``units``, ``options``, ``radii``, ``notes``, search counts,
+        The header (:func:`energy.output.header.document_header`: ``kind`` ``"overlaps"``,
+        ``inputs``, ``settings`` = the clash options), ``units``, ``radii``, ``notes``, search counts,
         ``clashes`` (:func:`clash_rows`), ``residue_counts`` and ``residue_pairs``.
     """
     counts = report.residue_counts(system)
     return {
-        "kind": "tessera-clashes",
+        **document_header("overlaps", source or {}, report.options.as_dict()),
         "units": {"distance": "angstrom", "energy": "kcal/mol"},
-        "source": source or {},
-        "options": report.options.as_dict(),
         "radii": radii_description(report.options),
         "notes": list(report.notes),
         "n_atoms_searched": report.n_atoms_searched,

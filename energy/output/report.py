@@ -15,6 +15,7 @@ import numpy as np
 from energy.errors import NonFiniteEnergyError
 from energy.output.blocked import blocked_pair_csv
 from energy.output.files import atomic_open, atomic_write_text
+from energy.output.header import document_header
 from energy.terms.registry import TERMS, TermNames
 
 UNITS = {"energy": "kcal/mol", "distance": "angstrom"}
@@ -197,15 +198,15 @@ def scan_document(loaded, result, selection=None, extra_timings=None) -> dict:
     timings.update({f"compute_{k}": v for k, v in result.timings.items() if k != "compute"})
     timings.update(extra_timings or {})
     doc = {
-        "program": "tessera",
+        **document_header(
+            "scan",
+            {"structure": loaded.structure_path, "coordinates": loaded.coords_path or None,
+             "parameters": list(loaded.param_paths), "frame": loaded.frame.index},
+            {**result.settings.as_dict(), "periodic": result.periodic, "cell_note": result.cell_note or None}),
         "units": UNITS,
-        "inputs": {"structure": loaded.structure_path, "coordinates": loaded.coords_path or None,
-                   "parameters": list(loaded.param_paths), "frame": loaded.frame.index},
         "force_field": system.force_field,
         "n_atoms": system.n_atoms,
         "n_residues": system.n_residues,
-        "settings": {**result.settings.as_dict(), "periodic": result.periodic,
-                     "cell_note": result.cell_note or None},
         "totals": {k: float(result.totals[k]) for k in (*TERMS, "total")},
         "n_atom_pairs_within_cutoff": result.n_atom_pairs,
         "unlisted_pairs": result.unlisted,

@@ -11,6 +11,7 @@ import os
 import numpy as np
 
 from energy.analysis.trajectory import COLUMNS, SELECTION_COLUMNS, TrajectoryRequest
+from energy.output.header import document_header
 from energy.output.report import UNITS, residue_records
 
 FRAMES_CSV = "frames.csv"
@@ -179,16 +180,15 @@ def trajectory_document(result, scan, execution: dict, interrupted: bool, timing
                        **{c: [float(v) for v in s[c]] for c in COLUMNS},
                        "min_heavy_distance": [finite(v) for v in s["min_heavy_distance"]]})
     doc = {
-        "program": "tessera",
-        "kind": "trajectory",
+        **document_header(
+            "trajectory",
+            {"structure": req.structure, "coordinates": req.trajectory_path, "parameters": list(req.params),
+             "frames": scan.frames_spec, "n_frames_in_file": scan.n_frames_file},
+            {**req.settings.as_dict(), "cell_note": "; ".join(result.cell_notes()) or None}),
         "units": UNITS,
-        "inputs": {"structure": req.structure, "coordinates": req.trajectory_path,
-                   "parameters": list(req.params), "frames": scan.frames_spec,
-                   "n_frames_in_file": scan.n_frames_file},
         "force_field": system.force_field,
         "n_atoms": system.n_atoms,
         "n_residues": system.n_residues,
-        "settings": {**req.settings.as_dict(), "cell_note": "; ".join(result.cell_notes()) or None},
         "preparation": _preparation(scan),
         "execution": execution,
         "complete": result.complete,

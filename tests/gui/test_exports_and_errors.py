@@ -117,7 +117,8 @@ def test_compare_mode_shows_second_minus_first(qtbot, opened):
     np.testing.assert_allclose(opened.map.matrix, ds.pairs.dense("total"))
     # the ledger lists the largest change first
     model = opened.ledger.model
-    size = [model.data(model.index(r, 5), 0x0101) for r in range(min(20, model.rowCount()))]
+    column = model.column_of("|Change|")
+    size = [model.data(model.index(r, column), 0x0101) for r in range(min(20, model.rowCount()))]
     assert size == sorted(size, reverse=True)
     assert "matched" in opened.size_label.text()
     opened.leave_compare()

@@ -85,8 +85,9 @@ class PairLedgerView(QWidget):
         if keep_sort and 0 <= sort[0] < self.model.columnCount():
             self.model.sort(*sort)
         elif ds is not None and ds.is_difference:
-            self.model.sort(5, Qt.SortOrder.DescendingOrder)  # by the size of the change
-            self.table.horizontalHeader().setSortIndicator(5, Qt.SortOrder.DescendingOrder)
+            size = self.model.column_of("|Change|")      # by the size of the change
+            self.model.sort(size, Qt.SortOrder.DescendingOrder)
+            self.table.horizontalHeader().setSortIndicator(size, Qt.SortOrder.DescendingOrder)
         else:
             self.table.horizontalHeader().setSortIndicator(-1, Qt.SortOrder.AscendingOrder)
         self._refilter()
