@@ -318,7 +318,7 @@ class TrajectoryWorker(QObject):
         from app.state.trajectory import scan_steps
         t0 = time.perf_counter()
         try:
-            self.phase.emit(f"Scanning {self._label}")
+            self.phase.emit(f"Computing {self._label}")
             scan, steps = scan_steps(self._loaded, self._request, self._store, self._frames)
             while True:
                 if self._cancel.is_set():

@@ -46,7 +46,7 @@ from energy.units import ENERGY_UNITS
 
 
 def _group_energy(snapshots, a: str, b: str):
-    """A-vs-B interaction of each snapshot (run in a background job)."""
+    """The group interaction (A vs B) of each snapshot (run in a background job)."""
     return [selection_interaction(s.system, s.frame, s.result.settings, a, b) for s in snapshots]
 
 
@@ -216,7 +216,7 @@ class MainWindow(QMainWindow):
         c = mb.addMenu("&Compute")
         self.act_recompute = self._action("&Recompute", self.recompute, "F5")
         self.act_cancel = self._action("&Cancel computation", self.cancel, "Esc")
-        self.act_groups = self._action("Interface energy of groups A and B", self.roster._request, "Ctrl+I")
+        self.act_groups = self._action("Group interaction of A and B", self.roster._request, "Ctrl+I")
         for a in (self.act_recompute, self.act_cancel, self.act_groups):
             c.addAction(a)
         tb = self.addToolBar("Main"); tb.setObjectName("toolbar_main")

@@ -42,6 +42,24 @@ def document_header(kind: str, inputs: dict, settings: dict) -> dict:
             "settings": dict(settings)}
 
 
+def group_interaction(doc: dict) -> dict | None:
+    """The group interaction (group A vs group B) of a scan or trajectory document, or None.
+
+    Written as ``group_interaction``; earlier documents called it ``selection``.
+
+    Parameters
+    ----------
+    doc : dict
+        A parsed output document.
+
+    Returns
+    -------
+    dict or None
+        Its ``a``, ``b`` selections and energies.
+    """
+    return doc.get("group_interaction", doc.get("selection"))
+
+
 def _guess_kind(doc: dict) -> str:
     if "per_frame_totals" in doc:
         return "trajectory"

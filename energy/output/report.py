@@ -181,7 +181,7 @@ def scan_document(loaded, result, selection=None, extra_timings=None) -> dict:
     result : EnergyResult
         Its evaluation.
     selection : dict or None, optional
-        The A-vs-B interaction (:func:`energy.decomposition.atom_pairs.selection_interaction`).
+        The group interaction (group A vs group B) (:func:`energy.decomposition.atom_pairs.selection_interaction`).
     extra_timings : dict or None, optional
         More wall times to record, s.
 
@@ -189,7 +189,9 @@ def scan_document(loaded, result, selection=None, extra_timings=None) -> dict:
     -------
     dict
         ``units`` (kcal/mol, angstrom), inputs, settings, ``totals`` (kcal/mol), ``residues``,
-        ``pairs`` (placeholder), ``timings`` (s), ``selection`` when given.
+        ``pairs`` (placeholder), ``timings`` (s), ``group_interaction`` when given
+        (called ``selection`` in earlier documents; :func:`energy.output.header.group_interaction`
+        reads either).
     """
     system = loaded.system
     timings = {"read": loaded.timings.get("read", 0.0),
@@ -216,7 +218,7 @@ def scan_document(loaded, result, selection=None, extra_timings=None) -> dict:
         "timings": timings,
     }
     if selection is not None:
-        doc["selection"] = selection
+        doc["group_interaction"] = selection
     return doc
 
 
@@ -413,7 +415,8 @@ def summary_text(loaded, result, top: int = 8, selection=None, blocked=None) -> 
     top : int, optional
         Residue pairs listed in each direction (default 8).
     selection : dict or None, optional
-        The A-vs-B interaction to report (:func:`energy.decomposition.atom_pairs.selection_interaction`).
+        The group interaction (group A vs group B) to report
+        (:func:`energy.decomposition.atom_pairs.selection_interaction`).
     blocked : BlockedPairs or None, optional
         Solvent as blocks (:func:`energy.decomposition.blocks.block_residue_pairs`): pairs are
         listed over solute residues and blocks.
@@ -457,7 +460,7 @@ def summary_text(loaded, result, top: int = 8, selection=None, blocked=None) -> 
                 break
             lines.append(f"  {label(rp.pair_i[k]):>14} - {label(rp.pair_j[k]):<14}{total[k]:>14.3f}")
     if selection is not None:
-        lines += ["", f"interaction {selection['a']!r} vs {selection['b']!r}: "
+        lines += ["", f"group interaction {selection['a']!r} vs {selection['b']!r}: "
                   f"Coulomb {selection['coulomb']:.4f}, LJ {selection['lj']:.4f}, "
                   f"total {selection['total']:.4f} kcal/mol ({selection['n_pairs']} atom pairs)"]
     if result.unlisted:

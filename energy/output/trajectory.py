@@ -158,7 +158,7 @@ def trajectory_document(result, scan, execution: dict, interrupted: bool, timing
     dict
         JSON-ready: ``units`` (kcal/mol, angstrom), inputs, settings, per-frame totals and their
         mean and std (kcal/mol), ``pairs`` (statistics of every kept residue pair), ``pair_series``
-        of the requested pairs, ``selection`` (when selections were given) and ``timings``.
+        of the requested pairs, ``group_interaction`` (when groups were given) and ``timings``.
     """
     system, st, req = result.system, result.stats, result.request
     finite = lambda x: float(x) if math.isfinite(float(x)) else None  # noqa: E731
@@ -206,7 +206,7 @@ def trajectory_document(result, scan, execution: dict, interrupted: bool, timing
     }
     sel = result.selection_series()
     if sel is not None:
-        doc["selection"] = {"a": req.select_a, "b": req.select_b,
+        doc["group_interaction"] = {"a": req.select_a, "b": req.select_b,
                             **{c: [float(v) if c in ("coulomb", "lj", "total") else int(v)
                                    for v in sel[c]] for c in SELECTION_COLUMNS}}
     return doc

@@ -137,7 +137,7 @@ def test_interface_energy_of_groups(qtbot, opened):
     b = select_atoms(snap.system, snap.frame, "segid B")
     ref = interaction_energy(snap.system, snap.frame, snap.result.settings, a, b)
     assert got["total"] == pytest.approx(ref["total"])
-    assert "A vs B" in opened.roster.result.text()
+    assert "Group interaction" in opened.roster.result.text()
 
 
 def test_recent_files_and_layout_persist(qtbot, opened):

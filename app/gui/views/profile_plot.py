@@ -260,7 +260,7 @@ class DistanceProfileView(QWidget):
         kind = " (1-4 pair, own parameters)" if params["is_exception"] else ""
         f = self.factor
         if eps > 0 and rmin > 0:
-            self.note.setText(f"Rmin {rmin:.2f} Å\nwell depth {-eps * f:.3f}")
+            self.note.setText(f"Rmin {rmin:.2f} Å\nwell depth {-eps * f:.3f} {self.unit}")
             self.note.setPos(rmin, float(self._y(-eps)))
         else:
             self.note.setText("")

@@ -27,8 +27,8 @@ class ResidueRosterView(QWidget):
         self.group_b = QLineEdit(); self.group_b.setObjectName("groupB")
         for w, ph in ((self.group_a, "e.g. segid A"), (self.group_b, "e.g. segid B and resid 20-40")):
             w.setPlaceholderText(ph)
-        self.apply = QPushButton("Interface energy"); self.apply.setObjectName("groupApply")
-        self.apply.setToolTip("Nonbonded interaction between group A and group B (Ctrl+I)")
+        self.apply = QPushButton("Group interaction"); self.apply.setObjectName("groupApply")
+        self.apply.setToolTip("Group interaction: the nonbonded energy between group A and group B (Ctrl+I)")
         self.result = QLabel("—"); self.result.setObjectName("groupResult"); self.result.setWordWrap(True)
         form = QFormLayout(); form.setContentsMargins(2, 2, 2, 2)
         form.addRow("Group A", self.group_a)
@@ -105,6 +105,6 @@ class ResidueRosterView(QWidget):
 
 
 def describe_interaction(d: dict, factor: float, unit: str) -> str:
-    return (f"A vs B: <b>{format_energy(d['total'] * factor)} {unit}</b> "
+    return (f"Group interaction: <b>{format_energy(d['total'] * factor)} {unit}</b> "
             f"(Coulomb {format_energy(d['coulomb'] * factor)}, LJ {format_energy(d['lj'] * factor)}; "
             f"{d['n_pairs']:,} atom pairs, {d['n_atoms_a']} × {d['n_atoms_b']} atoms)")

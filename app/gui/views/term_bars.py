@@ -1,4 +1,4 @@
-"""Term bars: per-term energies of the whole system, the selected residue pair and A vs B."""
+"""Term bars: per-term energies of the whole system, the selected residue pair and the group interaction."""
 from __future__ import annotations
 
 import math
@@ -50,7 +50,7 @@ class TermBarsView(pg.GraphicsLayoutWidget):
         self.setBackground("w")
         self.factor, self.unit = 1.0, "kcal/mol"
         self.values = {"system": None, "pair": None, "groups": None}
-        self.titles = {"system": "Whole system", "pair": "Selected pair", "groups": "Group A vs B"}
+        self.titles = {"system": "Whole system", "pair": "Selected pair", "groups": "Group interaction"}
         self.plots, self.bars, self.texts = {}, {}, {}
         for col, key in enumerate(self.values):
             p = self.addPlot(row=0, col=col, axisItems={"bottom": EnergyTickAxis("bottom")})
