@@ -93,7 +93,7 @@ _BUILTIN = (
          (_builtin_table("impropers", _plain(bonded.harmonic_improper_energies)),
           _builtin_table("periodic_impropers", _plain(bonded.periodic_torsion_energies)))),
     Term("cmap", "CMAP", "CMAP", True, (_builtin_table("cmap", _cmap_energies),)),
-    Term("coulomb", "Coul", "Coulomb", False),
+    Term("coulomb", "Coulomb", "Coulomb", False),
     Term("lj", "LJ", "Lennard-Jones 12-6", False),
 )
 

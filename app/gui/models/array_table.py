@@ -58,6 +58,9 @@ class ArrayTableModel(QAbstractTableModel):
         self._where = np.zeros(0, np.intp)         # record -> view row (-1 hidden)
         self._sort = (-1, Qt.SortOrder.AscendingOrder)
         self._factor, self._unit = 1.0, "kcal/mol"
+        #: False: energy and distance headers without their unit line (the panel's caption
+        #: names the units), so that narrow panels keep every energy column in view
+        self.units_in_header = True
 
     # -- content -------------------------------------------------------------------------
     def set_columns(self, columns: list[Column], n: int) -> None:
@@ -88,6 +91,12 @@ class ArrayTableModel(QAbstractTableModel):
     def column_title(self, column: int) -> str:
         """The column's title without its unit line."""
         return self._columns[column].title
+
+    def leading_columns(self) -> int:
+        """How many columns, from the first, must fit the table's width: up to the last energy
+        column (the columns after it are the less used ones and may scroll)."""
+        energy = [k for k, c in enumerate(self._columns) if c.kind == "energy"]
+        return energy[-1] + 1 if energy else len(self._columns)
 
     def column_of(self, title: str) -> int:
         """Index of the column titled ``title`` (-1 when there is none)."""
@@ -139,9 +148,9 @@ class ArrayTableModel(QAbstractTableModel):
             return None
         c = self._columns[section]
         if role == Qt.ItemDataRole.DisplayRole:
-            if c.kind == "energy":
+            if c.kind == "energy" and self.units_in_header:
                 return f"{c.title}\n({self._unit})"
-            if c.kind == "distance":
+            if c.kind == "distance" and self.units_in_header:
                 return f"{c.title}\n(Å)"
             return c.title
         if role == Qt.ItemDataRole.ToolTipRole:

@@ -8,7 +8,7 @@ import numpy as np
 from app.gui.models.array_table import ArrayTableModel, Column
 from energy.decomposition.atom_pairs import residue_pair_atom_energies
 from energy.decomposition.residue_pairs import bonded_terms_for_pair
-from energy.terms.registry import long_label
+from energy.terms.registry import long_label, short_label
 
 
 @dataclass(frozen=True)
@@ -71,9 +71,9 @@ class AtomTableModel(ArrayTableModel):
         # the header's column menu shows it)
         cols = [Column("Atom i", np.array(atom_i, dtype=object)),
                 Column("Atom j", np.array(atom_j, dtype=object)),
-                Column("Distance", np.concatenate([e.distance, nan]), "distance"),
-                Column("Coulomb", np.concatenate([e.coulomb, nan]), "energy"),
-                Column("LJ", np.concatenate([e.lj, nan]), "energy"),
+                Column("r", np.concatenate([e.distance, nan]), "distance", "distance between the two atoms (Å)"),
+                Column(short_label("coulomb"), np.concatenate([e.coulomb, nan]), "energy"),
+                Column(short_label("lj"), np.concatenate([e.lj, nan]), "energy"),
                 Column("Total", np.concatenate([e.total, share]), "energy",
                        "for a bonded term: the share attributed to this residue pair"),
                 Column("Kind", np.array(kinds, dtype=object)),

@@ -4,7 +4,7 @@ from __future__ import annotations
 import numpy as np
 
 from app.gui.models.array_table import ArrayTableModel, Column
-from energy.terms.registry import BONDED_TERMS, TERMS
+from energy.terms.registry import BONDED_TERMS, TERMS, short_label
 
 #: A pair whose largest term is below this (kcal/mol) is left out of the ledger.
 NEGLIGIBLE_KCAL = 1e-3
@@ -45,7 +45,8 @@ class PairTableModel(ArrayTableModel):
             # the changes first, then the two totals; |Change| is a magnitude (not coloured by sign)
             cols = [Column("Residue i", self._lab_i, sort_key=pi), Column("Residue j", self._lab_j, sort_key=pj),
                     Column("Change", col("total"), "energy", "total: second minus first"),
-                    Column("Δ Coulomb", col("coulomb"), "energy"), Column("Δ LJ", col("lj"), "energy"),
+                    Column(f"Δ {short_label('coulomb')}", col("coulomb"), "energy"),
+                    Column(f"Δ {short_label('lj')}", col("lj"), "energy"),
                     Column("Δ Bonded", col("bonded"), "energy", "bonded terms: " + ", ".join(BONDED_TERMS)),
                     Column("|Change|", np.abs(col("total")), "energy", "size of the change, either sign",
                            signed=False),
@@ -55,7 +56,8 @@ class PairTableModel(ArrayTableModel):
         else:
             cols = [Column("Residue i", self._lab_i, sort_key=pi), Column("Residue j", self._lab_j, sort_key=pj),
                     Column("Closest", dist, "distance", "minimum heavy-atom distance"),
-                    Column("Coulomb", col("coulomb"), "energy"), Column("LJ", col("lj"), "energy"),
+                    Column(short_label("coulomb"), col("coulomb"), "energy"),
+                    Column(short_label("lj"), col("lj"), "energy"),
                     Column("Bonded", col("bonded"), "energy", "bonded terms: " + ", ".join(BONDED_TERMS)),
                     Column("Total", col("total"), "energy")]
         self.set_columns(cols, len(rows))

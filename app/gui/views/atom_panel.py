@@ -12,6 +12,8 @@ class AtomContributionsView(QWidget):
         super().__init__(parent)
         self.selection = selection
         self.model = AtomTableModel(self)
+        self.model.units_in_header = False        # the caption names the units (narrow panel)
+        self._caption = ""
         self._syncing = False
         self.caption = QLabel("Select a residue pair in the map or the ledger.")
         self.caption.setObjectName("atomCaption")
@@ -24,8 +26,19 @@ class AtomContributionsView(QWidget):
 
     def show_contributions(self, system, contrib, caption: str) -> None:
         self.model.set_contributions(system, contrib)
-        self.caption.setText(caption)
+        self._caption = caption
+        self._show_caption()
         fit_columns(self.table)
+
+    def set_unit(self, factor: float, unit: str) -> None:
+        self.model.set_unit(factor, unit)
+        self._show_caption()
+
+    def _show_caption(self) -> None:
+        if self.model.contrib is None:
+            self.caption.setText(self._caption)
+            return
+        self.caption.setText(f"{self._caption} · energies in {self.model._unit}, distances in Å")
 
     def _on_row(self, current, _prev) -> None:
         if self._syncing or not current.isValid():

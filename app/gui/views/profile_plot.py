@@ -193,11 +193,16 @@ class DistanceProfileView(QWidget):
     def _update_key(self) -> None:
         lj_name = "LJ 12-6" if self.vdw_model == "lj" else "exp-6"
         alt = "exp-6" if self.vdw_model == "lj" else "LJ 12-6"
-        text = (f"<span style='color:{COULOMB_COLOR}'>● Coulomb</span> &nbsp; "
-                f"<span style='color:{LJ_COLOR}'>▲ {lj_name} (computed)</span> &nbsp; curves in the "
-                "same colours, dashed: their sum &nbsp; ◆ LJ minimum")
+        # one short line: points are the atom pairs, lines the curves of the selected pair
+        text = (f"<span style='color:{COULOMB_COLOR}'>● Coulomb</span> &nbsp;"
+                f"<span style='color:{LJ_COLOR}'>▲ {lj_name}</span> &nbsp;— curves, ╌ sum &nbsp;◆ minimum")
         if self.show_both.isChecked():
-            text += f" &nbsp; <span style='color:{EXP6_COLOR}'>┈ {alt} curve, same Rmin and well depth</span>"
+            text += f" &nbsp;<span style='color:{EXP6_COLOR}'>┈ {alt}</span>"
+        self.key.setToolTip("Points: every atom pair of the residue pair (● Coulomb, ▲ the computed "
+                            f"{lj_name} energy). Lines: the selected atom pair's curves in the same colours, "
+                            "dashed their sum; ◆ the LJ minimum (Rmin, well depth)"
+                            + (f"; dotted: the {alt} curve with the same Rmin and well depth."
+                               if self.show_both.isChecked() else "."))
         self.key.setText(text)
 
     # -- drawing ----------------------------------------------------------------------------

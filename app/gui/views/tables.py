@@ -113,8 +113,10 @@ def fit_columns(table: QTableView, recompute: bool = True) -> None:
     if len(natural) != model.columnCount():
         return
     room = table.viewport().width()
-    text = [c for c in range(len(natural)) if not _is_number_column(table, c) and not header.isSectionHidden(c)]
-    fixed = sum(w for c, w in enumerate(natural) if c not in text and not header.isSectionHidden(c))
+    # the columns that must fit: up to the last energy column (the less used ones after it scroll)
+    lead = min(len(natural), int(getattr(model, "leading_columns", lambda: len(natural))()))
+    text = [c for c in range(lead) if not _is_number_column(table, c) and not header.isSectionHidden(c)]
+    fixed = sum(w for c, w in enumerate(natural[:lead]) if c not in text and not header.isSectionHidden(c))
     widths = {c: natural[c] for c in text}
     budget = room - fixed
     if budget >= MIN_TEXT_COLUMN * len(text) and sum(widths.values()) > budget and text:
