@@ -1,6 +1,7 @@
 """Atom contributions: every atom pair and bonded term behind the selected residue pair."""
 from __future__ import annotations
 
+from PySide6.QtCore import Qt
 from PySide6.QtWidgets import QLabel, QVBoxLayout, QWidget
 
 from app.gui.models.atom_table import AtomTableModel
@@ -19,6 +20,8 @@ class AtomContributionsView(QWidget):
         self.caption.setObjectName("atomCaption")
         self.caption.setWordWrap(True)
         self.table = record_table("atomTable", self.model, size_from_rows=40)
+        # a narrowed label keeps its chain and its atom name: "A:AL…HB1"
+        self.table.setTextElideMode(Qt.TextElideMode.ElideMiddle)
         lay = QVBoxLayout(self); lay.setContentsMargins(2, 2, 2, 2)
         lay.addWidget(self.caption); lay.addWidget(self.table, 1)
         self.table.selectionModel().currentRowChanged.connect(self._on_row)

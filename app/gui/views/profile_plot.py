@@ -267,6 +267,9 @@ class DistanceProfileView(QWidget):
         if eps > 0 and rmin > 0:
             self.note.setText(f"Rmin {rmin:.2f} Å\nwell depth {-eps * f:.3f} {self.unit}")
             self.note.setPos(rmin, float(self._y(-eps)))
+            x0, x1 = self.plot.viewRange()[0]
+            # right of the diamond, or left of it when that would run past the plot's right edge
+            self.note.setAnchor((1.05, -0.15) if rmin > x0 + 0.55 * (x1 - x0) else (-0.05, -0.15))
         else:
             self.note.setText("")
         self.note.setVisible(bool(self.note.textItem.toPlainText()))

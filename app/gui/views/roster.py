@@ -8,6 +8,7 @@ from PySide6.QtWidgets import QFormLayout, QHBoxLayout, QLabel, QLineEdit, QPush
 
 from app.gui.models.array_table import ArrayTableModel, Column, format_energy
 from app.gui.views.tables import fit_columns, record_table
+from energy.terms.registry import short_label
 
 
 class ResidueRosterView(QWidget):
@@ -53,11 +54,12 @@ class ResidueRosterView(QWidget):
             return
         rp = ds.pairs
         pre = "Δ " if ds.is_difference else ""
-        cols = [Column("Residue", ds.labels, sort_key=np.arange(ds.n)), Column("Chain", ds.chains),
+        # the chain is in the residue label (A:ALA25): its own column starts hidden (column menu)
+        cols = [Column("Residue", ds.labels, sort_key=np.arange(ds.n)), Column("Chain", ds.chains, hidden=True),
                 Column(f"{pre}Total", rp.per_residue("total"), "energy",
                        "half of every pair entry with another residue plus the within-residue entry"),
-                Column(f"{pre}Coulomb", rp.per_residue("coulomb"), "energy"),
-                Column(f"{pre}LJ", rp.per_residue("lj"), "energy"),
+                Column(f"{pre}{short_label('coulomb')}", rp.per_residue("coulomb"), "energy"),
+                Column(f"{pre}{short_label('lj')}", rp.per_residue("lj"), "energy"),
                 Column(f"{pre}Bonded", rp.per_residue("bonded"), "energy")]
         self.model.set_columns(cols, ds.n)
         self._lower = np.array([s.lower() for s in ds.labels], dtype=str)
