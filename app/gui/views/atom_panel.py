@@ -20,8 +20,8 @@ class AtomContributionsView(QWidget):
         self.caption.setObjectName("atomCaption")
         self.caption.setWordWrap(True)
         self.table = record_table("atomTable", self.model, size_from_rows=40)
-        # a narrowed label keeps its chain and its atom name: "A:AL…HB1"
-        self.table.setTextElideMode(Qt.TextElideMode.ElideMiddle)
+        # a narrowed label keeps its end, the atom name ("…P33 CZ3"; the caption names the pair)
+        self.table.setTextElideMode(Qt.TextElideMode.ElideLeft)
         lay = QVBoxLayout(self); lay.setContentsMargins(2, 2, 2, 2)
         lay.addWidget(self.caption); lay.addWidget(self.table, 1)
         self.table.selectionModel().currentRowChanged.connect(self._on_row)

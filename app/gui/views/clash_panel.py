@@ -62,7 +62,7 @@ class ClashCheckView(QWidget):
         self.model = ArrayTableModel(self)
         self.model.units_in_header = False        # the summary names the units (narrow panel)
         self.table = _table("clashTable"); self.table.setModel(self.model)
-        self.table.setTextElideMode(Qt.TextElideMode.ElideMiddle)   # "A:AL…CZ3": chain and atom stay
+        self.table.setTextElideMode(Qt.TextElideMode.ElideLeft)   # "…P33 CZ3": the atom name stays
         self.counts_model = ArrayTableModel(self)
         self.counts = _table("clashCounts"); self.counts.setModel(self.counts_model)
 

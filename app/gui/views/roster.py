@@ -21,6 +21,8 @@ class ResidueRosterView(QWidget):
         self._syncing = False
         self.dataset = None
         self.table = record_table("rosterTable", self.model, size_from_rows=40)
+        self.model.units_in_header = False        # the caption names the unit (narrow panel)
+        self.units = QLabel(""); self.units.setObjectName("rosterUnits")
         self.find = QLineEdit(); self.find.setPlaceholderText("Filter residues")
         self.find.setClearButtonEnabled(True)
 
@@ -38,7 +40,8 @@ class ResidueRosterView(QWidget):
         form.addRow(row)
         form.addRow(self.result)
         lay = QVBoxLayout(self); lay.setContentsMargins(2, 2, 2, 2)
-        lay.addWidget(self.find); lay.addWidget(self.table, 1); lay.addLayout(form)
+        lay.addWidget(self.find); lay.addWidget(self.units); lay.addWidget(self.table, 1); lay.addLayout(form)
+        self.set_unit(1.0, "kcal/mol")
 
         self.find.textChanged.connect(self._refilter)
         self.apply.clicked.connect(self._request)
@@ -65,6 +68,10 @@ class ResidueRosterView(QWidget):
         self._lower = np.array([s.lower() for s in ds.labels], dtype=str)
         self._refilter()
         fit_columns(self.table)
+
+    def set_unit(self, factor: float, unit: str) -> None:
+        self.model.set_unit(factor, unit)
+        self.units.setText(f"Per-residue energies (half of each pair entry), {unit}")
 
     def set_groups_text(self, a: str, b: str) -> None:
         self.group_a.setText(a); self.group_b.setText(b)

@@ -98,9 +98,10 @@ def apply_hidden_columns(table: QTableView) -> None:
 def fit_columns(table: QTableView, recompute: bool = True) -> None:
     """Columns sized to their contents, then the text columns narrowed (widest first, down to
     :data:`MIN_TEXT_COLUMN`) so that the table fits its width without scrolling; narrowed cells
-    are elided and show their full text as a tool tip.  When even that does not fit, every
-    column keeps its contents' width and the table scrolls (eliding all the labels to nothing
-    would only hide them)."""
+    are elided and show their full text as a tool tip.  Only the leading columns (up to the last
+    energy column of an :class:`~app.gui.models.array_table.ArrayTableModel`) are made to fit;
+    the less used ones after them keep their width and may scroll.  Text columns are never
+    narrowed below :data:`MIN_TEXT_COLUMN`."""
     header = table.horizontalHeader()
     model = table.model()
     if model is None or model.columnCount() == 0:
@@ -119,7 +120,9 @@ def fit_columns(table: QTableView, recompute: bool = True) -> None:
     fixed = sum(w for c, w in enumerate(natural[:lead]) if c not in text and not header.isSectionHidden(c))
     widths = {c: natural[c] for c in text}
     budget = room - fixed
-    if budget >= MIN_TEXT_COLUMN * len(text) and sum(widths.values()) > budget and text:
+    if sum(widths.values()) > budget and text:
+        # (below MIN_TEXT_COLUMN each, the text columns stay at that width and the table scrolls
+        # a little: the energies come first, the text keeps its last characters)
         # the largest cap L with sum(min(w, max(L, MIN))) <= budget (water-filling)
         lo, hi = MIN_TEXT_COLUMN, max(widths.values())
         while lo < hi:
