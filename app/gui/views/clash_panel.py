@@ -124,14 +124,15 @@ class ClashCheckView(QWidget):
                           for a, b in zip(rep.is_14, rep.is_hbond)], dtype=object)
         self._res = np.stack([np.minimum(ri, rj), np.maximum(ri, rj)], axis=1) if n else np.zeros((0, 2), np.intp)
         self.model.set_columns([
-            Column("Rank", np.arange(1, n + 1), "number", "rank: overlap, then LJ energy"),
             Column("Atom i", lab_i), Column("Atom j", lab_j),
             Column("Overlap", rep.overlap, "distance", "contact − r"),
             Column(short_label("lj"), rep.lj, "energy", f"{long_label('lj')} energy of the pair"),
             Column("exp-6", rep.exp6, "energy", "exp-6 energy, same minimum, softer wall"),
             Column("r", rep.distance, "distance", "distance between the atom centres"),
             Column("Contact", rep.contact, "distance", "contact distance R_i + R_j (or H-bond contact)"),
-            Column("Note", flags)], n)
+            Column("Note", flags),
+            # the rows come in rank order; the rank itself is for other sort orders (last)
+            Column("Rank", np.arange(1, n + 1), "number", "rank: overlap, then LJ energy")], n)
         counts = check.residue_counts
         hit = np.flatnonzero(counts)
         labels = np.array([system.residues.label(int(r)) for r in hit], dtype=object)

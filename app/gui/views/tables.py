@@ -30,6 +30,7 @@ def record_table(name: str, model=None, size_from_rows: int | None = None) -> QT
     if size_from_rows is not None:
         t.horizontalHeader().setResizeContentsPrecision(size_from_rows)
     t.setTextElideMode(Qt.TextElideMode.ElideRight)
+    t.setWordWrap(False)      # one line a cell: a narrowed label is elided, not cut into two lines
     t.viewport().installEventFilter(ElidedCellTips(t))
     t.viewport().installEventFilter(_RefitOnResize(t))
     header = t.horizontalHeader()
