@@ -5,6 +5,7 @@ import math
 
 import numpy as np
 import pyqtgraph as pg
+from PySide6.QtGui import QFont
 
 import resources
 from energy.terms.registry import TERMS, short_label
@@ -56,6 +57,10 @@ class TermBarsView(pg.GraphicsLayoutWidget):
             p = self.addPlot(row=0, col=col, axisItems={"bottom": EnergyTickAxis("bottom")})
             p.setMenuEnabled(False); p.hideButtons(); p.setMouseEnabled(x=False, y=False)
             p.getAxis("left").enableAutoSIPrefix(False)
+            # the term labels in a compact font and a fixed width: three plots fit a laptop's dock
+            font = QFont(); font.setPointSizeF(7.5)
+            p.getAxis("left").setStyle(tickFont=font)
+            p.getAxis("left").setWidth(46)
             p.showGrid(x=True, alpha=0.15)
             p.addLine(x=0, pen=pg.mkPen("#777"))
             p.invertY(True)
