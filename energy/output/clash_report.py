@@ -176,12 +176,12 @@ def clash_table(system: MolecularSystem, report: ClashReport, top: int = 20) -> 
     Returns
     -------
     str
-        The text table (distances in A, energies in kcal/mol), lines joined by newlines.
+        The text table (distances in Å, energies in kcal/mol; the window's symbols ≥, Å, α), lines joined by newlines.
     """
     o = report.options
     crit = []
     if o.overlap is not None:
-        crit.append(f"overlap >= {o.overlap:g} A")
+        crit.append(f"overlap ≥ {o.overlap:g} Å")
     if o.lj_above is not None:
         crit.append(f"LJ > {o.lj_above:g} kcal/mol")
     scope = "all atoms" if o.include_hydrogens else "heavy atoms"
@@ -190,7 +190,7 @@ def clash_table(system: MolecularSystem, report: ClashReport, top: int = 20) -> 
              f"{'included' if o.include_14 else 'excluded'}"
              f"{'; periodic' if o.periodic else ''}"
              f"{'; H-bond pairs at H-bond contact' if o.hbond else '; no H-bond allowance'}"
-             f"; exp-6 column: alpha = {o.exp6_alpha:.3f}"]
+             f"; exp-6 column: α = {o.exp6_alpha:.3f}"]
     lines += [f"note: {n}" for n in report.notes]
     if not len(report):
         return "\n".join(lines)
@@ -199,7 +199,7 @@ def clash_table(system: MolecularSystem, report: ClashReport, top: int = 20) -> 
     wi = max(len("atom i"), *(len(r["label_i"]) for r in shown))
     wj = max(len("atom j"), *(len(r["label_j"]) for r in shown))
     lines.append("")
-    lines.append(f"{'rank':>4}  {'atom i':<{wi}}  {'atom j':<{wj}}  {'r (A)':>6}  {'contact':>7}  "
+    lines.append(f"{'rank':>4}  {'atom i':<{wi}}  {'atom j':<{wj}}  {'r (Å)':>6}  {'contact':>7}  "
                  f"{'overlap':>7}  {'LJ (kcal/mol)':>13}  {'exp-6':>12}")
     for r in shown:
         lines.append(f"{r['rank']:>4}  {r['label_i']:<{wi}}  {r['label_j']:<{wj}}  {r['distance']:6.2f}  "

@@ -16,7 +16,7 @@ from energy.output.report import UNITS, residue_records
 
 FRAMES_CSV = "frames.csv"
 PAIR_FRAMES_CSV = "pair_frames.csv"
-SELECTION_CSV = "selection_frames.csv"
+SELECTION_CSV = "group_interaction_frames.csv"
 STATS_CSV = "residue_pairs_stats.csv"
 
 
@@ -223,7 +223,7 @@ def summary_text(result, top: int = 8) -> str:
     """Text summary of a trajectory run.
 
     Per-term mean and std over the frames, the most persistent residue pairs, the requested pairs
-    and the selection interaction.
+    and the group interaction.
 
     Parameters
     ----------
@@ -270,6 +270,6 @@ def summary_text(result, top: int = 8) -> str:
                          f"{np.std(s['total']):.3f} kcal/mol")
     sel = result.selection_series()
     if sel is not None and len(sel["total"]):
-        lines.append(f"interaction {req.select_a!r} vs {req.select_b!r}: "
+        lines.append(f"group interaction {req.select_a!r} vs {req.select_b!r}: "
                      f"{np.mean(sel['total']):.4f} +- {np.std(sel['total']):.4f} kcal/mol")
     return "\n".join(lines)
