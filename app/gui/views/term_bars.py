@@ -60,7 +60,7 @@ class TermBarsView(pg.GraphicsLayoutWidget):
             # the term labels in a compact font and a fixed width: three plots fit a laptop's dock
             font = QFont(); font.setPointSizeF(7.5)
             p.getAxis("left").setStyle(tickFont=font)
-            p.getAxis("left").setWidth(46)
+            p.getAxis("left").setWidth(56)
             p.showGrid(x=True, alpha=0.15)
             p.addLine(x=0, pen=pg.mkPen("#777"))
             p.invertY(True)
