@@ -455,7 +455,7 @@ class MainWindow(QMainWindow):
         self.unit = unit
         self.app_settings.unit = unit
         factor = ENERGY_UNITS[unit]
-        for view in (self.map, self.profile, self.bars, self.ledger.model, self.atoms, self.roster,
+        for view in (self.map, self.profile, self.bars, self.ledger, self.atoms, self.roster,
                      self.clash_panel, self.model_panel, self.time_series):
             view.set_unit(factor, unit)
         self._update_groups_label()

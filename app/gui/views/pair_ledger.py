@@ -26,6 +26,7 @@ class PairLedgerView(QWidget):
         super().__init__(parent)
         self.selection = selection
         self.model = PairTableModel(self)
+        self.model.units_in_header = False        # the count line names the units (narrow docks)
         self._syncing = False
 
         self.text = QLineEdit(); self.text.setObjectName("ledgerText")
@@ -57,6 +58,10 @@ class PairLedgerView(QWidget):
         self.hide_self.toggled.connect(self._refilter)
         self.table.selectionModel().currentRowChanged.connect(self._on_row)
         selection.pairChanged.connect(self._on_selection)
+
+    def set_unit(self, factor: float, unit: str) -> None:
+        self.model.set_unit(factor, unit)
+        self.count.setText(f"{self.model.rowCount():,} pairs · energies in {unit}, distances in Å")
 
     def set_dataset(self, ds, keep_sort: bool = False) -> None:
         header = self.table.horizontalHeader()
@@ -104,7 +109,7 @@ class PairLedgerView(QWidget):
             between = (self.chain_a.currentData(), self.chain_b.currentData())
         self.model.apply_filter(self.text.text(), self.chain.currentData() or "", between,
                                 self.hide_self.isChecked())
-        self.count.setText(f"{self.model.rowCount():,} pairs")
+        self.count.setText(f"{self.model.rowCount():,} pairs · energies in {self.model._unit}, distances in Å")
         self._on_selection(self.selection.pair)
 
     def _on_row(self, current, _previous) -> None:
