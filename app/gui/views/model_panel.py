@@ -34,6 +34,7 @@ class ModelComparisonView(QWidget):
         self.severity_caption.setWordWrap(True)
         self.severity_model = ArrayTableModel(self)
         self.severity = _table("severityTable"); self.severity.setModel(self.severity_model)
+        self.severity.setTextElideMode(Qt.TextElideMode.ElideMiddle)   # both atom names stay in view
 
         self.compare_button = QPushButton("Compare electrostatics models")
         self.compare_button.setObjectName("compareElectrostatics")
