@@ -71,6 +71,11 @@ class ArrayTableModel(QAbstractTableModel):
         self._rebuild()
         self.endResetModel()
 
+    @property
+    def unit(self) -> str:
+        """The display unit of the energy columns."""
+        return self._unit
+
     def set_unit(self, factor: float, unit: str) -> None:
         self._factor, self._unit = float(factor), unit
         if self._n:

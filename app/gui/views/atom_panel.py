@@ -41,7 +41,7 @@ class AtomContributionsView(QWidget):
         if self.model.contrib is None:
             self.caption.setText(self._caption)
             return
-        self.caption.setText(f"{self._caption} · energies in {self.model._unit}, distances in Å")
+        self.caption.setText(f"{self._caption} · energies in {self.model.unit}, distances in Å")
 
     def _on_row(self, current, _prev) -> None:
         if self._syncing or not current.isValid():

@@ -149,7 +149,7 @@ class ClashCheckView(QWidget):
         self.summary.setText(
             f"<b>{n} clash(es)</b> in frame {check.frame_index} ({crit}, {RADII[o.radii].split(' (')[0]} "
             f"radii, {scope}); {len(check.residue_pairs)} residue pair(s), {len(hit)} residue(s); "
-            f"energies in {self.model._unit}, distances in Å. "
+            f"energies in {self.model.unit}, distances in Å. "
             + ("Pick a row to select it everywhere." if n else "")
             + "".join(f"<br><i>{note}</i>" for note in rep.notes))
         fit_columns(self.table)

@@ -109,7 +109,7 @@ class PairLedgerView(QWidget):
             between = (self.chain_a.currentData(), self.chain_b.currentData())
         self.model.apply_filter(self.text.text(), self.chain.currentData() or "", between,
                                 self.hide_self.isChecked())
-        self.count.setText(f"{self.model.rowCount():,} pairs · energies in {self.model._unit}, distances in Å")
+        self.count.setText(f"{self.model.rowCount():,} pairs · energies in {self.model.unit}, distances in Å")
         self._on_selection(self.selection.pair)
 
     def _on_row(self, current, _previous) -> None:
