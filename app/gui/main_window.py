@@ -499,7 +499,7 @@ class MainWindow(QMainWindow):
         self.map.set_dataset(ds, keep_view=keep_view)
         self.ledger.set_dataset(ds, keep_sort=keep_view)
         self.roster.set_dataset(ds)
-        self.bars.set_values("system", ds.totals, "change, second minus first" if ds.is_difference else "")
+        self.bars.set_values("system", ds.totals, "second minus first" if ds.is_difference else "")
         self.bars.set_values("groups", None)
         self.size_label.setText(size)
         self.time_label.setText(f"last computation {self.last_compute_s:.2f} s"

@@ -226,7 +226,7 @@ def size_docks(window: QMainWindow, docks: dict[str, QDockWidget], arrangement: 
         window.resizeDocks([d["roster"]], [left], H)
     atoms = int(right * 0.6)       # the atom table's energy columns need more than half
     window.resizeDocks([d["atoms"], d["profile"]], [atoms, right - atoms], H)
-    ledger = int(size.width() * (0.5 if size.width() >= 1600 else 0.58))
+    ledger = int(size.width() * (0.5 if size.width() >= 1600 else 0.56))
     window.resizeDocks([d["ledger"]], [bottom], V)
     window.resizeDocks([d["ledger"], d["bars"]], [ledger, size.width() - ledger], H)
 

@@ -23,7 +23,7 @@ RETIRED = {
     "Interface energy": "Group interaction", "Group A vs B": "Group interaction", "A vs B:": "Group interaction",
     "Amber14": "Amber 14", "Urey-bradley": "Urey-Bradley", "Cmap": "CMAP", "Exp-6": "exp-6",
     "eps=": "ε", "alpha=": "α", "Atom 1": "Atom i", "Atom 2": "Atom j", "Residue 1": "Residue i",
-    "Residue 2": "Residue j", "Map image (PNG or SVG)\u2026 ": "Export map image", "scanned": "computed",
+    "Residue 2": "Residue j", "scanned": "computed",
 }
 #: An atom label the old way, "CB (ALA25)" or "CB A:ALA25" (name before the residue).
 OLD_ATOM_LABEL = re.compile(r"\b[A-Z][A-Z0-9']{0,3} \(?[A-Z]:?[A-Z]{3}-?\d+\)?")
@@ -92,6 +92,9 @@ def test_window_strings_use_one_vocabulary(shown):
     ledger = [h.split("\n")[0] for h in _headers(shown.ledger.table)]
     assert short_label("coulomb") in ledger and short_label("lj") in ledger   # "Coulomb", "LJ"
     assert shown.settings_panel.vdw.itemText(0).startswith(long_label("lj"))
+    # the toolbar's buttons are whole phrases: "Compare with" says with what, the map image says export
+    toolbar = [a.iconText() for a in shown.findChild(type(shown.frame_toolbar), "toolbar_main").actions()]
+    assert "Compare with a second structure" in toolbar and "Export map image" in toolbar
 
 
 def test_every_atom_label_has_the_one_format(shown):

@@ -1,6 +1,7 @@
 """Term bars: per-term energies of the whole system, the selected residue pair and the group interaction."""
 from __future__ import annotations
 
+import html
 import math
 
 import numpy as np
@@ -9,6 +10,9 @@ from PySide6.QtGui import QFont
 
 import resources
 from energy.terms.registry import TERMS, short_label
+
+#: Characters of a plot's subtitle (the selected pair, the groups); the whole text is its tool tip.
+SUBTITLE_CHARS = 22
 
 POS, NEG = (resources.json_table("colormaps.json")[k] for k in ("bar_positive", "bar_negative"))
 
@@ -90,8 +94,12 @@ class TermBarsView(pg.GraphicsLayoutWidget):
         self.texts[key] = []
         entry = self.values[key]
         sub = "" if entry is None else entry[1]
+        p.setToolTip(sub)
+        if len(sub) > SUBTITLE_CHARS:     # a title sets its plot's least width: long ones are cut
+            sub = sub[:SUBTITLE_CHARS - 1] + "…"
         p.setTitle(f"<span style='color:#222'>{self.titles[key]}</span>"
-                   + (f"<br><span style='color:#555;font-size:8pt'>{sub}</span>" if sub else ""), size="9pt")
+                   + (f"<br><span style='color:#555;font-size:8pt'>{html.escape(sub)}</span>" if sub else ""),
+                   size="9pt")
         p.setLabel("bottom", self.unit)
         if entry is None:
             p.getAxis("left").setTicks([[]])
