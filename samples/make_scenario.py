@@ -15,7 +15,7 @@ Steps (all deterministic):
   2. sequence assigned from the geometry (core / rim / surface positions);
   3. backbone-only PDB -> PDBFixer adds side-chain heavy atoms and OXT -> OpenMM Modeller adds
      hydrogens (pH 7); salt-bridge and Trp rotamers set by a small chi grid search;
-  4. Amber14 (amber14-all.xml), vacuum, NoCutoff, LocalEnergyMinimizer -> complex_fixed.pdb;
+  4. Amber 14 (amber14-all.xml), vacuum, NoCutoff, LocalEnergyMinimizer -> complex_fixed.pdb;
   5. Trp chi1/chi2 rotated onto a chain-A residue -> complex_clash.pdb (same atoms/numbering);
   6. relax.dcd: the clash relaxing (low-temperature Langevin dynamics from the clash model,
      vacuum, screened charges), topology = complex_clash.pdb;
@@ -592,7 +592,7 @@ def screened(system, f=CHARGE_SCALE):
 
     Used only to relax the models: in plain vacuum every salt bridge and H-bond collapses
     onto its LJ wall (+4-5 kcal/mol of LJ per charged pair at the minimum).  All reported
-    energies use the unscaled Amber14 parameters.
+    energies use the unscaled Amber 14 parameters.
     """
     system = openmm.XmlSerializer.clone(system)
     nb = [x for x in system.getForces() if isinstance(x, openmm.NonbondedForce)][0]
@@ -840,7 +840,7 @@ def main() -> int:
     pos = to_angstrom(modeller.positions)
     log(f"  with hydrogens: {top.getNumAtoms()} atoms, {top.getNumResidues()} residues")
 
-    log("[4] Amber14 vacuum minimisation (NoCutoff)")
+    log("[4] Amber 14 vacuum minimisation (NoCutoff)")
     system = ff.createSystem(top, nonbondedMethod=app.NoCutoff, constraints=None)
     ctx, integ = make_context(screened(system), pos)
     e0 = potential(ctx)

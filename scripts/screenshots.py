@@ -7,8 +7,8 @@ interaction profiles; compare mode (fixed minus clash); the clash check panel wi
 the model comparison (LJ vs exp-6 severity, electrostatics models); the trajectory with the clash
 pair's time series; the mean over frames.
 
-Offscreen, the window is 1600 x 1000 (the README's screenshots):
-    QT_QPA_PLATFORM=offscreen .venv/bin/python scripts/screenshots.py [OUT_DIR]
+Offscreen, the window is 1600 x 1000 (the README's screenshots), or the size given:
+    QT_QPA_PLATFORM=offscreen .venv/bin/python scripts/screenshots.py [OUT_DIR] [--size 1280x800]
 Under a real X server the window opens as it does for a user, fitted to the screen, and the
 shots show the whole screen, e.g. a 1366 x 768 laptop:
     xvfb-run -a -s "-screen 0 1366x768x24" env QT_QPA_PLATFORM=xcb \
@@ -49,7 +49,7 @@ def settle(ms=250):
     loop.exec()
 
 
-def main(out_dir: str) -> int:
+def main(out_dir: str, size: tuple = (1600, 1000)) -> int:
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     qapp = QApplication.instance() or QApplication([])
@@ -61,10 +61,12 @@ def main(out_dir: str) -> int:
     from app.gui.main_window import MainWindow
     qapp.setStyleSheet(resources.text("window.qss"))
     offscreen = qapp.platformName() == "offscreen"
+    sx = size[0] / 1600       # the dock sizes below are those of the 1600 x 1000 window, scaled
+    px = lambda *v: [int(round(x * sx)) for x in v]  # noqa: E731
     w = MainWindow()
     from app.gui import screen_fit
     if offscreen:     # no real screen (the offscreen one is 800 x 600): the README's 1600 x 1000
-        w.resize(1600, 1000)
+        w.resize(*size)
         screen_fit.arrange_docks(w, w.docks, screen_fit.arrangement_for(w.size()))
         screen_fit.size_docks(w, w.docks, screen_fit.arrangement_for(w.size()))
     w.show()
@@ -86,17 +88,20 @@ def main(out_dir: str) -> int:
     k = inter[np.argmax(rp.total[inter])]
     w.selection.set_pair((int(rp.pair_i[k]), int(rp.pair_j[k])))
     model = w.atoms.model
-    total_col = model.columnCount() - 1
+    total_col = model.column_of("Total")
     w.atoms.table.sortByColumn(total_col, Qt.SortOrder.DescendingOrder)
     w.atoms.table.selectRow(0)
     shot("02_clash_selected_atom_curves")
     w.ledger.set_between("A", "B", True)
     w.ledger.hide_self.setChecked(True)
-    w.ledger.table.sortByColumn(w.ledger.model.columnCount() - 1, Qt.SortOrder.AscendingOrder)
+    w.ledger.table.sortByColumn(w.ledger.model.column_of("Total"), Qt.SortOrder.AscendingOrder)
     w.ledger.table.selectRow(0)
     w.roster.apply.click()
     wait_for(w.groupsComputed, 20000)
     shot("03_interface_pairs_and_groups")
+    w.docks["roster"].raise_()
+    shot("03b_residue_roster")
+    w.docks["atoms"].raise_()
     w.map.set_order("profile")
     w.map.set_quantity("nonbonded")
     shot("04_clustered_order_nonbonded")
@@ -113,14 +118,14 @@ def main(out_dir: str) -> int:
         wait_for(w.checks.clashesChecked, 20000)
     w.docks["clashes"].raise_()
     if offscreen:   # the README's 1600 x 1000 layout; on a real screen the user's layout stays
-        w.resizeDocks([w.docks["clashes"], w.docks["atoms"]], [560, 400], Qt.Orientation.Horizontal)
+        w.resizeDocks([w.docks["clashes"], w.docks["atoms"]], px(560, 400), Qt.Orientation.Horizontal)
     w.clash_panel.table.selectRow(0)
     i, j = w.selection.pair
     pi, pj = int(w.map.position[i]), int(w.map.position[j])
     w.map.plot.setRange(xRange=(pj - 18, pj + 18), yRange=(pi - 18, pi + 18), padding=0)
     shot("06_clash_check_panel")
     if offscreen:
-        w.resizeDocks([w.docks["clashes"], w.docks["atoms"]], [300, 460], Qt.Orientation.Horizontal)
+        w.resizeDocks([w.docks["clashes"], w.docks["atoms"]], px(300, 460), Qt.Orientation.Horizontal)
     w.fit_map()
     w.docks["models"].raise_()
     w.docks["bars"].hide(); w.docks["series"].hide()     # give the comparison the whole width
@@ -134,7 +139,7 @@ def main(out_dir: str) -> int:
     w.docks["roster"].raise_()
     w.docks["ledger"].raise_()
     if offscreen:
-        w.resizeDocks([w.docks["ledger"], w.docks["bars"]], [700, 900], Qt.Orientation.Horizontal)
+        w.resizeDocks([w.docks["ledger"], w.docks["bars"]], px(700, 900), Qt.Orientation.Horizontal)
         w.resizeDocks([w.docks["ledger"]], [250], Qt.Orientation.Vertical)
     else:
         screen_fit.size_docks(w, w.docks, w.arrangement)
@@ -151,7 +156,7 @@ def main(out_dir: str) -> int:
     shot("08_trajectory_time_series")
     w.frame_bar.mean.setChecked(True)
     w.ledger.set_between("A", "B", True)
-    w.ledger.table.sortByColumn(w.ledger.model.columnCount() - 1, Qt.SortOrder.AscendingOrder)
+    w.ledger.table.sortByColumn(w.ledger.model.column_of("Total"), Qt.SortOrder.AscendingOrder)
     w.ledger.table.scrollToTop()
     shot("09_trajectory_mean_over_frames")
     # a solvated box (OpenMM's bundled test.pdb): settings fitted to it, water and ions as blocks
@@ -168,4 +173,10 @@ def main(out_dir: str) -> int:
 
 
 if __name__ == "__main__":
-    sys.exit(main(sys.argv[1] if len(sys.argv) > 1 else str(ROOT / "docs" / "screenshots")))
+    args = sys.argv[1:]
+    size = (1600, 1000)
+    if "--size" in args:
+        k = args.index("--size")
+        size = tuple(int(v) for v in args[k + 1].lower().split("x"))
+        del args[k:k + 2]
+    sys.exit(main(args[0] if args else str(ROOT / "docs" / "screenshots"), size))

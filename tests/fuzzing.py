@@ -10,7 +10,7 @@ base                      files                                                 
 ``psf+crd``               the PSF, the parameters, a CHARMM CRD written by MDAnalysis  0
 ``psf+dcd``               the PSF, the parameters, a 3-frame DCD (30 A cell) written by
                           MDAnalysis from the PDB with seeded displacements            2
-``pdb``                   probe_peptide.pdb alone (built-in Amber14 route)            0
+``pdb``                   probe_peptide.pdb alone (built-in Amber 14 route)            0
 ``pdb-models``            the PDB as two MODELs (the second displaced), model 2        1
 ``cif``                   the PDB as mmCIF (written by OpenMM's PDBxFile)              0
 ========================  ==========================================================  ========

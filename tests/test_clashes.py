@@ -5,7 +5,7 @@ External references:
   memory of the published table, independently of energy/vdw_radii.py).
 * Two-atom and small-system cases: hand computations written out in each test.
 * The bundled scenario: the planted clash pair is taken from samples/scenario/scenario.json when
-  present and, independently, recomputed from OpenMM's own Amber14 NonbondedForce parameters.
+  present and, independently, recomputed from OpenMM's own Amber 14 NonbondedForce parameters.
 """
 from __future__ import annotations
 
@@ -280,6 +280,36 @@ def test_periodic_minimum_image_only_on_request():
         find_clashes(system, Frame(frame.positions), ClashOptions(periodic=True))
 
 
+def test_periodic_images_follow_the_cell_rules_of_every_computation():
+    """`tessera overlaps` and the window's clash check decide periodic images as scan and compare
+    do: on when the frame has a real periodic box (energy.model.cell.check_cell: the PDB's
+    1 A placeholder cell of entries without a lattice is ignored, wwPDB format CRYST1 convention),
+    off with --no-periodic; a triclinic cell is searched without images, with a note."""
+    from energy.analysis.clashes import periodic_search
+    pos = np.array([[0.5, 5, 5], [18.5, 5, 5]])
+    cubic = Frame(pos, box=np.array([20.0, 20.0, 20.0, 90.0, 90.0, 90.0]))
+    assert periodic_search(cubic, 2) == (True, "")
+    assert periodic_search(cubic, 2, use_periodic=False) == (False, "")
+    placeholder = Frame(pos, box=np.array([1.0, 1.0, 1.0, 90.0, 90.0, 90.0]))
+    on, note = periodic_search(placeholder, 2)
+    assert not on and note
+    tric = Frame(pos, box=np.array([20.0, 20.0, 20.0, 90.0, 90.0, 60.0]))
+    on, note = periodic_search(tric, 2)
+    assert not on and "triclinic" in note
+    assert periodic_search(Frame(pos), 2) == (False, "")
+
+
+def test_overlaps_command_has_the_periodicity_flag_of_scan_and_compare(tmp_path):
+    from app.cli.main import main
+    common = [str(SCENARIO / "complex_clash.pdb"), "--quiet", "--json"]
+    assert main(["overlaps", *common, str(tmp_path / "a.json"), "--no-periodic"]) == 0
+    assert main(["overlaps", *common, str(tmp_path / "b.json")]) == 0
+    a, b = (json.loads((tmp_path / n).read_text()) for n in ("a.json", "b.json"))
+    # the scenario has no CRYST1: no images either way, so the two runs flag the same pairs
+    assert a["settings"]["periodic"] is False and b["settings"]["periodic"] is False
+    assert a["clashes"] == b["clashes"]
+
+
 def test_ranking_overlap_then_lj_and_residue_aggregation():
     # residues 0, 1, 2.  Pairs (0,1) and (2,3) both at overlap 0.6 (C-C at 2.8), but (2,3) has
     # the larger eps and so the larger (repulsive) LJ; pair (0,4) overlap 1.0 (C-C at 2.4).
@@ -341,7 +371,7 @@ def test_outputs_json_csv_and_table():
 @functools.cache
 def openmm_clash_pair(pdb):
     """Independent of Tessera: the chain-A residue with the largest LJ to chain B's Trp, from
-    OpenMM's Amber14 NonbondedForce sigma/epsilon (Lorentz-Berthelot, inter-chain so no
+    OpenMM's Amber 14 NonbondedForce sigma/epsilon (Lorentz-Berthelot, inter-chain so no
     exceptions apply)."""
     import openmm.app as app
     p = app.PDBFile(str(pdb))
@@ -416,7 +446,7 @@ def test_cli_clashes_writes_json_and_csv(tmp_path, capsys):
     assert all(label in first_row for label in expected), first_row
     assert "exp-6" in text.split("\n")[2]
     doc = json.loads(out_json.read_text())
-    assert doc["kind"] == "tessera-clashes" and doc["n_clashes"] >= 1
+    assert doc["kind"] == "overlaps" and doc["n_clashes"] >= 1
     assert doc["residue_pairs"][0]["count"] >= 1
     assert out_csv.read_text().count("\n") == doc["n_clashes"] + 1
     assert "exp6" in out_csv.read_text().splitlines()[0].split(",")
@@ -513,6 +543,6 @@ def test_cli_exp6_alpha_option(tmp_path):
         assert main(["overlaps", str(SCENARIO / "complex_clash.pdb"), "--exp6-alpha", alpha,
                      "--json", str(path), "--quiet"]) == 0
         doc = json.loads(path.read_text())
-        assert doc["options"]["exp6_alpha"] == pytest.approx(float(alpha))
+        assert doc["settings"]["exp6_alpha"] == pytest.approx(float(alpha))
         out[alpha] = doc["clashes"][0]["exp6"]
     assert out["10"] < out["13.772"]

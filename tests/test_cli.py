@@ -47,7 +47,7 @@ def test_scan_json_has_the_documented_fields_and_matches_the_api(tmp_path):
     pair_sum = {t: sum(p[t] for p in doc["pairs"]) for t in TERMS}
     for term in TERMS:
         assert pair_sum[term] == pytest.approx(doc["totals"][term], rel=1e-9, abs=1e-9)
-    assert doc["selection"]["n_atoms_a"] > 0 and np.isfinite(doc["selection"]["total"])
+    assert doc["group_interaction"]["n_atoms_a"] > 0 and np.isfinite(doc["group_interaction"]["total"])
 
 
 def test_csv_tables_read_back_to_the_json_numbers(tmp_path):

@@ -286,7 +286,7 @@ def test_serial_workers_and_dask_cluster_give_identical_outputs(tmp_path, residu
     serial = _outputs(out_s)
     assert serial[0]["frames"] == list(range(1, serial[0]["inputs"]["n_frames_in_file"], 4))
     assert serial[0]["complete"]
-    assert set(serial[1]) == {"frames.csv", "pair_frames.csv", "selection_frames.csv",
+    assert set(serial[1]) == {"frames.csv", "pair_frames.csv", "group_interaction_frames.csv",
                               "residue_pairs_stats.csv"}
     for other in (out_w, out_d):
         doc, tables = _outputs(other)

@@ -70,7 +70,7 @@ def add_settings_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("--electrostatics", choices=("plain", "reaction-field", "distance-dependent", "shifted"),
                    default="plain", help="Coulomb model (reaction-field and shifted need --cutoff)")
     p.add_argument("--vdw", choices=("lj", "exp6"), default="lj",
-                   help="repulsion-dispersion form: the force field's LJ 12-6, or exp-6 with the same "
+                   help="LJ term form: the force field's LJ 12-6, or exp-6 with the same "
                         "minimum per pair")
     p.add_argument("--exp6-alpha", type=float, default=None, metavar="ALPHA",
                    help="exp-6 steepness (default 13.772, matching the LJ curvature at the minimum)")

@@ -6,6 +6,7 @@ are raised as :class:`energy.errors.EnergyError` and printed there as one line.
 from __future__ import annotations
 
 import argparse
+import dataclasses
 import json
 import math
 import os
@@ -51,13 +52,16 @@ def configure_parser(p: argparse.ArgumentParser) -> None:
     p.add_argument("--include-14", action="store_true",
                    help="let 1-4 pairs count (1-2 and 1-3 pairs never do)")
     p.add_argument("--lj-above", type=_energy_value, default=None, metavar="E",
-                   help="also flag pairs whose Lennard-Jones energy exceeds E kcal/mol")
+                   help="also flag pairs whose LJ energy exceeds E kcal/mol")
     p.add_argument("--require-all", action="store_true",
                    help="with --lj-above: flag only pairs meeting both criteria (default: either)")
     p.add_argument("--no-hbond-contact", action="store_true",
                    help="measure hydrogen-bonding pairs with the ordinary radii too")
-    p.add_argument("--periodic", action="store_true",
-                   help="minimum image in the frame's orthorhombic unit cell (default: none)")
+    p.add_argument("--no-periodic", action="store_true",
+                   help="no periodic images (default: minimum image when the frame has a real periodic "
+                        "box, as in scan and compare)")
+    # the earlier spelling: insist on periodic images (an error when the frame has no usable cell)
+    p.add_argument("--periodic", action="store_true", help=argparse.SUPPRESS)
     p.add_argument("--exp6-alpha", type=float, default=None, metavar="ALPHA",
                    help="steepness of the exp-6 energy reported beside the LJ energy of each clash "
                         "(default 13.772, matching the LJ curvature at the minimum)")
@@ -80,7 +84,7 @@ def options_from_args(args) -> ClashOptions:
 
 
 def run(args) -> int:
-    from energy.analysis.clashes import find_clashes
+    from energy.analysis.clashes import find_clashes, periodic_search
     from energy.io.loaders import load_system
     from energy.output.clash_report import clash_csv, clash_document, clash_table
     from energy.output.files import atomic_write_text
@@ -101,12 +105,18 @@ def run(args) -> int:
                          preparation=preparation_from_args(args))
     for note in loaded.system.notes:
         print(f"note: {note}", file=sys.stderr)
+    cell_note = ""
+    if not args.periodic:      # the default: by the cell rules of every computation
+        periodic, cell_note = periodic_search(loaded.frame, loaded.system.n_atoms, not args.no_periodic)
+        options = dataclasses.replace(options, periodic=periodic)
     report = find_clashes(loaded.system, loaded.frame, options)
     if args.json:
-        source = {"structure": loaded.structure_path, "coords": loaded.coords_path,
-                  "params": list(loaded.param_paths), "frame": int(loaded.frame.index),
+        source = {"structure": loaded.structure_path, "coordinates": loaded.coords_path,
+                  "parameters": list(loaded.param_paths), "frame": int(loaded.frame.index),
                   "force_field": loaded.system.force_field}
         doc = clash_document(loaded.system, report, source)
+        if cell_note:
+            doc["notes"].append(cell_note)
         atomic_write_text(args.json, json.dumps(doc, indent=1, allow_nan=False) + "\n")
     if args.csv:
         atomic_write_text(args.csv, clash_csv(loaded.system, report))
@@ -115,4 +125,6 @@ def run(args) -> int:
         write_overlap_result(args.out, loaded, report)
     if not args.quiet:
         print(clash_table(loaded.system, report, top=args.top))
+        if cell_note:
+            print(f"note: {cell_note}")
     return 0

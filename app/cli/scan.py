@@ -30,8 +30,9 @@ def configure_parser(p: argparse.ArgumentParser) -> None:
     """The options of ``tessera scan``."""
     add_input_arguments(p)
     add_settings_arguments(p)
-    p.add_argument("--select-a", metavar="SEL", help="MDAnalysis selection A (e.g. 'segid A')")
-    p.add_argument("--select-b", metavar="SEL", help="MDAnalysis selection B")
+    p.add_argument("--select-a", metavar="SEL",
+                   help="group A of the group interaction, an MDAnalysis selection (e.g. 'segid A')")
+    p.add_argument("--select-b", metavar="SEL", help="group B of the group interaction")
     p.add_argument("--json", metavar="OUT.json", help="write the full result as JSON")
     p.add_argument("--csv-dir", metavar="DIR", help="write residues.csv and residue_pairs.csv")
     p.add_argument("--out", metavar="RESULT.h5",
@@ -102,7 +103,7 @@ def run(args) -> int:
         t0 = time.perf_counter()
         selection = selection_interaction(loaded.system, loaded.frame, settings, args.select_a,
                                           args.select_b)
-        extra["selection"] = time.perf_counter() - t0
+        extra["group_interaction"] = time.perf_counter() - t0
     classes = loaded.system.residue_classes
     blocked = None
     if has_solvent(classes) and not args.every_residue:

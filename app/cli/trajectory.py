@@ -3,7 +3,7 @@
 Outputs (formats in docs/trajectories.md):
 
 * ``--csv-dir DIR``: per-frame tables written as the frames finish, one complete row at a time
-  (``frames.csv``; ``pair_frames.csv`` with ``--pairs``; ``selection_frames.csv`` with
+  (``frames.csv``; ``pair_frames.csv`` with ``--pairs``; ``group_interaction_frames.csv`` with
   ``--select-a/--select-b``), and ``residue_pairs_stats.csv`` (mean, std, persistence per
   residue pair), rewritten atomically at checkpoints and at the end.
 * ``--json OUT.json``: the mean/std residue-pair matrices like the snapshot JSON, the frames

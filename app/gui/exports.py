@@ -42,9 +42,11 @@ def matrix_csv(labels, matrix, unit: str) -> str:
 def pdb_with_bfactors(system, frame, per_residue, quantity: str, unit: str) -> str:
     """PDB text with each atom's B-factor set to its residue's energy (clipped to fit)."""
     lo, hi = BFACTOR_RANGE
+    # REMARK 1 holds references in the PDB format; 99 lies in the block the format leaves without
+    # a defined content (wwPDB PDB format 2.3 index: "REMARKs 5-99"), so the text is free remarks
     clipped = int(np.sum((per_residue < lo) | (per_residue > hi)))
-    lines = [f"REMARK   1 TESSERA PER-RESIDUE {quantity.upper()} ENERGY IN B-FACTOR COLUMN, {unit}",
-             f"REMARK   1 VALUES CLIPPED TO [{lo}, {hi}]: {clipped} RESIDUE(S)"]
+    lines = [f"REMARK  99 TESSERA PER-RESIDUE {quantity.upper()} ENERGY IN B-FACTOR COLUMN, {unit}",
+             f"REMARK  99 VALUES CLIPPED TO [{lo}, {hi}]: {clipped} RESIDUE(S)"]
     r = system.residues
     x = frame.positions
     serial = 0

@@ -5,6 +5,7 @@ total)``; the worker drives it and checks the cancel flag between steps.  Only Q
 """
 from __future__ import annotations
 
+import itertools
 import threading
 import time
 import traceback
@@ -267,24 +268,44 @@ class JobQueue(QObject):
                 handle.wait(ms)
 
 
-__all__ = ["EnergyWorker", "JobQueue", "JobResult", "WorkerHandle", "CallWorker", "TrajectoryWorker", "HotspotWorker"]
+__all__ = ["EnergyWorker", "JobQueue", "JobResult", "WorkerHandle", "CallWorker", "TrajectoryWorker",
+           "HotspotWorker", "next_job_id"]
+
+
+_JOB_IDS = itertools.count(1)
+
+
+def next_job_id() -> int:
+    """A job id never given before in this process (1, 2, 3, ...)."""
+    return next(_JOB_IDS)
 
 
 class CallWorker(QObject):
-    """Run one plain function in a thread (short jobs: interface energies, exports)."""
+    """Run one plain function in a thread (short jobs: interface energies, exports).
+
+    Each worker has its own :attr:`job_id`; ``result`` carries it with the value (``finished``
+    the value alone), so that a receiver can drop a result whose job is no longer the one it
+    waits for (a stale result of an earlier request)."""
 
     finished = Signal(object)
+    result = Signal(int, object)      # job id, value
     failed = Signal(str, str)
+    jobFailed = Signal(int, str, str)   # job id, message, details
 
     def __init__(self, func, *args):
         super().__init__()
         self._func, self._args = func, args
+        self.job_id = next_job_id()
 
     def run(self) -> None:
         try:
-            self.finished.emit(self._func(*self._args))
+            value = self._func(*self._args)
+            self.result.emit(self.job_id, value)
+            self.finished.emit(value)
         except Exception as exc:  # noqa: BLE001  (every failure reaches the window as a message)
-            self.failed.emit(*failure_message(exc))
+            msg, details = failure_message(exc)
+            self.jobFailed.emit(self.job_id, msg, details)
+            self.failed.emit(msg, details)
 
 
 class TrajectoryWorker(QObject):
@@ -312,7 +333,7 @@ class TrajectoryWorker(QObject):
         from app.state.trajectory import scan_steps
         t0 = time.perf_counter()
         try:
-            self.phase.emit(f"Scanning {self._label}")
+            self.phase.emit(f"Computing {self._label}")
             scan, steps = scan_steps(self._loaded, self._request, self._store, self._frames)
             while True:
                 if self._cancel.is_set():

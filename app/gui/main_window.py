@@ -6,7 +6,16 @@ from pathlib import Path
 
 from PySide6.QtCore import Qt, Signal
 from PySide6.QtGui import QAction, QKeySequence
-from PySide6.QtWidgets import QDockWidget, QFileDialog, QLabel, QMainWindow, QProgressBar, QPushButton, QToolBar
+from PySide6.QtWidgets import (
+    QDockWidget,
+    QFileDialog,
+    QFrame,
+    QLabel,
+    QMainWindow,
+    QProgressBar,
+    QPushButton,
+    QToolBar,
+)
 
 import resources
 from app.gui import exports, screen_fit
@@ -42,12 +51,21 @@ from energy.units import ENERGY_UNITS
 
 
 def _group_energy(snapshots, a: str, b: str):
-    """A-vs-B interaction of each snapshot (run in a background job)."""
+    """The group interaction (A vs B) of each snapshot (run in a background job)."""
     return [selection_interaction(s.system, s.frame, s.result.settings, a, b) for s in snapshots]
 
 
 #: Suffixes of result files (opened without recomputation; docs/result-file.md).
 RESULT_SUFFIXES = (".h5", ".hdf5")
+
+
+def status_separator() -> QFrame:
+    """A thin vertical line between two items of the status bar."""
+    line = QFrame()
+    line.setObjectName("statusSeparator")
+    line.setFrameShape(QFrame.Shape.VLine)
+    line.setFrameShadow(QFrame.Shadow.Sunken)
+    return line
 
 
 class MainWindow(QMainWindow):
@@ -69,6 +87,8 @@ class MainWindow(QMainWindow):
         self.snapshot = None      # the (first) structure
         self.second = None        # compare mode: the second structure
         self.dataset = None
+        self.view_id = 0          # counts the datasets shown; a side result of an older one is stale
+        self._groups_job = None   # (job id, view id) of the newest group-energy job
         self.last_compute_s = None
         self.comparison = None    # compare mode: energy.analysis.compare.Comparison of the two
         self.stored = None        # a result file on screen (energy.output.result_file.StoredResult)
@@ -153,6 +173,9 @@ class MainWindow(QMainWindow):
         for w in (self.phase_label, self.progress, self.cancel_button):
             w.setVisible(False)
         sb.addWidget(self.size_label)
+        self.status_separator = status_separator()
+        self.status_separator.setVisible(False)      # shown with the computation time
+        sb.addWidget(self.status_separator)
         sb.addWidget(self.time_label)
         sb.addPermanentWidget(self.phase_label)
         sb.addPermanentWidget(self.progress)
@@ -186,7 +209,8 @@ class MainWindow(QMainWindow):
         f.insertAction(self.act_compare, f.addSeparator())
         ex = f.addMenu("&Export")
         self.export_actions = [
-            self._action("Map image (PNG or SVG)…", lambda: self._export_dialog("map"), "Ctrl+E"),
+            self._action("Map image (PNG or SVG)…", lambda: self._export_dialog("map"), "Ctrl+E",
+                         "Export the map as an image (PNG or SVG)"),
             self._action("Pair ledger (CSV)…", lambda: self._export_dialog("pairs")),
             self._action("Full matrix (CSV)…", lambda: self._export_dialog("matrix")),
             self._action("Report (PDF)…", lambda: self._export_dialog("report"), "Ctrl+Shift+E"),
@@ -212,11 +236,15 @@ class MainWindow(QMainWindow):
         c = mb.addMenu("&Compute")
         self.act_recompute = self._action("&Recompute", self.recompute, "F5")
         self.act_cancel = self._action("&Cancel computation", self.cancel, "Esc")
-        self.act_groups = self._action("Interface energy of groups A and B", self.roster._request, "Ctrl+I")
+        self.act_groups = self._action("Group interaction of A and B", self.roster._request, "Ctrl+I")
         for a in (self.act_recompute, self.act_cancel, self.act_groups):
             c.addAction(a)
         tb = self.addToolBar("Main"); tb.setObjectName("toolbar_main")
         tb.setMovable(False)
+        # the toolbar shows an action's icon text: whole phrases, not a menu entry cut short
+        self.act_open.setIconText("Open structure")
+        self.act_compare.setIconText("Compare with a second structure")
+        self.export_actions[0].setIconText("Export map image")
         for a in (self.act_open, self.act_compare, self.act_recompute, self.act_cancel, self.export_actions[0]):
             tb.addAction(a)
         self._fill_recent()
@@ -495,7 +523,7 @@ class MainWindow(QMainWindow):
         self.unit = unit
         self.app_settings.unit = unit
         factor = ENERGY_UNITS[unit]
-        for view in (self.map, self.profile, self.bars, self.ledger.model, self.atoms, self.roster.model,
+        for view in (self.map, self.profile, self.bars, self.ledger, self.atoms, self.roster,
                      self.clash_panel, self.model_panel, self.time_series, self.hotspot_panel):
             view.set_unit(factor, unit)
         self._update_groups_label()
@@ -539,14 +567,16 @@ class MainWindow(QMainWindow):
         self.dataset = ds
         self.selection.set_row_of_residue(*((ds.row_of_residue, ds.residue_of_row) if ds.blocks is not None
                                             else (None, None)))
+        self.view_id += 1               # results of side jobs started before this are stale
         self.map.set_dataset(ds, keep_view=keep_view)
         self.ledger.set_dataset(ds, keep_sort=keep_view)
         self.roster.set_dataset(ds)
-        self.bars.set_values("system", ds.totals, "change, second minus first" if ds.is_difference else "")
+        self.bars.set_values("system", ds.totals, "second minus first" if ds.is_difference else "")
         self.bars.set_values("groups", None)
         self.size_label.setText(size)
         self.time_label.setText(f"last computation {self.last_compute_s:.2f} s"
                                 if self.last_compute_s is not None else "")
+        self.status_separator.setVisible(bool(self.time_label.text()))
         self.setWindowTitle(f"Tessera — {ds.title}")
         chains = sorted(set(ds.chains) - {SOLVENT_CHAIN})
         if len(chains) >= 2 and not self.roster.group_a.text() and not self.roster.group_b.text():
@@ -690,12 +720,21 @@ class MainWindow(QMainWindow):
         self.selection.set_groups(a, b)
         snaps = [s for s in (self.snapshot, self.second) if s is not None]
         worker = CallWorker(_group_energy, snaps, a, b)
-        worker.finished.connect(self._on_groups)
-        worker.failed.connect(self._on_groups_failed)
+        # the result counts only while this job is the newest group request and the structure
+        # it was computed for is still on screen (self.view_id changes with every dataset shown)
+        self._groups_job = (worker.job_id, self.view_id)
+        worker.result.connect(self._on_groups)
+        worker.jobFailed.connect(self._on_groups_failed)
         if self.start_side(worker) is not None:
             self.roster.show_group_result("computing…")
 
-    def _on_groups_failed(self, msg, _details) -> None:
+    def _groups_current(self, job_id: int) -> bool:
+        """Whether group job ``job_id`` is the newest one and its structure still on screen."""
+        return self._groups_job == (job_id, self.view_id)
+
+    def _on_groups_failed(self, job_id, msg, _details) -> None:
+        if not self._groups_current(job_id):
+            return                      # a stale job's failure: the screen has moved on
         self.roster.show_group_result(f"<span style='color:#b2182b'>{msg}</span>")
 
     def start_side(self, worker, on_done=None) -> WorkerHandle | None:
@@ -704,7 +743,9 @@ class MainWindow(QMainWindow):
         none after that (returns None)."""
         return self.jobs.start_side(worker, on_done)
 
-    def _on_groups(self, results) -> None:
+    def _on_groups(self, job_id, results) -> None:
+        if not self._groups_current(job_id):
+            return                      # stale: computed for what was on screen before
         self._group_results = results
         self._update_groups_label()
         r = results[-1] if len(results) == 1 else {

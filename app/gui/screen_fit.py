@@ -217,7 +217,7 @@ def size_docks(window: QMainWindow, docks: dict[str, QDockWidget], arrangement: 
     """Share the window's room out between the map and the docks of ``arrangement``.
 
     The map gets :func:`map_width`, the left column (wide) :data:`LEFT_COLUMN`, the atom
-    contributions and the distance profile share the rest.  The bottom docks: the ledger gets a
+    contributions (60 %) and the distance profile share the rest.  The bottom docks: the ledger gets a
     little more than half the width (its energy columns must show), the term bars the rest.
     """
     d = docks
@@ -227,8 +227,9 @@ def size_docks(window: QMainWindow, docks: dict[str, QDockWidget], arrangement: 
     right = max(DOCK_MIN_WIDTH["atoms"] + DOCK_MIN_WIDTH["profile"], size.width() - map_width(size) - left)
     if left:
         window.resizeDocks([d["roster"]], [left], H)
-    window.resizeDocks([d["atoms"], d["profile"]], [right // 2, right - right // 2], H)
-    ledger = int(size.width() * (0.5 if size.width() >= 1600 else 0.58))
+    atoms = int(right * 0.6)       # the atom table's energy columns need more than half
+    window.resizeDocks([d["atoms"], d["profile"]], [atoms, right - atoms], H)
+    ledger = int(size.width() * (0.5 if size.width() >= 1600 else 0.56))
     window.resizeDocks([d["ledger"]], [bottom], V)
     window.resizeDocks([d["ledger"], d["bars"]], [ledger, size.width() - ledger], H)
 

@@ -32,6 +32,7 @@ from energy._kernels.pair_key import ordered_pair_keys, pair_keys
 from energy.analysis.vdw_radii import bondi_radius
 from energy.errors import SettingsError
 from energy.io.validation import check_frame
+from energy.model.cell import check_cell
 from energy.model.settings import EXP6_ALPHA_MATCHING_LJ
 from energy.model.system import Frame, MolecularSystem
 from energy.model.virtual_sites import placed_frame
@@ -63,7 +64,8 @@ class ClashOptions:
     radii: "bondi" (Bondi 1964 radii by element) or "forcefield" (Rmin_ij of the pair).
     include_hydrogens: search hydrogens too (default: heavy atoms only).
     include_14: let 1-4 pairs count (default: they never do, like 1-2 and 1-3 pairs).
-    periodic: minimum image in the frame's orthorhombic unit cell (default off).
+    periodic: minimum image in the frame's orthorhombic unit cell (default off here; the
+        ``tessera overlaps`` command and the window decide it by :func:`periodic_search`).
     hbond: hydrogen-bonding pairs (donor-acceptor, polar H-acceptor) get the shorter H-bond
         contact distance (default on; see :func:`hbond_roles`).
     exp6_alpha: steepness of the exp-6 form whose energy is reported beside the LJ energy of
@@ -370,6 +372,40 @@ def _lj_reach(rmin, eps, threshold: float) -> float:
 # ------------------------------------------------------------------------------------------------
 # the search
 # ------------------------------------------------------------------------------------------------
+
+def periodic_search(frame: Frame, n_atoms: int, use_periodic: bool = True) -> tuple[bool, str]:
+    """Whether a clash search of ``frame`` uses periodic images, by the cell rules every
+    computation follows (:func:`energy.model.cell.check_cell`), and the note to show.
+
+    The same default as the energies: images when the frame has a real periodic box and the
+    settings allow it (``use_periodic``, ``--no-periodic`` turns it off).  The clash search handles
+    orthorhombic cells only; a triclinic one is searched without images, with a note.
+
+    Parameters
+    ----------
+    frame : Frame
+        The frame searched (its ``box``).
+    n_atoms : int
+        Atoms of the system (the cell rules compare the volume per atom).
+    use_periodic : bool, optional
+        Whether the settings allow a periodic cell.
+
+    Returns
+    -------
+    tuple of (bool, str)
+        ``(periodic, note)``; ``note`` says why the file's cell is not used ("" when it is, or
+        when there is none or the settings turn cells off).
+    """
+    if not use_periodic:
+        return False, ""
+    cell = check_cell(frame.box, n_atoms)
+    if cell.box is None:
+        return False, cell.note
+    if not frame.is_orthorhombic:
+        return False, ("the unit cell is triclinic: the clash search used no periodic images "
+                       "(it handles orthorhombic cells only)")
+    return True, ""
+
 
 def _box_lengths(frame: Frame, reach: float) -> np.ndarray:
     if frame.box is None:

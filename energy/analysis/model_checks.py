@@ -10,7 +10,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from energy.analysis.clashes import ClashOptions, find_clashes
+from energy.analysis.clashes import ClashOptions, find_clashes, periodic_search
 from energy.decomposition.atom_pairs import residue_pair_atom_energies
 from energy.model.settings import EnergySettings
 
@@ -45,7 +45,8 @@ def clash_check(snapshot, options: ClashOptions | None = None) -> ClashCheck:
         One loaded system and its result: ``system`` (MolecularSystem), ``frame`` (Frame) and
         ``result`` (EnergyResult) attributes (the window's ``Snapshot``).
     options : ClashOptions or None, optional
-        Clash criteria (None: the defaults).
+        Clash criteria (None: the defaults); periodic images follow the snapshot's settings and
+        cell (:func:`energy.analysis.clashes.periodic_search`).
 
     Returns
     -------
@@ -53,7 +54,11 @@ def clash_check(snapshot, options: ClashOptions | None = None) -> ClashCheck:
         The :class:`~energy.analysis.clashes.ClashReport`, its residue pairs (worst first), the
         (n_residues,) int64 clash count per residue, and the frame index.
     """
-    rep = find_clashes(snapshot.system, snapshot.frame, options or ClashOptions())
+    options = options or ClashOptions()
+    settings = getattr(snapshot.result, "settings", None)
+    periodic, _note = periodic_search(snapshot.frame, snapshot.system.n_atoms,
+                                      True if settings is None else settings.use_periodic)
+    rep = find_clashes(snapshot.system, snapshot.frame, replace(options, periodic=periodic))
     return ClashCheck(rep, rep.residue_pairs(snapshot.system), rep.residue_counts(snapshot.system),
                       int(snapshot.frame.index))
 

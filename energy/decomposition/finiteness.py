@@ -16,7 +16,7 @@ from energy.terms.registry import TERMS
 
 
 def _atoms_text(system, atoms) -> str:
-    return ", ".join(f"{int(a) + 1} ({system.residues.label(system.resindex[a])} {system.names[a]})"
+    return ", ".join(f"{int(a) + 1} ({system.atom_label(int(a))})"
                      for a in atoms)
 
 

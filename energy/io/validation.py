@@ -93,7 +93,7 @@ def check_cell(box, where: str = "") -> None:
 def _atom_label(system, i: int) -> str:
     if system is None:
         return f"atom {i + 1}"
-    return f"atom {i + 1} ({system.residues.label(system.resindex[i])} {system.names[i]})"
+    return f"atom {i + 1} ({system.atom_label(i)})"
 
 
 def check_positions(positions, system=None, where: str = "") -> None:

@@ -247,6 +247,21 @@ class MolecularSystem:
             return getattr(self, attr)
         return self.other_tables.get(attr)
 
+    def atom_label(self, i: int) -> str:
+        """``A:ALA25 CB``: the one label format of an atom (residue label, a space, atom name).
+
+        Parameters
+        ----------
+        i : int
+            Atom index (0-based).
+
+        Returns
+        -------
+        str
+            Chain (omitted when blank), residue name, number and insertion code, then the atom name.
+        """
+        return f"{self.residues.label(int(self.resindex[i]))} {self.names[i]}"
+
     @property
     def n_atoms(self) -> int:
         return len(self.names)

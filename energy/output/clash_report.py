@@ -13,6 +13,7 @@ import numpy as np
 from energy.analysis.clashes import ClashOptions, ClashReport
 from energy.analysis.vdw_radii import BONDI_SOURCE
 from energy.model.system import MolecularSystem
+from energy.output.header import document_header
 
 
 def atom_label(system: MolecularSystem, i: int) -> str:
@@ -30,7 +31,7 @@ def atom_label(system: MolecularSystem, i: int) -> str:
     str
         Residue label and atom name.
     """
-    return f"{system.residues.label(int(system.resindex[i]))} {system.names[i]}"
+    return system.atom_label(i)
 
 
 def radii_description(options: ClashOptions) -> str:
@@ -93,20 +94,20 @@ def clash_document(system: MolecularSystem, report: ClashReport, source: dict | 
     report : ClashReport
         The clash finder's result.
     source : dict or None, optional
-        Description of the inputs (paths, frame, force field), stored under ``source``.
+        Description of the inputs (``structure``, ``coordinates``, ``parameters``, ``frame``,
+        ``force_field``), stored under ``inputs``.
 
     Returns
     -------
     dict
-        ``kind`` ``"tessera-clashes"``, ``units``, ``options``, ``radii``, ``notes``, search counts,
+        The header (:func:`energy.output.header.document_header`: ``kind`` ``"overlaps"``,
+        ``inputs``, ``settings`` = the clash options), ``units``, ``radii``, ``notes``, search counts,
         ``clashes`` (:func:`clash_rows`), ``residue_counts`` and ``residue_pairs``.
     """
     counts = report.residue_counts(system)
     return {
-        "kind": "tessera-clashes",
+        **document_header("overlaps", source or {}, report.options.as_dict()),
         "units": {"distance": "angstrom", "energy": "kcal/mol"},
-        "source": source or {},
-        "options": report.options.as_dict(),
         "radii": radii_description(report.options),
         "notes": list(report.notes),
         "n_atoms_searched": report.n_atoms_searched,
@@ -175,12 +176,12 @@ def clash_table(system: MolecularSystem, report: ClashReport, top: int = 20) -> 
     Returns
     -------
     str
-        The text table (distances in A, energies in kcal/mol), lines joined by newlines.
+        The text table (distances in Å, energies in kcal/mol; the window's symbols ≥, Å, α), lines joined by newlines.
     """
     o = report.options
     crit = []
     if o.overlap is not None:
-        crit.append(f"overlap >= {o.overlap:g} A")
+        crit.append(f"overlap ≥ {o.overlap:g} Å")
     if o.lj_above is not None:
         crit.append(f"LJ > {o.lj_above:g} kcal/mol")
     scope = "all atoms" if o.include_hydrogens else "heavy atoms"
@@ -189,7 +190,7 @@ def clash_table(system: MolecularSystem, report: ClashReport, top: int = 20) -> 
              f"{'included' if o.include_14 else 'excluded'}"
              f"{'; periodic' if o.periodic else ''}"
              f"{'; H-bond pairs at H-bond contact' if o.hbond else '; no H-bond allowance'}"
-             f"; exp-6 column: alpha = {o.exp6_alpha:.3f}"]
+             f"; exp-6 column: α = {o.exp6_alpha:.3f}"]
     lines += [f"note: {n}" for n in report.notes]
     if not len(report):
         return "\n".join(lines)
@@ -198,7 +199,7 @@ def clash_table(system: MolecularSystem, report: ClashReport, top: int = 20) -> 
     wi = max(len("atom i"), *(len(r["label_i"]) for r in shown))
     wj = max(len("atom j"), *(len(r["label_j"]) for r in shown))
     lines.append("")
-    lines.append(f"{'rank':>4}  {'atom i':<{wi}}  {'atom j':<{wj}}  {'r (A)':>6}  {'contact':>7}  "
+    lines.append(f"{'rank':>4}  {'atom i':<{wi}}  {'atom j':<{wj}}  {'r (Å)':>6}  {'contact':>7}  "
                  f"{'overlap':>7}  {'LJ (kcal/mol)':>13}  {'exp-6':>12}")
     for r in shown:
         lines.append(f"{r['rank']:>4}  {r['label_i']:<{wi}}  {r['label_j']:<{wj}}  {r['distance']:6.2f}  "

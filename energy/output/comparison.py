@@ -9,6 +9,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from energy.output.header import document_header
 from energy.terms.registry import TERMS
 
 if TYPE_CHECKING:
@@ -123,11 +124,9 @@ def comparison_document(comparison: Comparison, inputs: dict, settings) -> dict:
         ``totals`` (first, second, change) and ``pairs`` (:func:`difference_rows`).
     """
     return {
-        "program": "tessera",
-        "kind": "comparison (second minus first)",
+        **document_header("comparison", inputs, settings.as_dict()),
+        "difference": "second minus first",
         "units": {"energy": "kcal/mol", "distance": "angstrom"},
-        "inputs": inputs,
-        "settings": settings.as_dict(),
         "n_matched_residues": len(comparison.match),
         "mutated_residues": comparison.mutated_labels,
         "unmatched_first": comparison.unmatched_first_labels,

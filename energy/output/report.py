@@ -15,6 +15,7 @@ import numpy as np
 from energy.errors import NonFiniteEnergyError
 from energy.output.blocked import blocked_pair_csv
 from energy.output.files import atomic_open, atomic_write_text
+from energy.output.header import document_header
 from energy.terms.registry import TERMS, TermNames
 
 UNITS = {"energy": "kcal/mol", "distance": "angstrom"}
@@ -180,7 +181,7 @@ def scan_document(loaded, result, selection=None, extra_timings=None) -> dict:
     result : EnergyResult
         Its evaluation.
     selection : dict or None, optional
-        The A-vs-B interaction (:func:`energy.decomposition.atom_pairs.selection_interaction`).
+        The group interaction (group A vs group B) (:func:`energy.decomposition.atom_pairs.selection_interaction`).
     extra_timings : dict or None, optional
         More wall times to record, s.
 
@@ -188,7 +189,9 @@ def scan_document(loaded, result, selection=None, extra_timings=None) -> dict:
     -------
     dict
         ``units`` (kcal/mol, angstrom), inputs, settings, ``totals`` (kcal/mol), ``residues``,
-        ``pairs`` (placeholder), ``timings`` (s), ``selection`` when given.
+        ``pairs`` (placeholder), ``timings`` (s), ``group_interaction`` when given
+        (called ``selection`` in earlier documents; :func:`energy.output.header.group_interaction`
+        reads either).
     """
     system = loaded.system
     timings = {"read": loaded.timings.get("read", 0.0),
@@ -197,15 +200,15 @@ def scan_document(loaded, result, selection=None, extra_timings=None) -> dict:
     timings.update({f"compute_{k}": v for k, v in result.timings.items() if k != "compute"})
     timings.update(extra_timings or {})
     doc = {
-        "program": "tessera",
+        **document_header(
+            "scan",
+            {"structure": loaded.structure_path, "coordinates": loaded.coords_path or None,
+             "parameters": list(loaded.param_paths), "frame": loaded.frame.index},
+            {**result.settings.as_dict(), "periodic": result.periodic, "cell_note": result.cell_note or None}),
         "units": UNITS,
-        "inputs": {"structure": loaded.structure_path, "coordinates": loaded.coords_path or None,
-                   "parameters": list(loaded.param_paths), "frame": loaded.frame.index},
         "force_field": system.force_field,
         "n_atoms": system.n_atoms,
         "n_residues": system.n_residues,
-        "settings": {**result.settings.as_dict(), "periodic": result.periodic,
-                     "cell_note": result.cell_note or None},
         "totals": {k: float(result.totals[k]) for k in (*TERMS, "total")},
         "n_atom_pairs_within_cutoff": result.n_atom_pairs,
         "unlisted_pairs": result.unlisted,
@@ -215,7 +218,7 @@ def scan_document(loaded, result, selection=None, extra_timings=None) -> dict:
         "timings": timings,
     }
     if selection is not None:
-        doc["selection"] = selection
+        doc["group_interaction"] = selection
     return doc
 
 
@@ -412,7 +415,8 @@ def summary_text(loaded, result, top: int = 8, selection=None, blocked=None) -> 
     top : int, optional
         Residue pairs listed in each direction (default 8).
     selection : dict or None, optional
-        The A-vs-B interaction to report (:func:`energy.decomposition.atom_pairs.selection_interaction`).
+        The group interaction (group A vs group B) to report
+        (:func:`energy.decomposition.atom_pairs.selection_interaction`).
     blocked : BlockedPairs or None, optional
         Solvent as blocks (:func:`energy.decomposition.blocks.block_residue_pairs`): pairs are
         listed over solute residues and blocks.
@@ -456,7 +460,7 @@ def summary_text(loaded, result, top: int = 8, selection=None, blocked=None) -> 
                 break
             lines.append(f"  {label(rp.pair_i[k]):>14} - {label(rp.pair_j[k]):<14}{total[k]:>14.3f}")
     if selection is not None:
-        lines += ["", f"interaction {selection['a']!r} vs {selection['b']!r}: "
+        lines += ["", f"group interaction {selection['a']!r} vs {selection['b']!r}: "
                   f"Coulomb {selection['coulomb']:.4f}, LJ {selection['lj']:.4f}, "
                   f"total {selection['total']:.4f} kcal/mol ({selection['n_pairs']} atom pairs)"]
     if result.unlisted:

@@ -27,13 +27,14 @@ from energy.errors import EnergyError
 from energy.model.residue_classes import residue_classes
 from energy.model.settings import EnergySettings
 from energy.model.system import ResidueTable
+from energy.output import header
 from energy.output.files import temporary_path
 from energy.terms.registry import COLUMNS, TERMS
 
 FORMAT = "tessera-result"
 #: Version of the layout this module writes; a file with a larger one is refused.
 SCHEMA_VERSION = 1
-PROGRAM_VERSION = "0.1.0"
+PROGRAM_VERSION = header.PROGRAM_VERSION
 #: Rows per HDF5 chunk of a pair column (1 MiB of float64).
 CHUNK_ROWS = 131_072
 _COMPRESSION = {"compression": "gzip", "compression_opts": 1, "shuffle": True}
@@ -174,7 +175,7 @@ def _column(group, name: str, values, dtype=None) -> None:
 
 def _write_header(fh, kind: str, inputs, settings: EnergySettings | None) -> None:
     fh.attrs.update({"format": FORMAT, "schema_version": SCHEMA_VERSION, "kind": kind,
-                     "program": "tessera", "version": PROGRAM_VERSION})
+                     "program": header.PROGRAM, "version": PROGRAM_VERSION})
     g = fh.create_group("inputs")
     for k, rec in enumerate(inputs):
         r = g.create_group(f"{k:03d}")

@@ -11,11 +11,12 @@ import os
 import numpy as np
 
 from energy.analysis.trajectory import COLUMNS, SELECTION_COLUMNS, TrajectoryRequest
+from energy.output.header import document_header
 from energy.output.report import UNITS, residue_records
 
 FRAMES_CSV = "frames.csv"
 PAIR_FRAMES_CSV = "pair_frames.csv"
-SELECTION_CSV = "selection_frames.csv"
+SELECTION_CSV = "group_interaction_frames.csv"
 STATS_CSV = "residue_pairs_stats.csv"
 
 
@@ -157,7 +158,7 @@ def trajectory_document(result, scan, execution: dict, interrupted: bool, timing
     dict
         JSON-ready: ``units`` (kcal/mol, angstrom), inputs, settings, per-frame totals and their
         mean and std (kcal/mol), ``pairs`` (statistics of every kept residue pair), ``pair_series``
-        of the requested pairs, ``selection`` (when selections were given) and ``timings``.
+        of the requested pairs, ``group_interaction`` (when groups were given) and ``timings``.
     """
     system, st, req = result.system, result.stats, result.request
     finite = lambda x: float(x) if math.isfinite(float(x)) else None  # noqa: E731
@@ -179,16 +180,15 @@ def trajectory_document(result, scan, execution: dict, interrupted: bool, timing
                        **{c: [float(v) for v in s[c]] for c in COLUMNS},
                        "min_heavy_distance": [finite(v) for v in s["min_heavy_distance"]]})
     doc = {
-        "program": "tessera",
-        "kind": "trajectory",
+        **document_header(
+            "trajectory",
+            {"structure": req.structure, "coordinates": req.trajectory_path, "parameters": list(req.params),
+             "frames": scan.frames_spec, "n_frames_in_file": scan.n_frames_file},
+            {**req.settings.as_dict(), "cell_note": "; ".join(result.cell_notes()) or None}),
         "units": UNITS,
-        "inputs": {"structure": req.structure, "coordinates": req.trajectory_path,
-                   "parameters": list(req.params), "frames": scan.frames_spec,
-                   "n_frames_in_file": scan.n_frames_file},
         "force_field": system.force_field,
         "n_atoms": system.n_atoms,
         "n_residues": system.n_residues,
-        "settings": {**req.settings.as_dict(), "cell_note": "; ".join(result.cell_notes()) or None},
         "preparation": _preparation(scan),
         "execution": execution,
         "complete": result.complete,
@@ -206,7 +206,7 @@ def trajectory_document(result, scan, execution: dict, interrupted: bool, timing
     }
     sel = result.selection_series()
     if sel is not None:
-        doc["selection"] = {"a": req.select_a, "b": req.select_b,
+        doc["group_interaction"] = {"a": req.select_a, "b": req.select_b,
                             **{c: [float(v) if c in ("coulomb", "lj", "total") else int(v)
                                    for v in sel[c]] for c in SELECTION_COLUMNS}}
     return doc
@@ -223,7 +223,7 @@ def summary_text(result, top: int = 8) -> str:
     """Text summary of a trajectory run.
 
     Per-term mean and std over the frames, the most persistent residue pairs, the requested pairs
-    and the selection interaction.
+    and the group interaction.
 
     Parameters
     ----------
@@ -270,6 +270,6 @@ def summary_text(result, top: int = 8) -> str:
                          f"{np.std(s['total']):.3f} kcal/mol")
     sel = result.selection_series()
     if sel is not None and len(sel["total"]):
-        lines.append(f"interaction {req.select_a!r} vs {req.select_b!r}: "
+        lines.append(f"group interaction {req.select_a!r} vs {req.select_b!r}: "
                      f"{np.mean(sel['total']):.4f} +- {np.std(sel['total']):.4f} kcal/mol")
     return "\n".join(lines)

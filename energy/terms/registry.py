@@ -95,8 +95,8 @@ _BUILTIN = (
          (_builtin_table("impropers", _plain(bonded.harmonic_improper_energies)),
           _builtin_table("periodic_impropers", _plain(bonded.periodic_torsion_energies)))),
     Term("cmap", "CMAP", "CMAP", True, (_builtin_table("cmap", _cmap_energies),)),
-    Term("coulomb", "Coul", "Coulomb", False),
-    Term("lj", "LJ", "Lennard-Jones", False),
+    Term("coulomb", "Coulomb", "Coulomb", False),
+    Term("lj", "LJ", "Lennard-Jones 12-6", False),
     # Implicit solvent (energy.terms.solvation): zero unless EnergySettings.implicit_solvent is set.
     Term("solvation_polar", "GB", "Polar solvation (generalized Born)", False),
     Term("solvation_nonpolar", "SA", "Nonpolar solvation (ACE)", False),

@@ -2,7 +2,7 @@
 
 Sample files (provenance in samples/make_scenario.py, invented demo data):
   SCENARIO_CLASH  samples/scenario/complex_clash.pdb  binder (chain B) on a helix bundle (chain A)
-                  with a planted Trp clash; built-in Amber14 force field, hydrogens present.
+                  with a planted Trp clash; built-in Amber 14 force field, hydrogens present.
   SCENARIO_FIXED  samples/scenario/complex_fixed.pdb  the same atoms with the clash removed.
 """
 import os

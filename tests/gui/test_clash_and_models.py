@@ -39,7 +39,7 @@ def test_clash_panel_lists_the_engine_report_and_rings_the_map(checked):
     model = w.clash_panel.model
     assert model.rowCount() == len(expected) > 0
     np.testing.assert_array_equal(model.column_values("Overlap"), expected.overlap)
-    np.testing.assert_array_equal(model.column_values("Exp-6"), expected.exp6)
+    np.testing.assert_array_equal(model.column_values("exp-6"), expected.exp6)
     assert residue_labels(snap.system, expected.pairs[0]) == set(META["clash"])
     assert f"{len(expected)} clash(es)" in w.clash_panel.summary.text()
     # per-residue counts: both clash residues, highest first
@@ -141,8 +141,8 @@ def test_severity_table_lj_vs_exp6(checked):
     n = min(10, len(rep))
     assert m.rowCount() == n
     np.testing.assert_array_equal(m.column_values("LJ 12-6"), rep.lj[:n])
-    np.testing.assert_array_equal(m.column_values("Exp-6"), rep.exp6[:n])
-    assert np.all(m.column_values("Exp-6") < m.column_values("LJ 12-6"))   # the softer wall
+    np.testing.assert_array_equal(m.column_values("exp-6"), rep.exp6[:n])
+    assert np.all(m.column_values("exp-6") < m.column_values("LJ 12-6"))   # the softer wall
     w.model_panel.severity.selectRow(0)
     assert w.selection.atom_pair == tuple(int(v) for v in rep.pairs[0])
 

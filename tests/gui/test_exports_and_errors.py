@@ -48,6 +48,12 @@ def test_every_export_is_a_valid_file(opened, tmp_path):
     for a in (0, s.n_atoms // 2, s.n_atoms - 1):
         expect = min(max(per[s.resindex[a]], -999.99), 9999.99)
         assert float(atoms[a][60:66]) == pytest.approx(expect, abs=0.006)
+    # REMARK 1 is the PDB format's reference remark; ours is a number the format leaves free
+    # (wwPDB PDB format 2.3 index, "REMARKs 5-99"), and the file still reads as a PDB (MDAnalysis)
+    remarks = [l for l in (tmp_path / "energies.pdb").read_text().splitlines() if l.startswith("REMARK")]
+    assert remarks and all(5 <= int(l[6:10]) <= 99 for l in remarks), remarks
+    import MDAnalysis as mda
+    assert mda.Universe(str(tmp_path / "energies.pdb")).atoms.n_atoms == s.n_atoms
     assert not [p for p in tmp_path.iterdir() if p.name.startswith(".tessera-")]
 
 
@@ -111,7 +117,8 @@ def test_compare_mode_shows_second_minus_first(qtbot, opened):
     np.testing.assert_allclose(opened.map.matrix, ds.pairs.dense("total"))
     # the ledger lists the largest change first
     model = opened.ledger.model
-    size = [model.data(model.index(r, 5), 0x0101) for r in range(min(20, model.rowCount()))]
+    column = model.column_of("|Change|")
+    size = [model.data(model.index(r, column), 0x0101) for r in range(min(20, model.rowCount()))]
     assert size == sorted(size, reverse=True)
     assert "matched" in opened.size_label.text()
     opened.leave_compare()
@@ -130,7 +137,7 @@ def test_interface_energy_of_groups(qtbot, opened):
     b = select_atoms(snap.system, snap.frame, "segid B")
     ref = interaction_energy(snap.system, snap.frame, snap.result.settings, a, b)
     assert got["total"] == pytest.approx(ref["total"])
-    assert "A vs B" in opened.roster.result.text()
+    assert "Group interaction" in opened.roster.result.text()
 
 
 def test_recent_files_and_layout_persist(qtbot, opened):

@@ -49,5 +49,6 @@ def test_registered_term_in_show_list_term_bars_and_atom_table(qtbot):
         assert len(toy_rows) == 1 and abs(toy_rows[0]["energy"] - expected) < 1e-9
         table = AtomTableModel()
         table.set_contributions(system, contrib)
-        kinds = {table.data(table.index(r, 0)) for r in range(table.rowCount())}
+        kind = table.column_of("Kind")
+        kinds = {table.data(table.index(r, kind)) for r in range(table.rowCount())}
         assert "Distance restraint" in kinds

@@ -57,7 +57,7 @@ def test_trajectory_scan_frames_mean_and_time_series(qtbot, window):
     assert w.frame_bar.n_frames == n and w.frame_bar.slider.maximum() == n - 1
     result = w.trajectory.state.result
     assert result.complete and result.frames == list(range(n))
-    assert f"{n} of {n} frame(s) scanned" in w.frame_bar.status.text()
+    assert f"{n} of {n} frame(s) computed" in w.frame_bar.status.text()
     assert w.frame_bar.mean.isEnabled()
 
     # the time series of the clash pair, against the engine frame by frame

@@ -132,7 +132,11 @@ def test_units_rescale_every_view(opened):
     kcal = opened.map.matrix.copy()
     opened.settings_panel.unit.setCurrentIndex(opened.settings_panel.unit.findData("kJ/mol"))
     np.testing.assert_allclose(opened.map.matrix, kcal * 4.184)
-    assert "kJ/mol" in opened.ledger.model.headerData(6, Qt.Orientation.Horizontal)
+    assert "kJ/mol" in opened.ledger.count.text()          # the ledger names its unit once
+    total = opened.ledger.model.column_of("Total")
+    shown = float(opened.ledger.model.data(opened.ledger.model.index(0, total)).replace(",", ""))
+    assert shown == pytest.approx(opened.ledger.model.column_values("Total")[opened.ledger.model.record(0)]
+                                  * 4.184, abs=0.06)
     assert opened.app_settings.unit == "kJ/mol"
 
 

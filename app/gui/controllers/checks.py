@@ -25,6 +25,7 @@ class ChecksController(QObject):
         self._clash_job = None
         self._clash_pending = False
         self._elec_job = None
+        self._elec_request = None        # (job id, window view id) of the newest comparison
         clash_view.optionsChanged.connect(lambda _o: self.run_clash_check())
         clash_view.overlayToggled.connect(window.map.set_show_clashes)
         model_view.compareRequested.connect(self.compare_electrostatics)
@@ -73,17 +74,27 @@ class ChecksController(QObject):
             return
         self.model_view.set_busy(True)
         worker = CallWorker(electrostatics_comparison, snap, self.window.energy_settings)
-        worker.finished.connect(self._on_elec)
-        worker.failed.connect(self._on_elec_failed)
+        self._elec_request = (worker.job_id, self.window.view_id)
+        worker.result.connect(self._on_elec)
+        worker.jobFailed.connect(self._on_elec_failed)
         self._elec_job = self.window.start_side(worker, self._elec_thread_done)
 
     def _elec_thread_done(self) -> None:
         self._elec_job = None
         self.model_view.compare_button.setEnabled(True)
 
-    def _on_elec(self, comparison) -> None:
+    def _elec_current(self, job_id: int) -> bool:
+        return self._elec_request == (job_id, self.window.view_id)
+
+    def _on_elec(self, job_id, comparison) -> None:
+        if not self._elec_current(job_id):     # computed for a structure no longer on screen
+            self.model_view.show_message("The structure on screen changed during the comparison: "
+                                         "press \"Compare electrostatics models\" again.")
+            return
         self.model_view.set_comparison(comparison)
         self.electrostaticsCompared.emit(comparison)
 
-    def _on_elec_failed(self, msg, _details) -> None:
+    def _on_elec_failed(self, job_id, msg, _details) -> None:
+        if not self._elec_current(job_id):
+            return
         self.model_view.show_message(f"<span style='color:#b2182b'>{msg}</span>")

@@ -85,7 +85,7 @@ class TrajectoryController(QObject):
     def _start_scan(self, snapshot) -> None:
         request = make_request(snapshot.spec, self.window.energy_settings)
         self.state = TrajectoryView(request, n_frames=0, store=PairSeriesStore(snapshot.system.n_residues))
-        self.bar.set_mean_available(False, "available when the trajectory scan has finished")
+        self.bar.set_mean_available(False, "available when every frame has been computed")
         self.bar.set_mode("frame")
         self.bar.set_status("reading the trajectory…")
         self.bar.set_scanning(True, 0, 0)
@@ -96,7 +96,7 @@ class TrajectoryController(QObject):
         worker.stopped.connect(self._on_scan_done)
         worker.failed.connect(self._on_scan_failed)
         self._scan = self.window.start_side(worker, self._scan_thread_done)
-        self.view.set_series(None, message="Scanning the trajectory; the time series of the selected "
+        self.view.set_series(None, message="Computing the frames; the time series of the selected "
                                            "pair appears when it is done.")
 
     def stop_scan(self) -> None:
@@ -119,7 +119,7 @@ class TrajectoryController(QObject):
             self.state.n_frames = total
             self.bar.set_range(total, self.window.snapshot.frame.index if self.window.snapshot else 0)
         self.bar.set_scanning(True, done, total)
-        self.bar.set_status(f"scanning frame {done}/{total}")
+        self.bar.set_status(f"computing frame {done}/{total}")
 
     def _on_scan_done(self, result) -> None:
         st = self.state
@@ -129,16 +129,16 @@ class TrajectoryController(QObject):
         if result.records:
             st.mean = mean_pairs(result.stats)
         n = len(result.records)
-        self.bar.set_mean_available(n > 0, f"mean over the {n} frame(s) scanned")
+        self.bar.set_mean_available(n > 0, f"mean over the {n} frame(s) computed")
         note = "" if result.complete else " (stopped early)"
         kept = "" if not st.store.overflow else "; per-frame pair series not kept (too large), " \
                                                 "time series computed per pair"
-        self.bar.set_status(f"{n} of {len(result.requested)} frame(s) scanned{note}{kept}")
+        self.bar.set_status(f"{n} of {len(result.requested)} frame(s) computed{note}{kept}")
         self.update_series()
         self.scanFinished.emit()
 
     def _on_scan_failed(self, msg, _details) -> None:
-        self.bar.set_status(f"<span style='color:#b2182b'>scan failed: {msg}</span>")
+        self.bar.set_status(f"<span style='color:#b2182b'>computing the frames failed: {msg}</span>")
         self.scanFinished.emit()
 
     def settings_changed(self) -> None:
@@ -201,7 +201,7 @@ class TrajectoryController(QObject):
     def _status_text(self, frame: int) -> str:
         st = self.state
         n = 0 if st is None or st.result is None else len(st.result.records)
-        return f"frame {frame} on screen; {n} frame(s) scanned, {len(self.cache)} cached"
+        return f"frame {frame} on screen; {n} frame(s) computed, {len(self.cache)} cached"
 
     def _on_mode(self, _mode: str) -> None:
         if self.window.snapshot is not None:

@@ -8,18 +8,20 @@ import traceback
 
 from PySide6.QtWidgets import QMessageBox
 
+from app.gui.wording import in_window_terms
 from energy.errors import one_line
 
 log = logging.getLogger(__name__)
 
 
 def show_error(parent, title: str, message: str, details: str = "") -> None:
-    """A modal warning with ``message`` as one capped line (:func:`energy.errors.one_line`) and
+    """A modal warning with ``message`` as one capped line (:func:`energy.errors.one_line`, the
+    ``tessera`` options it names replaced by the window's controls) and
     ``details`` (a traceback) under "Show Details..."."""
     box = QMessageBox(parent)
     box.setIcon(QMessageBox.Icon.Warning)
     box.setWindowTitle(title)
-    box.setText(one_line(message))
+    box.setText(one_line(in_window_terms(message)))
     if details:
         box.setDetailedText(details)
     box.setStandardButtons(QMessageBox.StandardButton.Ok)

@@ -69,7 +69,7 @@ class OpenStructureDialog(QDialog):
         self.setWindowTitle("Compare with a second structure" if compare else "Open a structure")
         self.folder = folder
         get_folder = lambda: self._folder()  # noqa: E731
-        self.mode_builtin = QRadioButton("Structure file alone (PDB / mmCIF), built-in Amber14 force field")
+        self.mode_builtin = QRadioButton("Structure file alone (PDB / mmCIF), built-in Amber 14 force field")
         self.mode_psf = QRadioButton("PSF topology + parameter files + coordinates")
         self.mode_setup = QRadioButton("Simulation setup: Amber .prmtop/.parm7, GROMACS .top or "
                                        "OpenMM System .xml + coordinates")

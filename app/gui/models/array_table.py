@@ -44,6 +44,8 @@ class Column:
     kind: str = "text"
     tooltip: str = ""
     sort_key: np.ndarray | None = None   # sort by this instead of ``values`` (e.g. residue index)
+    hidden: bool = False                 # hidden by default (the header's column menu shows it)
+    signed: bool = True                  # an energy coloured by its sign (False: a magnitude, neutral)
 
 
 class ArrayTableModel(QAbstractTableModel):
@@ -56,6 +58,9 @@ class ArrayTableModel(QAbstractTableModel):
         self._where = np.zeros(0, np.intp)         # record -> view row (-1 hidden)
         self._sort = (-1, Qt.SortOrder.AscendingOrder)
         self._factor, self._unit = 1.0, "kcal/mol"
+        #: False: energy and distance headers without their unit line (the panel's caption
+        #: names the units), so that narrow panels keep every energy column in view
+        self.units_in_header = True
 
     # -- content -------------------------------------------------------------------------
     def set_columns(self, columns: list[Column], n: int) -> None:
@@ -65,6 +70,11 @@ class ArrayTableModel(QAbstractTableModel):
         self._mask = None
         self._rebuild()
         self.endResetModel()
+
+    @property
+    def unit(self) -> str:
+        """The display unit of the energy columns."""
+        return self._unit
 
     def set_unit(self, factor: float, unit: str) -> None:
         self._factor, self._unit = float(factor), unit
@@ -78,6 +88,24 @@ class ArrayTableModel(QAbstractTableModel):
         self._mask = None if mask is None else np.asarray(mask, bool)
         self._rebuild()
         self.endResetModel()
+
+    def hidden_by_default(self, column: int) -> bool:
+        """Whether column ``column`` starts hidden (shown again from the header's column menu)."""
+        return 0 <= column < len(self._columns) and self._columns[column].hidden
+
+    def column_title(self, column: int) -> str:
+        """The column's title without its unit line."""
+        return self._columns[column].title
+
+    def leading_columns(self) -> int:
+        """How many columns, from the first, must fit the table's width: up to the last energy
+        column (the columns after it are the less used ones and may scroll)."""
+        energy = [k for k, c in enumerate(self._columns) if c.kind == "energy"]
+        return energy[-1] + 1 if energy else len(self._columns)
+
+    def column_of(self, title: str) -> int:
+        """Index of the column titled ``title`` (-1 when there is none)."""
+        return next((k for k, c in enumerate(self._columns) if c.title == title), -1)
 
     def column_values(self, title: str) -> np.ndarray:
         for c in self._columns:
@@ -125,9 +153,9 @@ class ArrayTableModel(QAbstractTableModel):
             return None
         c = self._columns[section]
         if role == Qt.ItemDataRole.DisplayRole:
-            if c.kind == "energy":
+            if c.kind == "energy" and self.units_in_header:
                 return f"{c.title}\n({self._unit})"
-            if c.kind == "distance":
+            if c.kind == "distance" and self.units_in_header:
                 return f"{c.title}\n(Å)"
             return c.title
         if role == Qt.ItemDataRole.ToolTipRole:
@@ -144,6 +172,8 @@ class ArrayTableModel(QAbstractTableModel):
             if c.kind == "energy":
                 return format_energy(float(v) * self._factor)
             if c.kind == "distance":
+                if math.isnan(v):       # not defined here (a residue with itself, a bonded row)
+                    return ""
                 return "—" if not math.isfinite(v) else f"{v:.2f}"
             if c.kind == "number":
                 return f"{v:.3f}" if isinstance(v, float | np.floating) else str(v)
@@ -156,7 +186,7 @@ class ArrayTableModel(QAbstractTableModel):
             return int(rec)
         if role == Qt.ItemDataRole.TextAlignmentRole and c.kind != "text":
             return int(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter)
-        if role == Qt.ItemDataRole.ForegroundRole and c.kind == "energy":
+        if role == Qt.ItemDataRole.ForegroundRole and c.kind == "energy" and c.signed:
             if v > 1.0:
                 return QBrush(REPULSIVE)
             if v < -1.0:

@@ -8,7 +8,7 @@ import numpy as np
 from app.gui.models.array_table import ArrayTableModel, Column
 from energy.decomposition.atom_pairs import residue_pair_atom_energies
 from energy.decomposition.residue_pairs import bonded_terms_for_pair
-from energy.terms.registry import long_label
+from energy.terms.registry import long_label, short_label
 
 
 @dataclass(frozen=True)
@@ -34,6 +34,15 @@ def pair_contributions(snapshot, i: int, j: int) -> PairContributions:
     return PairContributions((i, j), e, bonded_terms_for_pair(s, res, i, j))
 
 
+def bonded_atoms_label(system, atoms) -> str:
+    """``A:ALA25 N–CA–CB``: the first atom's residue, then the atom names in order; an atom of
+    another residue is written with its own label (``A:ALA25 C–A:GLY26 N``)."""
+    first = int(system.resindex[atoms[0]])
+    names = [str(system.names[x]) if int(system.resindex[x]) == first else system.atom_label(int(x))
+             for x in atoms]
+    return f"{system.residues.label(first)} {'–'.join(names)}"
+
+
 class AtomTableModel(ArrayTableModel):
     def __init__(self, parent=None):
         super().__init__(parent)
@@ -46,29 +55,30 @@ class AtomTableModel(ArrayTableModel):
             self.set_columns([], 0)
             return
         s, e = system, contrib.energies
-        lab = lambda a: f"{s.names[a]} ({s.residues.resname[s.resindex[a]]}{s.residues.resid[s.resindex[a]]})"  # noqa: E731
         a, b = e.pairs[:, 0], e.pairs[:, 1]
         kind = np.where(e.is_exception, np.where((e.coulomb == 0) & (e.lj == 0), "1-2/1-3 (excluded)", "1-4 pair"),
                         "nonbonded").astype(object)
         bonded = contrib.bonded
         kinds = list(kind) + [long_label(d["term"]) for d in bonded]
-        atom1 = [lab(x) for x in a] + ["–".join(str(s.names[x]) for x in d["atoms"]) for d in bonded]
-        atom2 = [lab(x) for x in b] + [""] * len(bonded)
+        atom_i = [s.atom_label(x) for x in a] + [bonded_atoms_label(s, d["atoms"]) for d in bonded]
+        atom_j = [s.atom_label(x) for x in b] + [""] * len(bonded)
         types = [f"{s.types[x]} / {s.types[y]}" for x, y in zip(a, b)] + [
             "–".join(str(s.types[x]) for x in d["atoms"]) for d in bonded]
         charges = [f"{s.charges[x]:+.3f} / {s.charges[y]:+.3f}" for x, y in zip(a, b)] + [""] * len(bonded)
         nan = np.full(len(bonded), np.nan)
         share = np.array([d["share"] for d in bonded])
-        cols = [Column("Kind", np.array(kinds, dtype=object)),
-                Column("Atom 1", np.array(atom1, dtype=object)),
-                Column("Atom 2", np.array(atom2, dtype=object)),
-                Column("Types", np.array(types, dtype=object)),
-                Column("Charges (e)", np.array(charges, dtype=object)),
-                Column("Distance", np.concatenate([e.distance, nan]), "distance"),
-                Column("Coulomb", np.concatenate([e.coulomb, nan]), "energy"),
-                Column("LJ", np.concatenate([e.lj, nan]), "energy"),
+        # the energies right after the two atoms; the less used columns last (Types hidden:
+        # the header's column menu shows it)
+        cols = [Column("Atom i", np.array(atom_i, dtype=object)),
+                Column("Atom j", np.array(atom_j, dtype=object)),
+                Column("r", np.concatenate([e.distance, nan]), "distance", "distance between the two atoms (Å)"),
+                Column(short_label("coulomb"), np.concatenate([e.coulomb, nan]), "energy"),
+                Column(short_label("lj"), np.concatenate([e.lj, nan]), "energy"),
                 Column("Total", np.concatenate([e.total, share]), "energy",
-                       "for a bonded term: the share attributed to this residue pair")]
+                       "for a bonded term: the share attributed to this residue pair"),
+                Column("Kind", np.array(kinds, dtype=object)),
+                Column("Charges (e)", np.array(charges, dtype=object)),
+                Column("Types", np.array(types, dtype=object), hidden=True)]
         self.set_columns(cols, len(contrib))
 
     def atom_pair_of_row(self, row: int):

@@ -4,7 +4,7 @@ from __future__ import annotations
 import numpy as np
 
 from app.gui.models.array_table import ArrayTableModel, Column
-from energy.terms.registry import BONDED_TERMS, TERMS
+from energy.terms.registry import BONDED_TERMS, TERMS, short_label
 
 #: A pair whose largest term is below this (kcal/mol) is left out of the ledger.
 NEGLIGIBLE_KCAL = 1e-3
@@ -35,7 +35,8 @@ class PairTableModel(ArrayTableModel):
         self._ch_i, self._ch_j = ds.chains[pi], ds.chains[pj]
         lower = np.array([str(s).lower() for s in ds.labels], dtype=str)   # per residue, then indexed
         self._lower_i, self._lower_j = lower[pi], lower[pj]
-        dist = rp.min_heavy_distance[rows]
+        # "Closest" of a residue with itself would be a bond length: left empty
+        dist = np.where(pi == pj, np.nan, rp.min_heavy_distance[rows])
         vals = {t: rp.values[t][rows] for t in TERMS}   # the listed rows only, then the sums
         sums = {"bonded": sum(vals[t] for t in BONDED_TERMS), "total": sum(vals.values())}
         sums["effective_electrostatics"] = vals["coulomb"] + vals["solvation_polar"]
@@ -49,19 +50,23 @@ class PairTableModel(ArrayTableModel):
                              "effective electrostatics: Coulomb + polar solvation")] if solvated else [])
         if ds.is_difference:
             c = ds.comparison
-            cols = [Column("Residue 1", self._lab_i, sort_key=pi), Column("Residue 2", self._lab_j, sort_key=pj),
-                    Column("First", c.first_values["total"][rows], "energy", "total in the first structure"),
-                    Column("Second", c.second_values["total"][rows], "energy", "total in the second structure"),
-                    Column("Change", col("total"), "energy", "second minus first"),
-                    Column("Size", np.abs(col("total")), "energy", "|second minus first|"),
-                    Column("Δ Coulomb", col("coulomb"), "energy"), Column("Δ LJ", col("lj"), "energy"),
+            # the changes first, then the two totals; |Change| is a magnitude (not coloured by sign)
+            cols = [Column("Residue i", self._lab_i, sort_key=pi), Column("Residue j", self._lab_j, sort_key=pj),
+                    Column("Change", col("total"), "energy", "total: second minus first"),
+                    Column(f"Δ {short_label('coulomb')}", col("coulomb"), "energy"),
+                    Column(f"Δ {short_label('lj')}", col("lj"), "energy"),
                     *solvation,
                     Column("Δ Bonded", col("bonded"), "energy", "bonded terms: " + ", ".join(BONDED_TERMS)),
+                    Column("|Change|", np.abs(col("total")), "energy", "size of the change, either sign",
+                           signed=False),
+                    Column("First", c.first_values["total"][rows], "energy", "total in the first structure"),
+                    Column("Second", c.second_values["total"][rows], "energy", "total in the second structure"),
                     Column("Closest", dist, "distance", "minimum heavy-atom distance, second structure")]
         else:
-            cols = [Column("Residue 1", self._lab_i, sort_key=pi), Column("Residue 2", self._lab_j, sort_key=pj),
+            cols = [Column("Residue i", self._lab_i, sort_key=pi), Column("Residue j", self._lab_j, sort_key=pj),
                     Column("Closest", dist, "distance", "minimum heavy-atom distance"),
-                    Column("Coulomb", col("coulomb"), "energy"), Column("LJ", col("lj"), "energy"),
+                    Column(short_label("coulomb"), col("coulomb"), "energy"),
+                    Column(short_label("lj"), col("lj"), "energy"),
                     *solvation,
                     Column("Bonded", col("bonded"), "energy", "bonded terms: " + ", ".join(BONDED_TERMS)),
                     Column("Total", col("total"), "energy")]

@@ -7,7 +7,7 @@ pairs, and "Back to the solvent list" returns.
 from __future__ import annotations
 
 import numpy as np
-from PySide6.QtCore import Signal
+from PySide6.QtCore import Qt, Signal
 from PySide6.QtWidgets import QLabel, QPushButton, QStackedWidget, QVBoxLayout, QWidget
 
 from app.gui.models.array_table import ArrayTableModel, Column
@@ -27,6 +27,8 @@ class AtomContributionsView(QWidget):
         self.contacts_model = ArrayTableModel(self)
         self.contacts = None
         self._contacts_caption = ""
+        self.model.units_in_header = False        # the caption names the units (narrow panel)
+        self._caption = ""
         self._syncing = False
         self.caption = QLabel("Select a residue pair in the map or the ledger.")
         self.caption.setObjectName("atomCaption")
@@ -36,6 +38,8 @@ class AtomContributionsView(QWidget):
         self.back.setVisible(False)
         self.back.clicked.connect(self.show_contacts_again)
         self.table = record_table("atomTable", self.model, size_from_rows=40)
+        # a narrowed label keeps its end, the atom name ("…P33 CZ3"; the caption names the pair)
+        self.table.setTextElideMode(Qt.TextElideMode.ElideLeft)
         self.contacts_table = record_table("solventContactTable", self.contacts_model, size_from_rows=40)
         self.contacts_table.doubleClicked.connect(self._on_member)
         self.pages = QStackedWidget()
@@ -49,12 +53,15 @@ class AtomContributionsView(QWidget):
     def set_unit(self, factor: float, unit: str) -> None:
         self.model.set_unit(factor, unit)
         self.contacts_model.set_unit(factor, unit)
+        if not self.showing_contacts():
+            self._show_caption()
 
     def show_contributions(self, system, contrib, caption: str, from_solvent_list: bool = False) -> None:
         """The atom pairs and bonded terms of one residue pair (``contrib`` None: empty);
         ``from_solvent_list`` keeps the solvent list one click away."""
         self.model.set_contributions(system, contrib)
-        self.caption.setText(caption)
+        self._caption = caption
+        self._show_caption()
         self.pages.setCurrentWidget(self.table)
         if not from_solvent_list:
             self.contacts = None
@@ -93,6 +100,12 @@ class AtomContributionsView(QWidget):
             return
         member = int(self.contacts.residues[self.contacts_model.record(index.row())])
         self.memberActivated.emit(self.contacts.residue, member)
+
+    def _show_caption(self) -> None:
+        if self.model.contrib is None:
+            self.caption.setText(self._caption)
+            return
+        self.caption.setText(f"{self._caption} · energies in {self.model.unit}, distances in Å")
 
     def _on_row(self, current, _prev) -> None:
         if self._syncing or not current.isValid():

@@ -24,6 +24,7 @@ from app.gui.views.flow_layout import FlowLayout
 from app.gui.views.tables import fit_columns, record_table, show_row
 from energy.analysis.clashes import DEFAULT_OVERLAP, ClashOptions
 from energy.output.clash_report import atom_label
+from energy.terms.registry import long_label, short_label
 
 RADII = {"bondi": "Bondi (1964) by element", "forcefield": "Force field (pair Rmin)"}
 
@@ -59,7 +60,9 @@ class ClashCheckView(QWidget):
         self.summary.setWordWrap(True)
 
         self.model = ArrayTableModel(self)
+        self.model.units_in_header = False        # the summary names the units (narrow panel)
         self.table = _table("clashTable"); self.table.setModel(self.model)
+        self.table.setTextElideMode(Qt.TextElideMode.ElideLeft)   # "…P33 CZ3": the atom name stays
         self.counts_model = ArrayTableModel(self)
         self.counts = _table("clashCounts"); self.counts.setModel(self.counts_model)
 
@@ -97,6 +100,8 @@ class ClashCheckView(QWidget):
     # -- content ------------------------------------------------------------------------------
     def set_unit(self, factor: float, unit: str) -> None:
         self.model.set_unit(factor, unit)
+        if getattr(self, "check", None) is not None:      # the summary names the unit
+            self.set_check(self.system, self.check)
 
     def show_message(self, text: str) -> None:
         self.summary.setText(text)
@@ -121,11 +126,12 @@ class ClashCheckView(QWidget):
         self.model.set_columns([
             Column("Atom i", lab_i), Column("Atom j", lab_j),
             Column("Overlap", rep.overlap, "distance", "contact − r"),
-            Column("LJ", rep.lj, "energy", "Lennard-Jones 12-6 energy of the pair"),
-            Column("Exp-6", rep.exp6, "energy", "exp-6 energy, same minimum, softer wall"),
+            Column(short_label("lj"), rep.lj, "energy", f"{long_label('lj')} energy of the pair"),
+            Column("exp-6", rep.exp6, "energy", "exp-6 energy, same minimum, softer wall"),
             Column("r", rep.distance, "distance", "distance between the atom centres"),
             Column("Contact", rep.contact, "distance", "contact distance R_i + R_j (or H-bond contact)"),
             Column("Note", flags),
+            # the rows come in rank order; the rank itself is for other sort orders (last)
             Column("Rank", np.arange(1, n + 1), "number", "rank: overlap, then LJ energy")], n)
         counts = check.residue_counts
         hit = np.flatnonzero(counts)
@@ -142,7 +148,8 @@ class ClashCheckView(QWidget):
         scope = "all atoms" if o.include_hydrogens else "heavy atoms"
         self.summary.setText(
             f"<b>{n} clash(es)</b> in frame {check.frame_index} ({crit}, {RADII[o.radii].split(' (')[0]} "
-            f"radii, {scope}); {len(check.residue_pairs)} residue pair(s), {len(hit)} residue(s). "
+            f"radii, {scope}); {len(check.residue_pairs)} residue pair(s), {len(hit)} residue(s); "
+            f"energies in {self.model.unit}, distances in Å. "
             + ("Pick a row to select it everywhere." if n else "")
             + "".join(f"<br><i>{note}</i>" for note in rep.notes))
         fit_columns(self.table)

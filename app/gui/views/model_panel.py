@@ -6,10 +6,11 @@ import numpy as np
 from PySide6.QtCore import Qt, Signal
 from PySide6.QtWidgets import QHBoxLayout, QLabel, QPushButton, QSplitter, QTableView, QVBoxLayout, QWidget
 
-from app.gui.models.array_table import ArrayTableModel, Column
+from app.gui.models.array_table import ArrayTableModel, Column, format_energy
 from app.gui.views.flow_layout import FlowLayout
 from app.gui.views.tables import fit_columns, record_table
 from energy.output.clash_report import atom_label
+from energy.terms.registry import long_label
 
 TOP_CLASHES = 10
 
@@ -33,6 +34,7 @@ class ModelComparisonView(QWidget):
         self.severity_caption.setWordWrap(True)
         self.severity_model = ArrayTableModel(self)
         self.severity = _table("severityTable"); self.severity.setModel(self.severity_model)
+        self.severity.setTextElideMode(Qt.TextElideMode.ElideMiddle)   # both atom names stay in view
 
         self.compare_button = QPushButton("Compare electrostatics models")
         self.compare_button.setObjectName("compareElectrostatics")
@@ -61,13 +63,17 @@ class ModelComparisonView(QWidget):
         self.elec.selectionModel().currentRowChanged.connect(self._on_elec_row)
 
     def set_unit(self, factor: float, unit: str) -> None:
+        self.factor, self.unit = float(factor), unit
         self.severity_model.set_unit(factor, unit)
         self.elec_model.set_unit(factor, unit)
+        if getattr(self, "_severity_check", None) is not None:
+            self._caption_severity()
 
     # -- LJ vs exp-6 -------------------------------------------------------------------------
     def set_clashes(self, system, check) -> None:
         if check is None or not len(check.report):
             self.severity_model.set_columns([], 0)
+            self._severity_check = None
             self.severity_caption.setText("<b>Clash severity, LJ 12-6 vs exp-6</b>: no clash in this frame.")
             return
         rep = check.report
@@ -84,14 +90,23 @@ class ModelComparisonView(QWidget):
         self.severity_model.set_columns([
             Column("Atom pair", pair_text),
             Column("Overlap", rep.overlap[:n], "distance"),
-            Column("LJ 12-6", lj, "energy", "force field Lennard-Jones"),
-            Column("Exp-6", e6, "energy", f"exp-6, same Rmin and well depth, α = {rep.options.exp6_alpha:.3f}"),
+            Column("LJ 12-6", lj, "energy", f"force field {long_label('lj')}"),
+            Column("exp-6", e6, "energy", f"exp-6, same Rmin and well depth, α = {rep.options.exp6_alpha:.3f}"),
             Column("LJ/exp-6", ratio, "number", "how many times harsher the 1/r¹² wall is")], n)
+        self._severity_check = check
+        self._caption_severity()
+        fit_columns(self.severity)
+
+    def _caption_severity(self) -> None:
+        """The caption of the severity table, in the display unit."""
+        check = self._severity_check
+        rep = check.report
+        n = min(TOP_CLASHES, len(rep))
+        f, unit = getattr(self, "factor", 1.0), getattr(self, "unit", "kcal/mol")
         self.severity_caption.setText(
             f"<b>Clash severity, LJ 12-6 vs exp-6</b>: top {n} of {len(rep)} clash(es), frame "
             f"{check.frame_index}; exp-6 α = {rep.options.exp6_alpha:.3f}. Sum LJ "
-            f"{rep.lj.sum():,.1f}, sum exp-6 {rep.exp6.sum():,.1f} kcal/mol.")
-        fit_columns(self.severity)
+            f"{format_energy(float(rep.lj.sum()) * f)}, sum exp-6 {format_energy(float(rep.exp6.sum()) * f)} {unit}.")
 
     def _on_severity_row(self, current, _prev) -> None:
         if not current.isValid():

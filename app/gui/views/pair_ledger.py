@@ -26,6 +26,7 @@ class PairLedgerView(QWidget):
         super().__init__(parent)
         self.selection = selection
         self.model = PairTableModel(self)
+        self.model.units_in_header = False        # the count line names the units (narrow docks)
         self._syncing = False
 
         self.text = QLineEdit(); self.text.setObjectName("ledgerText")
@@ -58,6 +59,10 @@ class PairLedgerView(QWidget):
         self.table.selectionModel().currentRowChanged.connect(self._on_row)
         selection.pairChanged.connect(self._on_selection)
 
+    def set_unit(self, factor: float, unit: str) -> None:
+        self.model.set_unit(factor, unit)
+        self.count.setText(f"{self.model.rowCount():,} pairs · energies in {unit}, distances in Å")
+
     def set_dataset(self, ds, keep_sort: bool = False) -> None:
         header = self.table.horizontalHeader()
         sort = (header.sortIndicatorSection(), header.sortIndicatorOrder())
@@ -85,8 +90,9 @@ class PairLedgerView(QWidget):
         if keep_sort and 0 <= sort[0] < self.model.columnCount():
             self.model.sort(*sort)
         elif ds is not None and ds.is_difference:
-            self.model.sort(5, Qt.SortOrder.DescendingOrder)  # by the size of the change
-            self.table.horizontalHeader().setSortIndicator(5, Qt.SortOrder.DescendingOrder)
+            size = self.model.column_of("|Change|")      # by the size of the change
+            self.model.sort(size, Qt.SortOrder.DescendingOrder)
+            self.table.horizontalHeader().setSortIndicator(size, Qt.SortOrder.DescendingOrder)
         else:
             self.table.horizontalHeader().setSortIndicator(-1, Qt.SortOrder.AscendingOrder)
         self._refilter()
@@ -103,7 +109,7 @@ class PairLedgerView(QWidget):
             between = (self.chain_a.currentData(), self.chain_b.currentData())
         self.model.apply_filter(self.text.text(), self.chain.currentData() or "", between,
                                 self.hide_self.isChecked())
-        self.count.setText(f"{self.model.rowCount():,} pairs")
+        self.count.setText(f"{self.model.rowCount():,} pairs · energies in {self.model.unit}, distances in Å")
         self._on_selection(self.selection.pair)
 
     def _on_row(self, current, _previous) -> None:

@@ -167,6 +167,7 @@ class PairMapView(QWidget):
         self.colorbar = pg.ColorBarItem(values=(-1, 1), colorMap=self.cmap, interactive=False, width=18)
         self.colorbar.setImageItem(self.image, insert_in=self.plot)
         self.colorbar.axis.setTextPen(pg.mkPen("#222"))
+        self.colorbar.axis.enableAutoSIPrefix(False)    # energies in the unit shown, never "(x0.001)"
         self.marker = pg.ScatterPlotItem(pxMode=False, size=1.0, symbol="s", brush=None,
                                          pen=pg.mkPen("#00a000", width=3))
         self.marker.setZValue(10)

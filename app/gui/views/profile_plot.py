@@ -92,7 +92,7 @@ class DistanceProfileView(QWidget):
         self.key = QLabel(""); self.key.setObjectName("profileKey"); self.key.setWordWrap(True)
         self.show_both = QCheckBox("LJ and exp-6 curves"); self.show_both.setObjectName("profileBoth")
         self.show_both.setChecked(True)
-        self.show_both.setToolTip("Overlay the curve of the other repulsion model for the selected atom pair")
+        self.show_both.setToolTip("Overlay the other LJ term form (LJ 12-6 or exp-6) for the selected atom pair")
         bar.add_group(self.show_both, right=True)
 
         self.axis = EnergyAxis("left")
@@ -111,9 +111,9 @@ class DistanceProfileView(QWidget):
             item.sigClicked.connect(self._on_point_clicked)
         self.coul_curve = self.plot.plot([], [], pen=pg.mkPen(COULOMB_COLOR, width=2), name="Coulomb curve")
         self.lj_curve = self.plot.plot([], [], pen=pg.mkPen(LJ_COLOR, width=2), name="LJ curve")
-        # the other repulsion model's curve (exp-6 when the engine uses LJ, and vice versa)
+        # the other LJ term form's curve (exp-6 when the engine uses LJ, and vice versa)
         self.alt_curve = self.plot.plot([], [], pen=pg.mkPen(EXP6_COLOR, width=2, style=Qt.PenStyle.DotLine),
-                                        name="other vdW model")
+                                        name="other LJ term form")
         self.total_curve = self.plot.plot([], [], pen=pg.mkPen(TOTAL_COLOR, width=1.5, style=Qt.PenStyle.DashLine),
                                           name="sum")
         self.now_line = pg.InfiniteLine(angle=90, pen=pg.mkPen("#2ca02c", width=2))
@@ -183,7 +183,7 @@ class DistanceProfileView(QWidget):
         return "lj" if self.settings is None else self.settings.vdw
 
     def alt_settings(self):
-        """The current settings with the other repulsion model (same exp-6 steepness)."""
+        """The current settings with the other LJ term form (same exp-6 steepness)."""
         from dataclasses import replace
 
         from energy.model.settings import EnergySettings
@@ -193,11 +193,16 @@ class DistanceProfileView(QWidget):
     def _update_key(self) -> None:
         lj_name = "LJ 12-6" if self.vdw_model == "lj" else "exp-6"
         alt = "exp-6" if self.vdw_model == "lj" else "LJ 12-6"
-        text = (f"<span style='color:{COULOMB_COLOR}'>● Coulomb</span> &nbsp; "
-                f"<span style='color:{LJ_COLOR}'>▲ {lj_name} (computed)</span> &nbsp; curves in the "
-                "same colours, dashed: their sum &nbsp; ◆ vdW minimum")
+        # one short line: points are the atom pairs, lines the curves of the selected pair
+        text = (f"<span style='color:{COULOMB_COLOR}'>● Coulomb</span> &nbsp;"
+                f"<span style='color:{LJ_COLOR}'>▲ {lj_name}</span> &nbsp;— curves, ╌ sum &nbsp;◆ minimum")
         if self.show_both.isChecked():
-            text += f" &nbsp; <span style='color:{EXP6_COLOR}'>┈ {alt} curve, same Rmin and well depth</span>"
+            text += f" &nbsp;<span style='color:{EXP6_COLOR}'>┈ {alt}</span>"
+        self.key.setToolTip("Points: every atom pair of the residue pair (● Coulomb, ▲ the computed "
+                            f"{lj_name} energy). Lines: the selected atom pair's curves in the same colours, "
+                            "dashed their sum; ◆ the LJ minimum (Rmin, well depth)"
+                            + (f"; dotted: the {alt} curve with the same Rmin and well depth."
+                               if self.show_both.isChecked() else "."))
         self.key.setText(text)
 
     # -- drawing ----------------------------------------------------------------------------
@@ -256,12 +261,15 @@ class DistanceProfileView(QWidget):
             self.well.setData([], [])
         s = self.system
         a, b = self.selection.atom_pair
-        name = lambda x: f"{s.names[x]} {s.residues.label(s.resindex[x])}"  # noqa: E731
+        name = s.atom_label
         kind = " (1-4 pair, own parameters)" if params["is_exception"] else ""
         f = self.factor
         if eps > 0 and rmin > 0:
-            self.note.setText(f"Rmin {rmin:.2f} Å\nwell depth {-eps * f:.3f}")
+            self.note.setText(f"Rmin {rmin:.2f} Å\nwell depth {-eps * f:.3f} {self.unit}")
             self.note.setPos(rmin, float(self._y(-eps)))
+            x0, x1 = self.plot.viewRange()[0]
+            # right of the diamond, or left of it when that would run past the plot's right edge
+            self.note.setAnchor((1.05, -0.15) if rmin > x0 + 0.55 * (x1 - x0) else (-0.05, -0.15))
         else:
             self.note.setText("")
         self.note.setVisible(bool(self.note.textItem.toPlainText()))

@@ -8,6 +8,7 @@ from PySide6.QtWidgets import QFormLayout, QHBoxLayout, QLabel, QLineEdit, QPush
 
 from app.gui.models.array_table import ArrayTableModel, Column, format_energy
 from app.gui.views.tables import fit_columns, record_table
+from energy.terms.registry import short_label
 
 
 class ResidueRosterView(QWidget):
@@ -20,6 +21,8 @@ class ResidueRosterView(QWidget):
         self._syncing = False
         self.dataset = None
         self.table = record_table("rosterTable", self.model, size_from_rows=40)
+        self.model.units_in_header = False        # the caption names the unit (narrow panel)
+        self.units = QLabel(""); self.units.setObjectName("rosterUnits")
         self.find = QLineEdit(); self.find.setPlaceholderText("Filter residues")
         self.find.setClearButtonEnabled(True)
 
@@ -27,8 +30,8 @@ class ResidueRosterView(QWidget):
         self.group_b = QLineEdit(); self.group_b.setObjectName("groupB")
         for w, ph in ((self.group_a, "e.g. segid A"), (self.group_b, "e.g. segid B and resid 20-40")):
             w.setPlaceholderText(ph)
-        self.apply = QPushButton("Interface energy"); self.apply.setObjectName("groupApply")
-        self.apply.setToolTip("Nonbonded interaction between group A and group B (Ctrl+I)")
+        self.apply = QPushButton("Group interaction"); self.apply.setObjectName("groupApply")
+        self.apply.setToolTip("Group interaction: the nonbonded energy between group A and group B (Ctrl+I)")
         self.result = QLabel("—"); self.result.setObjectName("groupResult"); self.result.setWordWrap(True)
         form = QFormLayout(); form.setContentsMargins(2, 2, 2, 2)
         form.addRow("Group A", self.group_a)
@@ -37,7 +40,8 @@ class ResidueRosterView(QWidget):
         form.addRow(row)
         form.addRow(self.result)
         lay = QVBoxLayout(self); lay.setContentsMargins(2, 2, 2, 2)
-        lay.addWidget(self.find); lay.addWidget(self.table, 1); lay.addLayout(form)
+        lay.addWidget(self.find); lay.addWidget(self.units); lay.addWidget(self.table, 1); lay.addLayout(form)
+        self.set_unit(1.0, "kcal/mol")
 
         self.find.textChanged.connect(self._refilter)
         self.apply.clicked.connect(self._request)
@@ -53,16 +57,21 @@ class ResidueRosterView(QWidget):
             return
         rp = ds.pairs
         pre = "Δ " if ds.is_difference else ""
-        cols = [Column("Residue", ds.labels, sort_key=np.arange(ds.n)), Column("Chain", ds.chains),
+        # the chain is in the residue label (A:ALA25): its own column starts hidden (column menu)
+        cols = [Column("Residue", ds.labels, sort_key=np.arange(ds.n)), Column("Chain", ds.chains, hidden=True),
                 Column(f"{pre}Total", rp.per_residue("total"), "energy",
                        "half of every pair entry with another residue plus the within-residue entry"),
-                Column(f"{pre}Coulomb", rp.per_residue("coulomb"), "energy"),
-                Column(f"{pre}LJ", rp.per_residue("lj"), "energy"),
+                Column(f"{pre}{short_label('coulomb')}", rp.per_residue("coulomb"), "energy"),
+                Column(f"{pre}{short_label('lj')}", rp.per_residue("lj"), "energy"),
                 Column(f"{pre}Bonded", rp.per_residue("bonded"), "energy")]
         self.model.set_columns(cols, ds.n)
         self._lower = np.array([s.lower() for s in ds.labels], dtype=str)
         self._refilter()
         fit_columns(self.table)
+
+    def set_unit(self, factor: float, unit: str) -> None:
+        self.model.set_unit(factor, unit)
+        self.units.setText(f"Per-residue energies (half of each pair entry), {unit}")
 
     def set_groups_text(self, a: str, b: str) -> None:
         self.group_a.setText(a); self.group_b.setText(b)
@@ -105,6 +114,6 @@ class ResidueRosterView(QWidget):
 
 
 def describe_interaction(d: dict, factor: float, unit: str) -> str:
-    return (f"A vs B: <b>{format_energy(d['total'] * factor)} {unit}</b> "
+    return (f"Group interaction: <b>{format_energy(d['total'] * factor)} {unit}</b> "
             f"(Coulomb {format_energy(d['coulomb'] * factor)}, LJ {format_energy(d['lj'] * factor)}; "
             f"{d['n_pairs']:,} atom pairs, {d['n_atoms_a']} × {d['n_atoms_b']} atoms)")

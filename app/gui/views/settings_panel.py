@@ -1,9 +1,11 @@
-"""Compute settings: cutoff, switching, electrostatics, dielectric, vdW model, and display units.
+"""Compute settings: cutoff, switching, electrostatics, dielectric, LJ term form, and display units.
 
 Changing a computation setting asks the window to recompute in the background (after a short
 pause so that typing a number does not start one computation per key); the unit only rescales.
 """
 from __future__ import annotations
+
+import html
 
 from PySide6.QtCore import QTimer, Signal
 from PySide6.QtWidgets import (
@@ -20,8 +22,10 @@ from PySide6.QtWidgets import (
 
 from app.gui.settings import UNITS
 from app.gui.views.flow_layout import compact_combo
+from app.gui.wording import in_window_terms
 from energy.errors import SettingsError
 from energy.model.settings import EXP6_ALPHA_MATCHING_LJ, EnergySettings
+from energy.terms.registry import long_label
 
 #: Implicit-solvent choices of the panel (key "" is in vacuo).
 IMPLICIT_CHOICES = {"": "none (in vacuo)", "obc2": "GB OBC2", "gbn2": "GB GBn2"}
@@ -30,7 +34,7 @@ NONPOLAR_CHOICES = {"ace": "ACE (from Born radii)", "none": "none"}
 ELECTROSTATICS = {"plain": "Plain Coulomb, ε constant", "reaction-field": "Reaction field (needs cutoff)",
                   "distance-dependent": "Distance-dependent, ε = D·r",
                   "shifted": "Shifted force, zero at the cutoff (needs cutoff)"}
-VDW_MODELS = {"lj": "Lennard-Jones 12-6 (force field)", "exp6": "Exp-6, same minimum per pair"}
+VDW_MODELS = {"lj": f"{long_label('lj')} (force field)", "exp6": "exp-6, same minimum per pair"}
 
 
 class ComputeSettingsPanel(QWidget):
@@ -59,7 +63,7 @@ class ComputeSettingsPanel(QWidget):
             self.vdw.addItem(text, key)
         self.alpha = QDoubleSpinBox(); self.alpha.setObjectName("exp6Alpha")
         self.alpha.setRange(7.5, 40.0); self.alpha.setDecimals(3); self.alpha.setSingleStep(0.5)
-        self.alpha.setToolTip(f"Exp-6 steepness; {EXP6_ALPHA_MATCHING_LJ:.3f} matches the LJ curvature "
+        self.alpha.setToolTip(f"exp-6 steepness; {EXP6_ALPHA_MATCHING_LJ:.3f} matches the LJ curvature "
                               "at the minimum (docs/physics.md)")
         self.alpha_default = QPushButton("LJ-matched"); self.alpha_default.setObjectName("exp6AlphaDefault")
         self.alpha_default.clicked.connect(lambda: self.alpha.setValue(EXP6_ALPHA_MATCHING_LJ))
@@ -91,9 +95,9 @@ class ComputeSettingsPanel(QWidget):
         form.addRow("Solvent ε (RF or GB)", self.solvent)
         form.addRow("Salt (ionic strength)", self.salt)
         form.addRow("Nonpolar solvation", self.nonpolar)
-        form.addRow("Repulsion model", self.vdw)
+        form.addRow("LJ term form", self.vdw)
         arow = QHBoxLayout(); arow.addWidget(self.alpha, 1); arow.addWidget(self.alpha_default)
-        form.addRow("Exp-6 steepness α", arow)
+        form.addRow("exp-6 steepness α", arow)
         form.addRow(self.periodic)
         form.addRow("Energy unit", self.unit)
         lay = QVBoxLayout(self)
@@ -173,7 +177,7 @@ class ComputeSettingsPanel(QWidget):
         try:
             s = self.current()
         except SettingsError as exc:
-            self.message.setText(f"<span style='color:#b2182b'>{exc}</span>")
+            self.message.setText(f"<span style='color:#b2182b'>{html.escape(in_window_terms(str(exc)))}</span>")
             return
         self.message.setText(s.describe())
         self.settingsChanged.emit(s)

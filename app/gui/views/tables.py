@@ -2,7 +2,7 @@
 from __future__ import annotations
 
 from PySide6.QtCore import QEvent, QItemSelectionModel, QObject, Qt
-from PySide6.QtWidgets import QAbstractItemView, QTableView, QToolTip
+from PySide6.QtWidgets import QAbstractItemView, QMenu, QTableView, QToolTip
 
 #: Text columns are narrowed to fit the table's width, but not below this (px); number columns
 #: keep the width of their contents (an elided number would read as another number).
@@ -30,8 +30,12 @@ def record_table(name: str, model=None, size_from_rows: int | None = None) -> QT
     if size_from_rows is not None:
         t.horizontalHeader().setResizeContentsPrecision(size_from_rows)
     t.setTextElideMode(Qt.TextElideMode.ElideRight)
+    t.setWordWrap(False)      # one line a cell: a narrowed label is elided, not cut into two lines
     t.viewport().installEventFilter(ElidedCellTips(t))
     t.viewport().installEventFilter(_RefitOnResize(t))
+    header = t.horizontalHeader()
+    header.setContextMenuPolicy(Qt.ContextMenuPolicy.CustomContextMenu)
+    header.customContextMenuRequested.connect(lambda pos: column_menu(t).exec(header.mapToGlobal(pos)))
     # columns are sized from the first rows: after a sort those are other rows
     t.horizontalHeader().sortIndicatorChanged.connect(
         lambda *_: fit_columns(t) if t.property("naturalWidths") is not None else None)
@@ -47,28 +51,79 @@ def _is_number_column(table: QTableView, column: int) -> bool:
     return align is not None and bool(int(align) & int(Qt.AlignmentFlag.AlignRight))
 
 
+def _column_title(model, column: int) -> str:
+    if hasattr(model, "column_title"):
+        return model.column_title(column)
+    text = model.headerData(column, Qt.Orientation.Horizontal, Qt.ItemDataRole.DisplayRole)
+    return str(text or "").replace("\n", " ")
+
+
+def column_menu(table: QTableView) -> QMenu:
+    """The header's column menu: one checkable entry per column (shown or hidden).  A choice is
+    kept (by column title) when the table's contents change."""
+    menu = QMenu(table)
+    menu.setObjectName("columnMenu")
+    model, header = table.model(), table.horizontalHeader()
+    if model is None:
+        return menu
+    for c in range(model.columnCount()):
+        action = menu.addAction(_column_title(model, c))
+        action.setCheckable(True)
+        action.setChecked(not header.isSectionHidden(c))
+        action.toggled.connect(lambda on, c=c: set_column_shown(table, c, on))
+    return menu
+
+
+def set_column_shown(table: QTableView, column: int, shown: bool) -> None:
+    """Show or hide one column and remember the choice for that column title."""
+    model = table.model()
+    chosen = dict(table.property("columnChoices") or {})
+    chosen[_column_title(model, column)] = bool(shown)
+    table.setProperty("columnChoices", chosen)
+    table.horizontalHeader().setSectionHidden(column, not shown)
+    if table.property("naturalWidths") is not None:
+        fit_columns(table, recompute=False)
+
+
+def apply_hidden_columns(table: QTableView) -> None:
+    """Hide the columns the model hides by default, unless the user chose otherwise."""
+    model, header = table.model(), table.horizontalHeader()
+    if model is None:
+        return
+    chosen = table.property("columnChoices") or {}
+    for c in range(model.columnCount()):
+        default = bool(getattr(model, "hidden_by_default", lambda _c: False)(c))
+        header.setSectionHidden(c, not chosen.get(_column_title(model, c), not default))
+
+
 def fit_columns(table: QTableView, recompute: bool = True) -> None:
     """Columns sized to their contents, then the text columns narrowed (widest first, down to
     :data:`MIN_TEXT_COLUMN`) so that the table fits its width without scrolling; narrowed cells
-    are elided and show their full text as a tool tip.  When even that does not fit, every
-    column keeps its contents' width and the table scrolls (eliding all the labels to nothing
-    would only hide them)."""
+    are elided and show their full text as a tool tip.  Only the leading columns (up to the last
+    energy column of an :class:`~app.gui.models.array_table.ArrayTableModel`) are made to fit;
+    the less used ones after them keep their width and may scroll.  Text columns are never
+    narrowed below :data:`MIN_TEXT_COLUMN`."""
     header = table.horizontalHeader()
     model = table.model()
     if model is None or model.columnCount() == 0:
         return
     if recompute or table.property("naturalWidths") is None:
+        apply_hidden_columns(table)
         table.resizeColumnsToContents()
         table.setProperty("naturalWidths", [header.sectionSize(c) for c in range(model.columnCount())])
     natural = list(table.property("naturalWidths") or [])
     if len(natural) != model.columnCount():
         return
     room = table.viewport().width()
-    text = [c for c in range(len(natural)) if not _is_number_column(table, c) and not header.isSectionHidden(c)]
-    fixed = sum(w for c, w in enumerate(natural) if c not in text and not header.isSectionHidden(c))
+    # the columns that must fit: up to the last energy column (the less used ones after it scroll)
+    lead = min(len(natural), int(getattr(model, "leading_columns", lambda: len(natural))()))
+    text = [c for c in range(lead) if not _is_number_column(table, c) and not header.isSectionHidden(c)]
+    fixed = sum(w for c, w in enumerate(natural[:lead]) if c not in text and not header.isSectionHidden(c))
     widths = {c: natural[c] for c in text}
     budget = room - fixed
-    if budget >= MIN_TEXT_COLUMN * len(text) and sum(widths.values()) > budget and text:
+    if sum(widths.values()) > budget and text:
+        # (below MIN_TEXT_COLUMN each, the text columns stay at that width and the table scrolls
+        # a little: the energies come first, the text keeps its last characters)
         # the largest cap L with sum(min(w, max(L, MIN))) <= budget (water-filling)
         lo, hi = MIN_TEXT_COLUMN, max(widths.values())
         while lo < hi:

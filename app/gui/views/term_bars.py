@@ -1,13 +1,18 @@
-"""Term bars: per-term energies of the whole system, the selected residue pair and A vs B."""
+"""Term bars: per-term energies of the whole system, the selected residue pair and the group interaction."""
 from __future__ import annotations
 
+import html
 import math
 
 import numpy as np
 import pyqtgraph as pg
+from PySide6.QtGui import QFont
 
 import resources
 from energy.terms.registry import TERMS, short_label
+
+#: Characters of a plot's subtitle (the selected pair, the groups); the whole text is its tool tip.
+SUBTITLE_CHARS = 22
 
 POS, NEG = (resources.json_table("colormaps.json")[k] for k in ("bar_positive", "bar_negative"))
 
@@ -50,12 +55,16 @@ class TermBarsView(pg.GraphicsLayoutWidget):
         self.setBackground("w")
         self.factor, self.unit = 1.0, "kcal/mol"
         self.values = {"system": None, "pair": None, "groups": None}
-        self.titles = {"system": "Whole system", "pair": "Selected pair", "groups": "Group A vs B"}
+        self.titles = {"system": "Whole system", "pair": "Selected pair", "groups": "Group interaction"}
         self.plots, self.bars, self.texts = {}, {}, {}
         for col, key in enumerate(self.values):
             p = self.addPlot(row=0, col=col, axisItems={"bottom": EnergyTickAxis("bottom")})
             p.setMenuEnabled(False); p.hideButtons(); p.setMouseEnabled(x=False, y=False)
             p.getAxis("left").enableAutoSIPrefix(False)
+            # the term labels in a compact font and a fixed width: three plots fit a laptop's dock
+            font = QFont(); font.setPointSizeF(7.5)
+            p.getAxis("left").setStyle(tickFont=font)
+            p.getAxis("left").setWidth(56)
             p.showGrid(x=True, alpha=0.15)
             p.addLine(x=0, pen=pg.mkPen("#777"))
             p.invertY(True)
@@ -85,8 +94,12 @@ class TermBarsView(pg.GraphicsLayoutWidget):
         self.texts[key] = []
         entry = self.values[key]
         sub = "" if entry is None else entry[1]
+        p.setToolTip(sub)
+        if len(sub) > SUBTITLE_CHARS:     # a title sets its plot's least width: long ones are cut
+            sub = sub[:SUBTITLE_CHARS - 1] + "…"
         p.setTitle(f"<span style='color:#222'>{self.titles[key]}</span>"
-                   + (f"<br><span style='color:#555;font-size:8pt'>{sub}</span>" if sub else ""), size="9pt")
+                   + (f"<br><span style='color:#555;font-size:8pt'>{html.escape(sub)}</span>" if sub else ""),
+                   size="9pt")
         p.setLabel("bottom", self.unit)
         if entry is None:
             p.getAxis("left").setTicks([[]])

@@ -9,10 +9,10 @@ from PySide6.QtWidgets import QCheckBox, QHBoxLayout, QLabel, QVBoxLayout, QWidg
 
 from app.gui.models.array_table import format_energy
 from app.gui.views.profile_plot import EnergyAxis, symlog
-from energy.terms.registry import BONDED_TERMS
+from energy.terms.registry import BONDED_TERMS, short_label
 
 #: Curves drawn: key, legend name, colour.  ``bonded`` is the sum of the bonded terms.
-CURVES = (("coulomb", "Coulomb", "#1f77b4"), ("lj", "LJ", "#e6550d"),
+CURVES = (("coulomb", short_label("coulomb"), "#1f77b4"), ("lj", short_label("lj"), "#e6550d"),
           ("bonded", "Bonded (sum)", "#31a354"), ("total", "Total", "#222222"))
 
 
