@@ -62,7 +62,9 @@ def main(argv=None) -> int:
     report = {"system": args.system, "n_atoms": loaded.system.n_atoms, "n_pairs": len(result.residue_pairs),
               "write_s_median": statistics.median(writes), "read_s_median": statistics.median(reads),
               "read_peak_rss_mib_median": statistics.median(rss), "size_mb": size_mb,
-              "compression": "gzip level 1 + shuffle on integer and mostly-zero columns, dense floats uncompressed, 131,072-row chunks", "repeats": args.repeats,
+              "compression": ("gzip level 1 + shuffle on integer and mostly-zero columns, dense floats "
+                              "uncompressed, 131,072-row chunks"),
+              "repeats": args.repeats,
               "targets": TARGETS, "bench_peak_rss_mib": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024}
     with open(os.path.join(OUT, "result_file.json"), "w") as fh:
         json.dump(report, fh, indent=1)

@@ -204,4 +204,4 @@ def test_cli_overlaps_result_holds_the_ranked_list(tmp_path):
     np.testing.assert_allclose(dist, np.linalg.norm(x[ai] - x[aj], axis=1), atol=2e-3)  # PDB: 3 decimals
     stored = results.load(out)
     assert stored.kind == "overlaps" and len(stored.overlaps["atom_i"]) == len(ai)
-    assert json.loads(stored.overlaps["options"]) == doc["options"]
+    assert json.loads(stored.overlaps["options"])["overlap"] == doc["settings"]["overlap"]

@@ -294,7 +294,7 @@ def template_models(topology, positions_angstrom, residues, force_field) -> dict
     """
     from openmm import NonbondedForce, app
 
-    from energy.io.builtin import RMIN_PER_SIGMA
+    from energy.io.openmm_nonbonded import RMIN_PER_SIGMA
     from energy.units import ANGSTROM_PER_NM, KJ_PER_KCAL
     top, pos, origin = truncated_topology(topology, positions_angstrom, residues)
     try:

@@ -30,7 +30,6 @@ from energy.model.system import MolecularSystem, ResidueTable, TermTable
 from energy.model.virtual_sites import VirtualSites
 from energy.units import ANGSTROM_PER_NM, KJ_PER_KCAL
 
-RMIN_PER_SIGMA = 2.0 ** (1.0 / 6.0)
 _IGNORED = {"CMMotionRemover"}
 _LEFT_OUT = {"CustomExternalForce"}
 _IMPLICIT_SOLVENT = {"GBSAOBCForce", "CustomGBForce", "GBVIForce"}
