@@ -361,10 +361,12 @@ class HotspotWorker(QObject):
     cancelled = Signal()
     failed = Signal(str, str)
 
-    def __init__(self, loaded, settings, select_a: str, select_b: str, interface: float, force_field_files=()):
+    def __init__(self, loaded, settings, select_a: str, select_b: str, interface: float, force_field_files=(),
+                 force_field=()):
         super().__init__()
         self._args = (loaded, settings, select_a, select_b, interface)
         self._files = tuple(force_field_files)
+        self._force_field = tuple(force_field)
         self._cancel = threading.Event()
         self.elapsed = 0.0
 
@@ -383,7 +385,8 @@ class HotspotWorker(QObject):
         try:
             self.phase.emit("Alanine scan: building the mutants")
             self.progress.emit(0, 0)
-            ff = build_force_field(DEFAULT_FORCE_FIELD, self._files) if loaded.prepared_topology is not None else None
+            ff = (build_force_field(self._force_field or DEFAULT_FORCE_FIELD, self._files)
+                  if loaded.prepared_topology is not None else None)
             scan = scan_loaded(loaded, settings, a, b, interface, ff, self._progress)
             self.elapsed = time.perf_counter() - t0
             self.finished.emit(scan)

@@ -34,8 +34,11 @@ class HotspotController(QObject):
         if self._job is not None:
             return
         spec = snap.spec
-        files = spec.preparation().forcefield_files if not spec.params else ()
-        worker = HotspotWorker(snap.loaded, self.window.energy_settings, select_a, select_b, interface, files)
+        prep = spec.preparation() if not spec.params else None
+        files = prep.forcefield_files if prep is not None else ()
+        base = prep.force_field if prep is not None else ()   # the wild type's (--forcefield, --water)
+        worker = HotspotWorker(snap.loaded, self.window.energy_settings, select_a, select_b, interface, files,
+                               base)
         worker.progress.connect(self.view.set_progress)
         worker.finished.connect(self._on_finished)
         worker.failed.connect(self._on_failed)
