@@ -17,7 +17,10 @@ def test_dropped_amber_files_are_opened(qtbot, window):
     spec = window.snapshot.spec
     assert (spec.structure, spec.coords) == (mdat.PRM7_ala2, mdat.RST7_ala2)
     loaded = load_system(mdat.PRM7_ala2, mdat.RST7_ala2)
-    direct = compute(loaded.system, loaded.frame)
+    # a solvated periodic box: with no settings chosen the window fits them to it (app/state/defaults.py)
+    used = window.snapshot.result.settings
+    assert used.cutoff_angstrom is not None and used.electrostatics == "reaction-field"
+    direct = compute(loaded.system, loaded.frame, used)
     assert window.snapshot.result.totals["coulomb"] == pytest.approx(direct.totals["coulomb"], rel=1e-12)
 
 
