@@ -28,6 +28,7 @@ from app.gui.views.flow_layout import FlowLayout
 from app.gui.views.tables import fit_columns, record_table, show_row
 from energy.analysis.hotspots import DEFAULT_INTERFACE_ANGSTROM, HOT_SPOT_KCAL_MOL
 from energy.output.hotspots import CAVEAT
+from energy.terms.registry import long_label, short_label
 
 HOT = QColor("#b2182b")
 GAIN = QColor("#2166ac")
@@ -140,7 +141,8 @@ class HotspotView(QWidget):
                    Column("Residue", scan.label.astype(object), sort_key=scan.residue),
                    Column("Class", scan.side_chain_class.astype(object)),
                    Column("ΔE", total, "energy", "E_int(mutant) − E_int(wild type)"),
-                   *(Column(f"Δ{t}", v, "energy", f"change of the {t} term") for t, v in scan.delta.items()),
+                   *(Column(f"Δ {short_label(t)}", v, "energy", f"change of the {long_label(t)} term")
+                     for t, v in scan.delta.items()),
                    Column("Hot", hot.astype(object), tooltip=f"ΔE ≥ {HOT_SPOT_KCAL_MOL:g} kcal/mol (the "
                           "experimental ΔΔG convention, used as a marker)"),
                    Column("Flag", scan.flag.astype(object), tooltip="proline: truncation changes the backbone; "
