@@ -90,6 +90,16 @@ def _candidate_pairs(x, atoms_a, atoms_b, cutoff, box, h):
     return np.stack(split_keys(keys, n), axis=1)
 
 
+def _pair_geometry(system, frame, settings):
+    """(positions with virtual sites placed, the cell nonbonded pairs may use, whether the
+    minimum image applies, its cell matrix or None) for atom-pair evaluations."""
+    x = placed_frame(system, frame).positions  # virtual sites from their parents
+    box = nonbonded_cell(frame.box, system.n_atoms, settings.use_periodic).box
+    periodic = box is not None and settings.cutoff_angstrom is not None
+    h = periodic_cell(box, settings.cutoff_angstrom) if periodic else None
+    return x, box, periodic, h
+
+
 def atom_pair_energies(system: MolecularSystem, frame: Frame, settings: EnergySettings | None,
                        atoms_a, atoms_b=None) -> AtomPairEnergies:
     """Every nonbonded atom pair between ``atoms_a`` and ``atoms_b`` (within ``atoms_a`` if None).
@@ -118,12 +128,9 @@ def atom_pair_energies(system: MolecularSystem, frame: Frame, settings: EnergySe
         chosen vdW form: LJ or exp-6), ``is_exception`` (n,) bool.
     """
     settings = settings or EnergySettings()
-    x = placed_frame(system, frame).positions  # virtual sites from their parents
+    x, box, periodic, h = _pair_geometry(system, frame, settings)
     atoms_a = np.unique(np.asarray(atoms_a, np.intp))
     atoms_b = None if atoms_b is None else np.unique(np.asarray(atoms_b, np.intp))
-    box = nonbonded_cell(frame.box, system.n_atoms, settings.use_periodic).box
-    periodic = box is not None and settings.cutoff_angstrom is not None
-    h = periodic_cell(box, settings.cutoff_angstrom) if periodic else None
     pairs = _candidate_pairs(x, atoms_a, atoms_b, settings.cutoff_angstrom,
                              box if periodic else None, h)
     n = system.n_atoms
@@ -216,13 +223,10 @@ def interaction_energy(system, frame, settings, atoms_a, atoms_b) -> dict:
     """
     check_frame(system, frame)  # the geometry checks, before any energy
     settings = settings or EnergySettings()
-    x = placed_frame(system, frame).positions  # virtual sites from their parents
+    x, box, periodic, h = _pair_geometry(system, frame, settings)
     n = system.n_atoms
     atoms_a = np.unique(np.asarray(atoms_a, np.intp))
     atoms_b = np.unique(np.asarray(atoms_b, np.intp))
-    box = nonbonded_cell(frame.box, n, settings.use_periodic).box
-    periodic = box is not None and settings.cutoff_angstrom is not None
-    h = periodic_cell(box, settings.cutoff_angstrom) if periodic else None
     ex = system.exception_pairs
     sorted_ex_keys = np.sort(pair_keys(ex[:, 0], ex[:, 1], n))
     in_a = np.zeros(n, bool); in_a[atoms_a] = True
