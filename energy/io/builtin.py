@@ -179,20 +179,38 @@ def load_builtin_prepared(path: str, options, force_field=DEFAULT_FORCE_FIELD):
     ------
     StructureFileError, UnknownResidueError
     """
-    from openmm import app
-
     from energy.io.preparation import UnmatchedResidues, prepare_structure
     label = " + ".join([*force_field, *(os.path.basename(f) for f in options.forcefield_files)])
     ff = build_force_field(force_field, options.forcefield_files)
     check_coordinate_text(plain_file(path))  # strict numbers and records before OpenMM reads it
-    try:
-        prepared = prepare_structure(path, options, ff, label)
-    except UnmatchedResidues as exc:
-        raise _unmatched_error(path, ff, exc.topology, options, label, exc.residues, exc.gaps) from None
-    except UnknownResidueError as exc:
-        raise UnknownResidueError(f"{path}: {exc}") from None
-    if any(os.path.basename(f) in FOUR_SITE_WATER_FILES for f in force_field):
-        prepared = _with_extra_particles(prepared, ff)
+    four_site = any(os.path.basename(f) in FOUR_SITE_WATER_FILES for f in force_field)
+    for split_solvent in ((False,) if four_site else (True, False)):
+        try:
+            prepared = prepare_structure(path, options, ff, label, split_solvent=split_solvent)
+        except UnmatchedResidues as exc:
+            raise _unmatched_error(path, ff, exc.topology, options, label, exc.residues, exc.gaps) from None
+        except UnknownResidueError as exc:
+            raise UnknownResidueError(f"{path}: {exc}") from None
+        if four_site:
+            prepared = _with_extra_particles(prepared, ff)
+        if prepared.split is not None and ff.getUnmatchedResidues(prepared.topology):
+            continue  # read the whole file, so that the message counts every residue
+        built = _parameterised(path, prepared, ff, label, options)
+        if built is not None:
+            return built
+    raise AssertionError("unreachable: the whole file is always parameterised")
+
+
+def _parameterised(path, prepared, ff, label, options):
+    """(system, frame, topology, prepared) of a prepared structure, the repeated molecules placed
+    back (:func:`energy.model.copies.with_copies`); None when they turn out not to be separate
+    molecules (the caller then reads the whole file)."""
+    from dataclasses import replace
+
+    from openmm import app
+
+    from energy.io.repeated_molecules import full_topology
+    from energy.model.copies import NotSeparateMolecule, with_copies
     topology = prepared.topology
     if ff.getUnmatchedResidues(topology):
         raise _unmatched_error(path, ff, topology, options, label, gaps=prepared.record.gaps)
@@ -204,4 +222,31 @@ def load_builtin_prepared(path: str, options, force_field=DEFAULT_FORCE_FIELD):
                                   f"{_clean_openmm_message(exc)}") from None
     system = system_from_openmm(omm_system, topology, _atom_types(ff, topology),
                                 force_field=label, source_files=(path, *options.forcefield_files))
-    return system, Frame(prepared.positions, _box_from_topology(topology), 0, path), topology, prepared
+    box = _box_from_topology(topology)
+    split = prepared.split
+    if split is None:
+        return system, Frame(prepared.positions, box, 0, path), topology, prepared
+    if topology.getNumAtoms() != len(split.kept):
+        return None
+    try:
+        system, sources = with_copies(system, split.kept, split.groups)
+    except NotSeparateMolecule:
+        return None
+    whole = replace(prepared, positions=split.positions, models=split.positions[None],
+                    topology=_LazyTopology(lambda: full_topology(topology, sources, split.groups, split.chain_starts)))
+    return system, Frame(split.positions, box, 0, path), whole.topology, whole
+
+
+class _LazyTopology:
+    """The whole file's OpenMM topology, built the first time it is used (writing the prepared
+    structure, the alanine scan): a scan of a solvated box never needs it."""
+
+    def __init__(self, build):
+        self._build, self._topology = build, None
+
+    def __getattr__(self, name):  # called only for names the proxy itself does not have
+        if name in ("_build", "_topology"):
+            raise AttributeError(name)
+        if self._topology is None:
+            self._topology = self._build()
+        return getattr(self._topology, name)

@@ -36,6 +36,7 @@ from energy.io.repair import (
     remove_virtual_sites,
     repair,
 )
+from energy.io.repeated_molecules import split_repeated
 from energy.io.residue_messages import grouped_listing, is_four_site_water, residue_label
 from energy.io.structure_text import (
     PDBX_SUFFIXES,
@@ -215,25 +216,33 @@ class PreparedStructure:
     force_field_label: str
     models: np.ndarray | None = None
     read_seconds: float = 0.0
+    #: The repeated waters and ions taken out before OpenMM read the file
+    #: (:class:`energy.io.repeated_molecules.SplitStructure`), or None.
+    split: object = None
 
 
 # ------------------------------------------------------------------------------------------
 # parsing
 # ------------------------------------------------------------------------------------------
 
-def _parse(path: str, record: PreparationRecord):
-    """OpenMM topology and every model's positions (n_models, n_atoms, 3) A of ``path``."""
+def _parse(path: str, record: PreparationRecord, split_solvent: bool = False):
+    """OpenMM topology and every model's positions (n_models, n_atoms, 3) A of ``path``, the text,
+    whether it is mmCIF, and the repeated waters and ions taken out of it (``split_solvent``, PDB
+    only; :mod:`energy.io.repeated_molecules`) or None."""
     from openmm import app, unit
     text = read_structure_text(path)
     pdbx = structure_suffix(path) in PDBX_SUFFIXES
+    split = None
     if pdbx:
         text, choices = choose_altlocs_pdbx(text)
     else:
         text = check_pdb_records(text, path)
         text, choices = choose_altlocs_pdb(text)
+        split = split_repeated(text) if split_solvent else None
     record.altlocs = [c.as_dict() for c in choices]
+    read_text = text if split is None else split.text
     try:
-        structure = app.PDBxFile(io.StringIO(text)) if pdbx else app.PDBFile(io.StringIO(text))
+        structure = app.PDBxFile(io.StringIO(read_text)) if pdbx else app.PDBFile(io.StringIO(read_text))
     except Exception as exc:  # OpenMM raises bare Exceptions/ValueErrors on malformed files
         raise StructureFileError(path, f"could not read the structure ({_one_line(exc)})") from None
     n = structure.topology.getNumAtoms()
@@ -248,7 +257,7 @@ def _parse(path: str, record: PreparationRecord):
                                        "every model must list the same atoms")
     models = np.array(frames, dtype=np.float64)
     record.n_models = len(models)
-    return structure.topology, models, text, pdbx
+    return structure.topology, models, text, pdbx, split
 
 
 def _one_line(exc: Exception) -> str:
@@ -341,7 +350,8 @@ def unmatched_as_they_are(topology, force_field):
             if r.name not in with_hydrogens or is_four_site_water(r)]
 
 
-def prepare_structure(path: str, options: PreparationOptions, force_field, force_field_label: str):
+def prepare_structure(path: str, options: PreparationOptions, force_field, force_field_label: str,
+                      split_solvent: bool = False):
     """Run the steps of the module docstring on ``path``.
 
     Parameters
@@ -354,10 +364,15 @@ def prepare_structure(path: str, options: PreparationOptions, force_field, force
         Force field whose templates the residues must match.
     force_field_label : str
         How the force field is named (kept in the result).
+    split_solvent : bool
+        Take the repeated waters and ions of a PDB out before OpenMM reads it
+        (:mod:`energy.io.repeated_molecules`; only when no step changes atoms).
 
     Returns
     -------
     PreparedStructure
+        With ``split`` set when the solvent was taken out: the topology and positions are then
+        those of the solute and one representative per kind.
 
     Raises
     ------
@@ -371,7 +386,7 @@ def prepare_structure(path: str, options: PreparationOptions, force_field, force
     import time
     t0 = time.perf_counter()
     record = PreparationRecord(options)
-    topology, models, text, pdbx = _parse(path, record)
+    topology, models, text, pdbx, split = _parse(path, record, split_solvent and not options.changes_atoms)
     read_seconds = time.perf_counter() - t0
     original_keys = {_atom_key(a): a.index for a in topology.atoms()}
     file_keys = set(original_keys)
@@ -407,7 +422,7 @@ def prepare_structure(path: str, options: PreparationOptions, force_field, force
     if mapped is not None:
         positions = mapped[0]  # every atom is the file's: its own numbers, without unit round trips
     return PreparedStructure(topology, positions, record, force_field, force_field_label, mapped,
-                             read_seconds)
+                             read_seconds, split)
 
 
 def prepared_pdb_text(topology, positions) -> str:
