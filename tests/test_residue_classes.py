@@ -120,3 +120,10 @@ def test_scan_of_a_solvated_box_lists_solvent_as_blocks(tmp_path):
     with open(tmp_path / "csv" / "residue_pairs.csv") as fh:
         rows = list(csv.DictReader(fh))
     assert any(r["label_j"].startswith("Water (") and r["j"] == "" for r in rows)
+    with open(tmp_path / "csv" / "residues.csv") as fh:
+        residue_rows = list(csv.DictReader(fh))
+    solute_count = len(classes) - len(solvent)
+    assert len(residue_rows) == solute_count + len(b["blocks"])  # solute residues, then one row per block
+    assert [r["resname"] for r in residue_rows[solute_count:]] == [blk["label"] for blk in b["blocks"]]
+    for t in ("coulomb", "lj", "total"):  # per-row halves of the pairs sum to the totals (6-decimal rounding)
+        assert sum(float(r[t]) for r in residue_rows) == pytest.approx(f["totals"][t], abs=1e-6 * len(residue_rows))

@@ -28,6 +28,7 @@ import numpy as np
 
 from energy.errors import StructureFileError
 from energy.io.numbers import parse_float
+from energy.io.pdb_columns import coordinate_records_plain
 from energy.io.validation import check_cell
 
 #: Coordinates of a text file may reach this magnitude before the geometry checks judge them.
@@ -66,6 +67,9 @@ def _compare_models(path, first, model, number, lineno) -> None:
 
 
 def _check_pdb(path, lines) -> None:
+    if not any(ln.startswith("MODEL") for ln in lines) and coordinate_records_plain(lines):
+        _check_cryst1(path, lines)  # every coordinate plainly written: nothing to name line by line
+        return
     models: list[list[str]] = []
     current: list[str] | None = None
     for lineno, line in enumerate(lines, 1):
@@ -94,12 +98,22 @@ def _check_pdb(path, lines) -> None:
                 _field(path, lineno, line[lo:lo + 8], f"{record.strip()} {axis} coordinate (columns "
                                                       f"{lo + 1}-{lo + 8})")
         elif record == "CRYST1":
-            fields = (("a", 6, 15), ("b", 15, 24), ("c", 24, 33), ("alpha", 33, 40), ("beta", 40, 47),
-                      ("gamma", 47, 54))
-            values = [_field(path, lineno, line[lo:hi], f"CRYST1 {name} (columns {lo + 1}-{hi})")
-                      for name, lo, hi in fields if line[lo:hi].strip()]
-            if len(values) == 6:
-                check_cell(values, f"{path}:{lineno}")
+            _check_cryst1_line(path, lineno, line)
+
+
+def _check_cryst1_line(path, lineno, line) -> None:
+    fields = (("a", 6, 15), ("b", 15, 24), ("c", 24, 33), ("alpha", 33, 40), ("beta", 40, 47),
+              ("gamma", 47, 54))
+    values = [_field(path, lineno, line[lo:hi], f"CRYST1 {name} (columns {lo + 1}-{hi})")
+              for name, lo, hi in fields if line[lo:hi].strip()]
+    if len(values) == 6:
+        check_cell(values, f"{path}:{lineno}")
+
+
+def _check_cryst1(path, lines) -> None:
+    for lineno, line in enumerate(lines, 1):
+        if line.startswith("CRYST1"):
+            _check_cryst1_line(path, lineno, line)
 
 
 def _check_crd(path, lines):

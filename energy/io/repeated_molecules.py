@@ -5,8 +5,8 @@ protein and 32,715 waters.  Handing all of it to OpenMM's PDB reader and ``creat
 seconds per ten thousand waters, and every water gets the same parameters.  So the built-in
 route (:mod:`energy.io.builtin`) splits the text first (:func:`split_repeated`):
 
-* ATOM/HETATM records are read by columns with numpy (:class:`AtomColumns`): names, residue
-  fields, coordinates;
+* ATOM/HETATM records are read by columns with numpy
+  (:class:`energy.io.pdb_columns.AtomColumns`): names, residue fields, coordinates;
 * residues of the water and ion classes (:mod:`energy.model.residue_classes`) that are single
   molecules (no CONECT record names their atoms, no alternate location, unique atom names) are
   grouped by their residue name, atom names and elements;
@@ -24,90 +24,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from energy.io.pdb_columns import atom_columns, record_names
 from energy.model.copies import CopyGroup
 from energy.model.residue_classes import SOLVENT_CLASSES, residue_class
 
 #: Below this many copies in all, splitting the text saves nothing worth its bookkeeping.
 MIN_COPIES = 50
-_WIDTH = 80
-
-
-@dataclass(frozen=True)
-class AtomColumns:
-    """ATOM/HETATM records of PDB text as columns (all arrays have one row per record).
-
-    ``line``: (n,) intp line index in the text.  ``names``, ``resnames`` (4 characters, as
-    OpenMM reads them), ``chains``, ``resseq``, ``icodes``, ``elements``, ``serials``: (n,) str,
-    stripped.  ``altloc``: (n,) bool, an alternate-location label is set.  ``positions``: (n, 3)
-    float64 A, or None when a coordinate field is not a plain decimal number (the strict checks
-    of :mod:`energy.io.structure_text` name it).
-    """
-
-    line: np.ndarray
-    names: np.ndarray
-    resnames: np.ndarray
-    chains: np.ndarray
-    resseq: np.ndarray
-    icodes: np.ndarray
-    elements: np.ndarray
-    serials: np.ndarray
-    altloc: np.ndarray
-    positions: np.ndarray | None
-
-
-def _text_column(matrix, lo: int, hi: int) -> np.ndarray:
-    block = np.ascontiguousarray(matrix[:, lo:hi])
-    return np.char.strip(block.view(f"S{hi - lo}").ravel().astype(f"U{hi - lo}"))
-
-
-_DIGIT = np.zeros(256, bool)
-_DIGIT[ord("0"):ord("9") + 1] = True
-
-
-def _plain_decimals(field: np.ndarray) -> np.ndarray:
-    """(n,) bool: each row of ``field`` (n, w) uint8 is spaces, then an optional sign, then digits
-    with at most one decimal point and at least one digit, and nothing after."""
-    space = field == ord(" ")
-    body = ~space
-    has_body = body.any(axis=1)
-    start = np.argmax(body, axis=1)
-    columns = np.arange(field.shape[1])[None, :]
-    after_start = columns >= start[:, None]
-    leading_ok = ~(body & ~after_start).any(axis=1)               # only spaces before the number
-    no_gap = ~(space & after_start).any(axis=1)                    # no space inside or after it
-    sign = (field == ord("-")) | (field == ord("+"))
-    sign_ok = ~(sign & (columns != start[:, None])).any(axis=1)    # a sign only in front
-    digit = _DIGIT[field]
-    dot = field == ord(".")
-    allowed = ~(body & ~(digit | dot | sign)).any(axis=1)
-    return has_body & leading_ok & no_gap & sign_ok & allowed & (dot.sum(axis=1) <= 1) & digit.any(axis=1)
-
-
-def atom_columns(lines: list[str]) -> AtomColumns:
-    """Read the ATOM/HETATM records among ``lines`` by their fixed columns.
-
-    Parameters
-    ----------
-    lines : list of str
-        PDB text split into lines.
-
-    Returns
-    -------
-    AtomColumns
-    """
-    index = np.array([k for k, ln in enumerate(lines) if ln.startswith(("ATOM  ", "HETATM"))], np.intp)
-    body = "".join(lines[k].rstrip("\r\n")[:_WIDTH].ljust(_WIDTH) for k in index)
-    matrix = np.frombuffer(body.encode("latin-1", "replace"), np.uint8).reshape(len(index), _WIDTH)
-    fields = matrix[:, 30:54].reshape(len(index), 3, 8)
-    positions = None
-    if all(_plain_decimals(fields[:, axis]).all() for axis in range(3)):
-        positions = np.ascontiguousarray(fields).view("S8").reshape(-1, 3).astype(np.float64)
-    resnames = _text_column(matrix, 17, 21)
-    return AtomColumns(line=index, names=_text_column(matrix, 12, 16), resnames=resnames,
-                       chains=_text_column(matrix, 21, 22), resseq=_text_column(matrix, 22, 26),
-                       icodes=_text_column(matrix, 26, 27), elements=_text_column(matrix, 76, 78),
-                       serials=_text_column(matrix, 6, 11), altloc=matrix[:, 16] != ord(" "),
-                       positions=positions)
 
 
 def _residue_number(text: str) -> int | None:
@@ -161,6 +83,43 @@ def _conect_serials(lines) -> set:
     return serials
 
 
+#: Largest molecule taken out as a copy (atoms): waters have 3 to 5, ions 1.
+MAX_COPY_ATOMS = 8
+
+
+def _kinds(cols, starts, ends, lines):
+    """Residues grouped by kind: a dict (resname, atom names, elements) -> residue indices, for
+    the single-molecule waters and ions (module docstring)."""
+    sizes = ends - starts
+    names = cols.resnames[starts]
+    unique_names, name_index = np.unique(names, return_inverse=True)
+    solvent = np.array([residue_class(nm) in SOLVENT_CLASSES for nm in unique_names], bool)[name_index]
+    candidate = solvent & (sizes <= MAX_COPY_ATOMS)
+    candidate &= ~np.logical_or.reduceat(cols.altloc, starts)
+    linked = _conect_serials(lines)
+    if linked:
+        candidate &= ~np.logical_or.reduceat(np.isin(cols.serials, list(linked)), starts)
+    kinds = {}
+    for size in np.unique(sizes[candidate]):
+        residues = np.flatnonzero(candidate & (sizes == size))
+        atoms = starts[residues][:, None] + np.arange(size)[None, :]
+        atom_names, elements = cols.names[atoms], cols.elements[atoms]
+        distinct = np.ones(len(residues), bool)   # a residue with a repeated atom name is no copy
+        for a in range(size):
+            for b in range(a + 1, size):
+                distinct &= atom_names[:, a] != atom_names[:, b]
+        label = cols.resnames[starts[residues]].astype(object)
+        for a in range(size):
+            label = label + "|" + atom_names[:, a].astype(object) + "/" + elements[:, a].astype(object)
+        label = np.where(distinct, label, None)
+        for value in set(label[distinct].tolist()):
+            members = residues[label == value]
+            if len(members) > 1:
+                resname, *fields = value.split("|")
+                kinds[(resname, tuple(f.split("/")[0] for f in fields))] = members
+    return kinds
+
+
 def split_repeated(text: str) -> SplitStructure | None:
     """Take the repeated waters and ions out of PDB ``text`` (see the module docstring).
 
@@ -176,16 +135,18 @@ def split_repeated(text: str) -> SplitStructure | None:
         residue numbers OpenMM would have to invent, or fewer than :data:`MIN_COPIES` copies.
     """
     lines = text.splitlines(keepends=True)
-    if sum(ln.startswith("MODEL ") for ln in lines) > 1:
+    records = record_names(lines)
+    if np.count_nonzero(records == "MODEL ") > 1:
         return None
-    cols = atom_columns(lines)
+    cols = atom_columns(lines, records)
     n = len(cols.line)
     if n == 0 or cols.positions is None:
         return None
     # residues as OpenMM forms them: a new one where name, chain, number or insertion code change,
     # or after a TER record
     ter = np.zeros(len(lines) + 1, np.intp)
-    ter[1:] = np.cumsum([ln.startswith("TER") for ln in lines])
+    is_ter = np.char.startswith(records, "TER")
+    ter[1:] = np.cumsum(is_ter)
     key = np.char.add(np.char.add(cols.resnames, "|" + cols.chains), np.char.add("|" + cols.resseq, "|" + cols.icodes))
     new = np.ones(n, bool)
     new[1:] = (key[1:] != key[:-1]) | (ter[cols.line[1:]] != ter[cols.line[:-1]])
@@ -195,65 +156,40 @@ def split_repeated(text: str) -> SplitStructure | None:
     previous, current = starts[1:] - 1, starts[1:]
     chain_starts[1:] = (cols.chains[current] != cols.chains[previous]) | \
         (ter[cols.line[current]] != ter[cols.line[previous]])
-    class_of: dict = {}
-    linked = _conect_serials(lines)
-    kinds: dict = {}
-    for r, (a, b) in enumerate(zip(starts, ends)):
-        name = cols.resnames[a]
-        cls = class_of.get(name)
-        if cls is None:
-            cls = class_of[name] = residue_class(name)
-        if cls not in SOLVENT_CLASSES or cols.altloc[a:b].any():
-            continue
-        names = tuple(cols.names[a:b])
-        if len(set(names)) != len(names) or (linked and linked.intersection(cols.serials[a:b])):
-            continue
-        kinds.setdefault((name, names, tuple(cols.elements[a:b])), []).append(r)
-    kinds = {k: v for k, v in kinds.items() if len(v) > 1}
+    kinds = _kinds(cols, starts, ends, [lines[k] for k in np.flatnonzero(records == "CONECT")])
     if sum(len(v) - 1 for v in kinds.values()) < MIN_COPIES:
         return None
-    copy_residues = np.concatenate([np.array(v[1:], np.intp) for v in kinds.values()])
-    numbers = {}
-    for r in copy_residues:
-        text_number = cols.resseq[starts[r]]
-        if text_number not in numbers:
-            numbers[text_number] = _residue_number(text_number)
-        if numbers[text_number] is None:
-            return None
-    is_copy = np.zeros(n, bool)
-    for r in copy_residues:
-        is_copy[starts[r]:ends[r]] = True
+    copy_residues = np.concatenate([v[1:] for v in kinds.values()])
+    texts = np.unique(cols.resseq[starts[copy_residues]])
+    numbers = {t: _residue_number(t) for t in texts.tolist()}
+    if None in numbers.values():
+        return None
+    is_copy_residue = np.zeros(len(starts), bool)
+    is_copy_residue[copy_residues] = True
+    is_copy = np.repeat(is_copy_residue, ends - starts)
     kept = np.flatnonzero(~is_copy)
-    raw_chain = np.array([lines[k][21:22] or " " for k in cols.line], dtype=object)
     kept_position = np.full(n, -1, np.intp)
     kept_position[kept] = np.arange(len(kept))
+    raw_chain = np.array([lines[k][21:22] or " " for k in cols.line[starts[copy_residues]]], dtype=object)
+    chain_of = dict(zip(copy_residues.tolist(), raw_chain))
     groups = []
     for residues in kinds.values():
         rep = residues[0]
-        k = ends[rep] - starts[rep]
-        copies = np.array(residues[1:], np.intp)
-        atoms = starts[copies][:, None] + np.arange(k)[None, :]
+        copies = residues[1:]
+        atoms = starts[copies][:, None] + np.arange(ends[rep] - starts[rep])[None, :]
         groups.append(CopyGroup(representative=kept_position[starts[rep]:ends[rep]], atoms=atoms,
-                                chain=raw_chain[starts[copies]],
-                                resid=np.array([numbers[cols.resseq[starts[c]]] for c in copies], np.int64)))
-    # the text OpenMM reads: every line but the copies' records (and a TER right after a copy)
-    drop = np.zeros(len(lines), bool)
-    drop[cols.line[is_copy]] = True
-    last_atom_is_copy = False
+                                chain=np.array([chain_of[c] for c in copies.tolist()], dtype=object),
+                                resid=np.array([numbers[t] for t in cols.resseq[starts[copies]].tolist()],
+                                               np.int64)))
+    # the text OpenMM reads: every line but the copies' records (and a TER or ANISOU right after one)
     atom_at = np.full(len(lines), -1, np.intp)
     atom_at[cols.line] = np.arange(n)
-    out = []
-    for k, ln in enumerate(lines):
-        a = atom_at[k]
-        if a >= 0:
-            last_atom_is_copy = bool(is_copy[a])
-            if not drop[k]:
-                out.append(ln)
-        elif ln.startswith("TER") and last_atom_is_copy:
-            continue
-        elif not (ln.startswith("ANISOU") and last_atom_is_copy):
-            out.append(ln)
-    return SplitStructure("".join(out), kept, tuple(groups), cols.positions, chain_starts)
+    last_atom = np.maximum.accumulate(np.where(atom_at >= 0, atom_at, -1))
+    after_copy = (last_atom >= 0) & is_copy[np.maximum(last_atom, 0)]
+    keep = ~((is_ter | (records == "ANISOU")) & after_copy)
+    keep[cols.line] = ~is_copy
+    out = "".join([lines[k] for k in np.flatnonzero(keep)])
+    return SplitStructure(out, kept, tuple(groups), cols.positions, chain_starts)
 
 
 def full_topology(reduced, sources, groups, chain_starts):
@@ -311,4 +247,4 @@ def full_topology(reduced, sources, groups, chain_starts):
     return top
 
 
-__all__ = ["AtomColumns", "MIN_COPIES", "SplitStructure", "atom_columns", "full_topology", "split_repeated"]
+__all__ = ["MIN_COPIES", "SplitStructure", "full_topology", "split_repeated"]

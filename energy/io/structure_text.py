@@ -17,6 +17,7 @@ import shlex
 from dataclasses import dataclass
 
 from energy.errors import StructureFileError
+from energy.io.pdb_columns import coordinate_records_plain
 
 PDBX_SUFFIXES = (".cif", ".mmcif", ".pdbx")
 
@@ -97,6 +98,8 @@ def check_pdb_records(text: str, path) -> str:
         With the file and the 1-based line of the first malformed record.
     """
     lines = text.splitlines(keepends=True)
+    if not any(ln.startswith("MODEL") for ln in lines) and coordinate_records_plain(lines):
+        return text  # every record plainly written (checked by columns, all at once)
     for number, line in enumerate(lines, start=1):
         record = line[:6]
         if record == "MODEL " or line.rstrip() == "MODEL":

@@ -5,7 +5,9 @@
   block (``residue`` = its index), a block with itself (``residue`` null, ``other_block`` equal
   to ``block``: the solvent-solvent energy) or the water-ion pair.
 * CSV: ``residue_pairs.csv`` lists solute pairs and block entries; a block's ``i``/``j`` is
-  empty and its label is the block's (``Water (4,611)``).
+  empty and its label is the block's (``Water (4,611)``).  ``residues.csv`` lists the solute
+  residues and then one row per block (``index``, ``chain``, ``resid`` and ``icode`` empty,
+  ``resname`` the block's label).
 """
 from __future__ import annotations
 
@@ -74,6 +76,40 @@ def block_records(blocked, classes) -> tuple[list, list]:
                     **{t: float(rp.values[t][k]) for t in TERMS}, "total": float(total[k]),
                     "min_heavy_distance": d if np.isfinite(d) else None})
     return blocks, out
+
+
+def blocked_residue_csv(system, blocked) -> str:
+    """``residues.csv`` of a blocked table: per-row totals of the solute residues, then the blocks.
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The full system (residue labels and classes).
+    blocked : BlockedPairs
+        The table over solute residues and solvent blocks.
+
+    Returns
+    -------
+    str
+        CSV text with the columns of :func:`energy.output.report.residue_table_csv`; a block's
+        ``index``, ``chain``, ``resid`` and ``icode`` are empty, its ``resname`` is its label.
+        Values are half of each off-diagonal entry and all of the diagonal (kcal/mol, 6 decimals),
+        so the rows sum to the totals.
+    """
+    rp = blocked.pairs
+    per = {t: rp.per_residue(t) for t in (*TERMS, "total")}
+    out = io.StringIO()
+    w = csv.writer(out)
+    w.writerow(["index", "chain", "resid", "icode", "resname", "class", *TERMS, "total"])
+    r, classes = system.residues, system.residue_classes
+    for row in range(len(blocked.labels)):
+        first = int(blocked.members[row][0])
+        if row < blocked.n_solute:
+            head = [first, r.chain[first], int(r.resid[first]), r.icode[first], r.resname[first]]
+        else:
+            head = ["", "", "", "", blocked.labels[row]]
+        w.writerow([*head, classes[first], *(f"{per[t][row]:.6f}" for t in (*TERMS, "total"))])
+    return out.getvalue()
 
 
 def blocked_pair_csv(blocked) -> str:

@@ -13,7 +13,7 @@ import os
 import numpy as np
 
 from energy.errors import NonFiniteEnergyError
-from energy.output.blocked import blocked_pair_csv
+from energy.output.blocked import blocked_pair_csv, blocked_residue_csv
 from energy.output.files import atomic_open, atomic_write_text
 from energy.output.header import document_header
 from energy.terms.registry import TERMS, TermNames
@@ -386,8 +386,9 @@ def write_csv_dir(folder, system, result, blocked=None) -> list[str]:
     result : EnergyResult
         Its evaluation.
     blocked : BlockedPairs or None, optional
-        Solvent as blocks: the pair table then lists solute pairs and block entries
-        (:func:`energy.output.blocked.blocked_pair_csv`).
+        Solvent as blocks: the residue table then lists solute residues and blocks, the pair table
+        solute pairs and block entries (:func:`energy.output.blocked.blocked_residue_csv`,
+        :func:`energy.output.blocked.blocked_pair_csv`).
 
     Returns
     -------
@@ -398,8 +399,12 @@ def write_csv_dir(folder, system, result, blocked=None) -> list[str]:
     folder = os.fspath(folder)
     os.makedirs(folder, exist_ok=True)
     paths = [os.path.join(folder, "residues.csv"), os.path.join(folder, "residue_pairs.csv")]
-    atomic_write_text(paths[0], residue_table_csv(system, result))
-    atomic_write_text(paths[1], pair_table_csv(system, result) if blocked is None else blocked_pair_csv(blocked))
+    if blocked is None:
+        atomic_write_text(paths[0], residue_table_csv(system, result))
+        atomic_write_text(paths[1], pair_table_csv(system, result))
+    else:
+        atomic_write_text(paths[0], blocked_residue_csv(system, blocked))
+        atomic_write_text(paths[1], blocked_pair_csv(blocked))
     return paths
 
 
