@@ -168,7 +168,7 @@ def test_alternate_locations_highest_occupancy_then_first_label():
     (occupancies A 0.45, B 0.55 in the file) keeps B, every other one A (A >= B in the file); the
     kept atoms carry the file's coordinates of the chosen label."""
     record = PreparationRecord(PreparationOptions())
-    topology, models, _, _ = _parse(CYTOCHROME_19HC_GZ, record)
+    topology, models, _, _, _ = _parse(CYTOCHROME_19HC_GZ, record)
     chosen = {a["residue"]: a["chosen"] for a in record.altlocs}
     assert len(chosen) == 14 and chosen.pop("B:GLU191") == "B" and set(chosen.values()) == {"A"}
     glu = next(a for a in record.altlocs if a["residue"] == "B:GLU191")

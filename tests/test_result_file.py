@@ -205,3 +205,22 @@ def test_cli_overlaps_result_holds_the_ranked_list(tmp_path):
     stored = results.load(out)
     assert stored.kind == "overlaps" and len(stored.overlaps["atom_i"]) == len(ai)
     assert json.loads(stored.overlaps["options"])["overlap"] == doc["settings"]["overlap"]
+
+
+def test_a_mostly_zero_column_stores_only_its_non_zero_chunks(tmp_path):
+    """A column of zeros except in one chunk: that chunk alone is stored, and plain h5py reads
+    the whole column back exactly (the other chunks come back as the fill value, 0: HDF5's own
+    rule for chunks never written)."""
+    from energy.output.result_file import CHUNK_ROWS, _column
+    values = np.zeros(5 * CHUNK_ROWS + 17)
+    values[2 * CHUNK_ROWS + 5] = -3.25
+    values[2 * CHUNK_ROWS + 100] = 1e-300
+    path = tmp_path / "column.h5"
+    with h5py.File(path, "w") as fh:
+        _column(fh, "bond", values)
+        _column(fh, "empty", np.zeros(3 * CHUNK_ROWS))
+    with h5py.File(path, "r") as fh:
+        np.testing.assert_array_equal(fh["bond"][()], values)
+        np.testing.assert_array_equal(fh["empty"][()], np.zeros(3 * CHUNK_ROWS))
+        assert fh["bond"].id.get_num_chunks() == 1
+        assert fh["empty"].id.get_num_chunks() == 0

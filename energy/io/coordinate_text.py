@@ -28,7 +28,7 @@ import numpy as np
 
 from energy.errors import StructureFileError
 from energy.io.numbers import parse_float
-from energy.io.pdb_columns import coordinate_records_plain
+from energy.io.pdb_columns import text_records_plain
 from energy.io.validation import check_cell
 
 #: Coordinates of a text file may reach this magnitude before the geometry checks judge them.
@@ -38,11 +38,11 @@ _CIF_CELL = {"_cell.length_a", "_cell.length_b", "_cell.length_c", "_cell.angle_
              "_cell.angle_beta", "_cell.angle_gamma"}
 
 
-def _lines(path):
+def _text(path) -> str:
     opener = gzip.open if os.fspath(path).lower().endswith(".gz") else open
     try:
         with opener(path, "rt", encoding="utf-8", errors="replace") as handle:
-            return handle.read().splitlines()
+            return handle.read()
     except (OSError, EOFError) as exc:
         raise StructureFileError(path, f"cannot read coordinates: {getattr(exc, 'strerror', None) or exc}") from None
 
@@ -66,8 +66,8 @@ def _compare_models(path, first, model, number, lineno) -> None:
                                            f"{b.strip()!r} instead of {a.strip()!r}", lineno)
 
 
-def _check_pdb(path, lines) -> None:
-    if not any(ln.startswith("MODEL") for ln in lines) and coordinate_records_plain(lines):
+def _check_pdb(path, lines, text) -> None:
+    if text_records_plain(text):
         _check_cryst1(path, lines)  # every coordinate plainly written: nothing to name line by line
         return
     models: list[list[str]] = []
@@ -116,7 +116,7 @@ def _check_cryst1(path, lines) -> None:
             _check_cryst1_line(path, lineno, line)
 
 
-def _check_crd(path, lines):
+def _check_crd(path, lines, text):
     """The coordinates of a CHARMM CRD file, (n, 3) float64, parsed strictly."""
     i = 0
     while i < len(lines) and lines[i].lstrip().startswith("*"):
@@ -137,7 +137,7 @@ def _check_crd(path, lines):
 CIF_MAX_LINE = 2048
 
 
-def _check_cif(path, lines) -> None:
+def _check_cif(path, lines, text) -> None:
     for lineno, line in enumerate(lines, 1):
         if len(line) > CIF_MAX_LINE:
             raise StructureFileError(path, f"line of {len(line)} characters: CIF lines are at most "
@@ -195,7 +195,8 @@ def check_coordinate_text(path):
     checker = {"pdb": _check_pdb, "ent": _check_pdb, "crd": _check_crd, "cor": _check_crd,
                "cif": _check_cif, "mmcif": _check_cif, "pdbx": _check_cif}.get(suffix)
     if checker is not None:
-        return checker(path, _lines(path))
+        text = _text(path)
+        return checker(path, text.splitlines(), text)
     return None
 
 

@@ -8,6 +8,7 @@ and coordinates from :func:`atom_columns`.
 """
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 
 import numpy as np
@@ -155,6 +156,27 @@ def coordinate_records_plain(lines: list[str]) -> bool:
                 and (blank | plain_decimals(occupancy)).all())
 
 
+@functools.lru_cache(maxsize=2)
+def text_records_plain(text: str) -> bool:
+    """:func:`coordinate_records_plain` of a whole single-model PDB text, kept for the last two
+    texts (the strict coordinate check and the record check read the same file one after the
+    other).
+
+    Parameters
+    ----------
+    text : str
+        PDB text.
+
+    Returns
+    -------
+    bool
+        False for a text with MODEL records (those are compared line by line) or with any record
+        that is not plainly written.
+    """
+    lines = text.splitlines()
+    return not any(ln.startswith("MODEL") for ln in lines) and coordinate_records_plain(lines)
+
+
 def atom_columns(lines: list[str], records: np.ndarray | None = None) -> AtomColumns:
     """Read the ATOM/HETATM records among ``lines`` by their fixed columns.
 
@@ -184,4 +206,4 @@ def atom_columns(lines: list[str], records: np.ndarray | None = None) -> AtomCol
 
 
 __all__ = ["AtomColumns", "RECORD_WIDTH", "atom_columns", "coordinate_records_plain", "plain_decimals",
-           "atom_record_lines", "record_matrix", "record_names"]
+           "atom_record_lines", "record_matrix", "record_names", "text_records_plain"]

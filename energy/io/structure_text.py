@@ -17,7 +17,7 @@ import shlex
 from dataclasses import dataclass
 
 from energy.errors import StructureFileError
-from energy.io.pdb_columns import coordinate_records_plain
+from energy.io.pdb_columns import text_records_plain
 
 PDBX_SUFFIXES = (".cif", ".mmcif", ".pdbx")
 
@@ -97,9 +97,9 @@ def check_pdb_records(text: str, path) -> str:
     StructureFileError
         With the file and the 1-based line of the first malformed record.
     """
-    lines = text.splitlines(keepends=True)
-    if not any(ln.startswith("MODEL") for ln in lines) and coordinate_records_plain(lines):
+    if text_records_plain(text):
         return text  # every record plainly written (checked by columns, all at once)
+    lines = text.splitlines(keepends=True)
     for number, line in enumerate(lines, start=1):
         record = line[:6]
         if record == "MODEL " or line.rstrip() == "MODEL":

@@ -174,8 +174,22 @@ def _column(group, name: str, values, dtype=None) -> None:
         return
     if len(arr) >= 1024:
         chunks = (min(CHUNK_ROWS, len(arr)),) + arr.shape[1:]
-        dense_float = arr.dtype.kind == "f" and np.count_nonzero(arr) > MOSTLY_ZERO * arr.size
-        group.create_dataset(name, data=arr, chunks=chunks, **({} if dense_float else _COMPRESSION))
+        nonzero = np.count_nonzero(arr)
+        if arr.dtype.kind == "f" and nonzero > MOSTLY_ZERO * arr.size:
+            group.create_dataset(name, data=arr, chunks=chunks)
+        elif arr.dtype.kind == "f":
+            # Mostly zeros (a bonded or solvation term over every pair): only the chunks holding a
+            # non-zero value are written; the others are never stored, and HDF5 reads them as
+            # the dataset's fill value, 0.
+            ds = group.create_dataset(name, shape=arr.shape, dtype=arr.dtype, chunks=chunks, fillvalue=0.0,
+                                      **_COMPRESSION)
+            if nonzero:
+                for lo in range(0, len(arr), chunks[0]):
+                    block = arr[lo:lo + chunks[0]]
+                    if block.any():
+                        ds[lo:lo + len(block)] = block
+        else:
+            group.create_dataset(name, data=arr, chunks=chunks, **_COMPRESSION)
     else:
         group.create_dataset(name, data=arr)
 
