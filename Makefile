@@ -55,6 +55,7 @@ bench: $(STAMP)
 	QT_QPA_PLATFORM=offscreen $(PY) benchmarks/trajectory_bench.py
 	$(PY) benchmarks/result_file_bench.py
 	QT_QPA_PLATFORM=offscreen $(PY) benchmarks/window_bench.py
+	$(PY) benchmarks/scan_process_bench.py
 	$(PY) benchmarks/gb_bench.py
 	$(PY) benchmarks/hotspots_bench.py
 

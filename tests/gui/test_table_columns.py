@@ -77,3 +77,31 @@ def test_compare_ledger_change_size_is_neutral_and_closest_empty_for_a_residue_i
     assert rows and all(single.data(single.index(r, closest)) == "" for r in rows)
     other = next(r for r in range(single.rowCount()) if single.pair_of_row(r)[0] != single.pair_of_row(r)[1])
     assert single.data(single.index(other, closest)) != ""
+
+
+def test_sizing_on_the_widest_rows_gives_the_widths_of_sizing_on_every_row(qtbot):
+    """The columns sized from the few rows `widest_rows` names are as wide as Qt's own
+    resizeColumnsToContents makes them from every row (the reference: Qt's sizing)."""
+    import numpy as np
+    from PySide6.QtWidgets import QTableView
+
+    from app.gui.models.array_table import ArrayTableModel, Column
+    from app.gui.views.tables import _size_to_contents
+    rng = np.random.default_rng(7)
+    energies = np.concatenate([rng.normal(0, 30, 400), [-99.999, 99.5, -4321.25, 98765.4, 2.5e6, -3e7, np.nan]])
+    labels = np.array([f"A:{'LYS' if k % 3 else 'TRP'}{k}{' ' * (k % 11)}" for k in range(len(energies))],
+                      dtype=object)
+    distances = np.abs(rng.normal(4, 3, len(energies)))
+    distances[5] = np.inf
+    columns = [Column("pair", labels), Column("Coulomb", energies, kind="energy", signed=True),
+               Column("d", distances, kind="distance")]
+    widths = []
+    for size in (_size_to_contents, QTableView.resizeColumnsToContents):
+        table = QTableView()
+        qtbot.addWidget(table)
+        model = ArrayTableModel()
+        model.set_columns(columns, len(energies))
+        table.setModel(model)
+        size(table)
+        widths.append([table.horizontalHeader().sectionSize(c) for c in range(3)])
+    assert widths[0] == widths[1]

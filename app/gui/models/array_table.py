@@ -103,6 +103,32 @@ class ArrayTableModel(QAbstractTableModel):
         energy = [k for k, c in enumerate(self._columns) if c.kind == "energy"]
         return energy[-1] + 1 if energy else len(self._columns)
 
+    def widest_rows(self, column: int) -> list[int]:
+        """View rows whose text in ``column`` is among the widest, found from the arrays (no
+        formatting of every row): per magnitude band of :func:`format_energy` the largest and
+        the most negative value, the largest distance, the longest strings.  Sizing a column on
+        these rows gives the width sizing it on every row would."""
+        if not len(self._rows) or not 0 <= column < len(self._columns):
+            return []
+        c = self._columns[column]
+        values = c.values[self._rows]
+        picks: list[int] = []
+        if c.kind == "text" or values.dtype == object:
+            lengths = np.char.str_len(values.astype(str))
+            picks = np.argsort(lengths, kind="stable")[-3:].tolist()
+        else:
+            v = values.astype(np.float64) * (self._factor if c.kind == "energy" else 1.0)
+            finite = np.isfinite(v)
+            if not finite.all():
+                picks.append(int(np.flatnonzero(~finite)[0]))
+            bands = ((np.abs(v) < 100), (np.abs(v) >= 100) & (np.abs(v) < 1e5), np.abs(v) >= 1e5) \
+                if c.kind == "energy" else (finite,)
+            for band in bands:
+                members = np.flatnonzero(band & finite)
+                if len(members):
+                    picks += [int(members[np.argmax(v[members])]), int(members[np.argmin(v[members])])]
+        return sorted(set(int(p) for p in picks))
+
     def column_of(self, title: str) -> int:
         """Index of the column titled ``title`` (-1 when there is none)."""
         return next((k for k, c in enumerate(self._columns) if c.title == title), -1)
