@@ -87,11 +87,6 @@ class TermBarsView(pg.GraphicsLayoutWidget):
 
     def _redraw_one(self, key) -> None:
         p = self.plots[key]
-        if key in self.bars:
-            p.removeItem(self.bars.pop(key))
-        for t in self.texts[key]:
-            p.removeItem(t)
-        self.texts[key] = []
         entry = self.values[key]
         sub = "" if entry is None else entry[1]
         p.setToolTip(sub)
@@ -101,27 +96,41 @@ class TermBarsView(pg.GraphicsLayoutWidget):
                    + (f"<br><span style='color:#555;font-size:8pt'>{html.escape(sub)}</span>" if sub else ""),
                    size="9pt")
         p.setLabel("bottom", self.unit)
+        texts = self.texts[key]
         if entry is None:
+            if key in self.bars:
+                self.bars[key].setVisible(False)
+            for t in texts:
+                t.setVisible(False)
             p.getAxis("left").setTicks([[]])
             return
         vals = entry[0]
         names = [t for t in (*TERMS, "total") if t in vals and (t in ("coulomb", "lj", "total") or vals[t] != 0)]
         x = np.array([vals[t] for t in names]) * self.factor
         y = np.arange(len(names))
-        brushes = [pg.mkBrush(POS if v > 0 else NEG) for v in x]
-        bars = pg.BarGraphItem(x0=np.minimum(x, 0), width=np.abs(x), y=y, height=0.65, brushes=brushes,
-                               pens=[pg.mkPen("#333")] * len(y))
-        p.addItem(bars)
-        self.bars[key] = bars
+        bar_options = dict(x0=np.minimum(x, 0), width=np.abs(x), y=y, height=0.65,
+                           brushes=[pg.mkBrush(POS if v > 0 else NEG) for v in x], pens=[pg.mkPen("#333")] * len(y))
+        if key in self.bars:  # the items are kept and updated: adding items to a plot is the slow part
+            self.bars[key].setOpts(**bar_options)
+            self.bars[key].setVisible(True)
+        else:
+            self.bars[key] = pg.BarGraphItem(**bar_options)
+            p.addItem(self.bars[key])
         p.getAxis("left").setTicks([[(i, short_label(t)) for i, t in enumerate(names)]])
         lo, hi = min(0.0, float(x.min())), max(0.0, float(x.max()))
         span = (hi - lo) or 1.0
-        for i, v in enumerate(x):
-            anchor = (-0.05, 0.5) if v >= 0 else (1.05, 0.5)
-            t = pg.TextItem(compact(float(v)), color="#111", anchor=anchor)
+        while len(texts) < len(x):
+            texts.append(pg.TextItem("", color="#111"))
+            p.addItem(texts[-1])
+        for i, t in enumerate(texts):
+            if i >= len(x):
+                t.setVisible(False)
+                continue
+            v = float(x[i])
+            t.setAnchor((-0.05, 0.5) if v >= 0 else (1.05, 0.5))
+            t.setText(compact(v))
             t.setPos(v, i)
-            p.addItem(t)
-            self.texts[key].append(t)
+            t.setVisible(True)
         p.setXRange(lo - (0.75 * span if lo < 0 else 0.05 * span),
                     hi + (0.75 * span if hi > 0 else 0.05 * span), padding=0)
         p.setYRange(-0.6, len(y) - 0.4, padding=0)
