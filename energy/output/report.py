@@ -442,8 +442,9 @@ def summary_text(loaded, result, top: int = 8, selection=None, blocked=None) -> 
     if preparation is not None:
         lines += [f"preparation: {line}" for line in preparation.summary_lines()]
     lines += ["", "per-term totals (kcal/mol):"]
+    width = max(len(t) for t in (*TERMS, "total")) + 1
     for t in (*TERMS, "total"):
-        lines.append(f"  {t:<13}{result.totals[t]:>16.4f}")
+        lines.append(f"  {t:<{width}}{result.totals[t]:>16.4f}")
     rp = result.residue_pairs if blocked is None else blocked.pairs
     inter = rp.pair_i != rp.pair_j
     total = rp.total
