@@ -11,6 +11,7 @@ import dataclasses
 
 import numpy as np
 
+from energy._kernels.csr import mapped_pair_keys
 from energy.analysis.pair_statistics import PairStatistics
 from energy.decomposition.pipeline import compute
 from energy.model.settings import EnergySettings
@@ -79,5 +80,7 @@ def prepare_kernels(settings: EnergySettings | None = None) -> None:
         stats.merge(more)
         ones = np.ones(1)
         pair_energies(ones, ones, ones, ones, KernelConstants.from_settings(EnergySettings()).values)
+        for dtype in (np.int32, np.int64):  # solvent blocks: tables computed here and read from files
+            mapped_pair_keys(np.zeros(1, dtype), np.zeros(1, dtype), np.zeros(1, np.intp), 1)
         todo = todo | {"statistics"}
     _prepared |= todo

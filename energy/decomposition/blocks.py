@@ -14,7 +14,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from energy._kernels.pair_key import ordered_pair_keys, split_keys
+from energy._kernels.csr import mapped_pair_keys
+from energy._kernels.pair_key import split_keys
 from energy.decomposition.residue_pairs import ResiduePairEnergies
 from energy.model.residue_classes import SOLVENT_CLASSES
 from energy.terms.registry import TERMS
@@ -96,7 +97,7 @@ def block_residue_pairs(rp: ResiduePairEnergies, classes: np.ndarray, labels) ->
             out_labels.append(f"{BLOCK_NAMES[cls]} ({len(idx):,})")
             members.append(idx)
     m = len(out_labels)
-    keys = ordered_pair_keys(row[rp.pair_i], row[rp.pair_j], m)
+    keys = mapped_pair_keys(rp.pair_i, rp.pair_j, row, m)
     if m * m <= DIRECT_KEY_SPACE:
         # few rows (the usual protein in water): bin straight on the key, no sort of the pairs
         count = np.bincount(keys, minlength=m * m)
