@@ -224,3 +224,20 @@ def test_a_mostly_zero_column_stores_only_its_non_zero_chunks(tmp_path):
         np.testing.assert_array_equal(fh["empty"][()], np.zeros(3 * CHUNK_ROWS))
         assert fh["bond"].id.get_num_chunks() == 1
         assert fh["empty"].id.get_num_chunks() == 0
+
+
+def test_a_table_of_term_columns_stores_only_the_columns_with_values(tmp_path):
+    """A (rows, terms) table (the trajectory statistics) is chunked by column: an all-zero term
+    column costs nothing on disk, and plain h5py reads the table back exactly."""
+    from energy.output.result_file import CHUNK_ROWS, _column
+    rng = np.random.default_rng(3)
+    table = np.zeros((2 * CHUNK_ROWS + 9, 4))
+    table[:, 1] = rng.normal(size=len(table))      # a dense term (Coulomb)
+    table[::7, 2] = 1.5                             # a sparse one spread over every chunk
+    path = tmp_path / "table.h5"
+    with h5py.File(path, "w") as fh:
+        _column(fh, "mean", table)
+    with h5py.File(path, "r") as fh:
+        np.testing.assert_array_equal(fh["mean"][()], table)
+        assert fh["mean"].chunks == (CHUNK_ROWS, 1)
+        assert fh["mean"].id.get_num_chunks() == 2 * 3  # columns 1 and 2, three row stretches each

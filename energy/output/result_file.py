@@ -172,26 +172,39 @@ def _column(group, name: str, values, dtype=None) -> None:
     if arr.dtype == object:
         group.create_dataset(name, data=arr.astype(str).astype(object), dtype=_h5py().string_dtype("utf-8"))
         return
-    if len(arr) >= 1024:
-        chunks = (min(CHUNK_ROWS, len(arr)),) + arr.shape[1:]
-        nonzero = np.count_nonzero(arr)
-        if arr.dtype.kind == "f" and nonzero > MOSTLY_ZERO * arr.size:
-            group.create_dataset(name, data=arr, chunks=chunks)
-        elif arr.dtype.kind == "f":
-            # Mostly zeros (a bonded or solvation term over every pair): only the chunks holding a
-            # non-zero value are written; the others are never stored, and HDF5 reads them as
-            # the dataset's fill value, 0.
-            ds = group.create_dataset(name, shape=arr.shape, dtype=arr.dtype, chunks=chunks, fillvalue=0.0,
-                                      **_COMPRESSION)
-            if nonzero:
-                for lo in range(0, len(arr), chunks[0]):
-                    block = arr[lo:lo + chunks[0]]
-                    if block.any():
-                        ds[lo:lo + len(block)] = block
-        else:
-            group.create_dataset(name, data=arr, chunks=chunks, **_COMPRESSION)
+    if len(arr) >= 1024 and arr.dtype.kind == "f" and arr.ndim <= 2:
+        _float_column(group, name, arr)
+    elif len(arr) >= 1024:
+        group.create_dataset(name, data=arr, chunks=(min(CHUNK_ROWS, len(arr)),) + arr.shape[1:], **_COMPRESSION)
     else:
         group.create_dataset(name, data=arr)
+
+
+def _float_column(group, name: str, arr: np.ndarray) -> None:
+    """A float column (or a (rows, k) table of them, one chunk per column stretch).
+
+    Only the chunks holding a non-zero value are written: the others are never stored, and HDF5
+    reads them as the dataset's fill value, 0 (a bonded or solvation term over every residue pair
+    is mostly such chunks).  The chunks written are compressed when their values are mostly zero
+    (:data:`MOSTLY_ZERO`), stored plainly otherwise (compressing dense energies costs more time
+    than it saves space)."""
+    rows = min(CHUNK_ROWS, len(arr))
+    table = arr.reshape(len(arr), -1)
+    pieces = [(lo, c) for c in range(table.shape[1]) for lo in range(0, len(arr), rows)
+              if np.any(table[lo:lo + rows, c])]
+    written = sum(min(rows, len(arr) - lo) for lo, _ in pieces)
+    nonzero = sum(np.count_nonzero(table[lo:lo + rows, c]) for lo, c in pieces)
+    compress = _COMPRESSION if written and nonzero <= MOSTLY_ZERO * written else {}
+    chunks = (rows,) if arr.ndim == 1 else (rows, 1)
+    ds = group.create_dataset(name, shape=arr.shape, dtype=arr.dtype, chunks=chunks, fillvalue=0.0, **compress)
+    if len(pieces) == table.shape[1] * -(-len(arr) // rows):
+        ds[...] = arr  # every chunk holds a value: one write
+        return
+    for lo, c in pieces:
+        if arr.ndim == 1:
+            ds[lo:lo + rows] = arr[lo:lo + rows]
+        else:
+            ds[lo:lo + rows, c] = arr[lo:lo + rows, c]
 
 
 def _write_header(fh, kind: str, inputs, settings: EnergySettings | None) -> None:
