@@ -185,16 +185,18 @@ def _float_column(group, name: str, arr: np.ndarray) -> None:
 
     Only the chunks holding a non-zero value are written: the others are never stored, and HDF5
     reads them as the dataset's fill value, 0 (a bonded or solvation term over every residue pair
-    is mostly such chunks).  The chunks written are compressed when their values are mostly zero
+    is mostly such chunks).  A column's chunks are compressed when their values are mostly zero
     (:data:`MOSTLY_ZERO`), stored plainly otherwise (compressing dense energies costs more time
-    than it saves space)."""
+    than it saves space); a table's are stored plainly (decompressing its column chunks took 4x
+    longer than reading them plainly, for a third of the size: 1.43M x 11 trajectory means, 0.75 s
+    against 0.2 s)."""
     rows = min(CHUNK_ROWS, len(arr))
     table = arr.reshape(len(arr), -1)
     pieces = [(lo, c) for c in range(table.shape[1]) for lo in range(0, len(arr), rows)
               if np.any(table[lo:lo + rows, c])]
     written = sum(min(rows, len(arr) - lo) for lo, _ in pieces)
     nonzero = sum(np.count_nonzero(table[lo:lo + rows, c]) for lo, c in pieces)
-    compress = _COMPRESSION if written and nonzero <= MOSTLY_ZERO * written else {}
+    compress = _COMPRESSION if arr.ndim == 1 and written and nonzero <= MOSTLY_ZERO * written else {}
     chunks = (rows,) if arr.ndim == 1 else (rows, 1)
     ds = group.create_dataset(name, shape=arr.shape, dtype=arr.dtype, chunks=chunks, fillvalue=0.0, **compress)
     if len(pieces) == table.shape[1] * -(-len(arr) // rows):
