@@ -155,3 +155,21 @@ def test_window_without_a_display_says_so_in_one_line():
     assert proc.returncode == 3
     lines = proc.stderr.strip().splitlines()
     assert len(lines) == 1 and "no display" in lines[0] and "tessera scan" in lines[0]
+
+
+def test_the_command_runs_exit_handlers_and_keeps_its_exit_status(tmp_path):
+    """`tessera` ends with os._exit after its work (skipping the interpreter's slow teardown):
+    the exit handlers registered during the run (e.g. removing a decompressed trajectory's
+    temporary folder) still run, output is flushed, and the exit status is main()'s."""
+    marker = tmp_path / "handler_ran"
+    script = ("import atexit, sys\n"
+              f"atexit.register(lambda: open({str(marker)!r}, 'w').write('ran'))\n"
+              f"sys.argv = ['tessera', 'scan', {str(tmp_path / 'missing.pdb')!r}]\n"
+              "from app.cli.main import console_main\n"
+              "print('before', flush=False)\n"
+              "console_main()\n")
+    proc = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True)
+    assert proc.returncode == 2                    # the missing file's one-line error
+    assert "not found" in proc.stderr
+    assert proc.stdout.strip() == "before"         # buffered output is flushed before the exit
+    assert marker.read_text() == "ran"

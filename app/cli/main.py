@@ -11,6 +11,7 @@ holds the traceback (:func:`write_crash_log`), and the exit status is 1.
 from __future__ import annotations
 
 import argparse
+import atexit
 import datetime
 import importlib
 import os
@@ -120,17 +121,24 @@ def main(argv=None) -> int:
 
 
 def console_main() -> None:
-    """The ``tessera`` command: :func:`main`, then exit.  After a parallel trajectory run whose
-    worker processes were stopped mid-chunk (Ctrl-C), the interpreter's normal exit can hang in
-    concurrent.futures (energy.analysis.trajectory_parallel); the outputs are written and closed
-    by then, so such a process ends with ``os._exit``."""
+    """The ``tessera`` command: :func:`main`, then exit.
+
+    Every output is written and closed when :func:`main` returns, so the process then runs the
+    exit handlers (temporary folders removed, worker pools joined, logs flushed) and ends with
+    ``os._exit``, skipping the interpreter's teardown of its modules: with numpy, scipy, OpenMM
+    and numba loaded that teardown took 0.5-0.65 s of every run (measured on a 25k-atom scan,
+    2026-12-02).  It also ends a process whose parallel trajectory workers were stopped
+    mid-chunk (Ctrl-C): there the exit handlers are skipped too, since joining those workers
+    can hang in concurrent.futures (energy.analysis.trajectory_parallel)."""
     code = main()
+    sys.stdout.flush()
+    sys.stderr.flush()
     parallel = sys.modules.get("energy.analysis.trajectory_parallel")
-    if parallel is not None and parallel.abandoned_workers:
-        sys.stdout.flush()
-        sys.stderr.flush()
-        os._exit(code)
-    sys.exit(code)
+    if parallel is None or not parallel.abandoned_workers:
+        atexit._run_exitfuncs()
+    sys.stdout.flush()
+    sys.stderr.flush()
+    os._exit(code)
 
 
 if __name__ == "__main__":
