@@ -14,7 +14,6 @@ from dataclasses import dataclass
 from itertools import combinations
 
 import numpy as np
-import scipy.sparse as sp
 
 from energy._kernels.csr import PAIR_INDEX, accumulate, locate_pairs, zeros_in_parallel
 from energy._kernels.pair_key import pair_keys, split_keys  # noqa: F401 (pair_keys: public here)
@@ -178,6 +177,7 @@ class ResiduePairEnergies:
         off = self.pair_i != self.pair_j
         rows = np.concatenate([self.pair_i, self.pair_j[off]])
         cols = np.concatenate([self.pair_j, self.pair_i[off]])
+        import scipy.sparse as sp  # imported when used (0.3 s at start-up otherwise)
         return sp.csr_matrix((np.concatenate([v, v[off]]), (rows, cols)), shape=(n, n))
 
     def dense(self, quantity: str = "total") -> np.ndarray:
