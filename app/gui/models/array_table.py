@@ -20,6 +20,9 @@ import resources
 SORT_ROLE = Qt.ItemDataRole.UserRole + 1
 RECORD_ROLE = Qt.ItemDataRole.UserRole + 2
 
+#: The roles :meth:`ArrayTableModel.data` answers; every other one returns None at once.
+_ROLES_ANSWERED = frozenset({Qt.ItemDataRole.DisplayRole, SORT_ROLE, RECORD_ROLE, Qt.ItemDataRole.TextAlignmentRole,
+                             Qt.ItemDataRole.ForegroundRole})
 REPULSIVE = QColor(resources.json_table("colormaps.json")["repulsive"])
 ATTRACTIVE = QColor(resources.json_table("colormaps.json")["attractive"])
 
@@ -189,7 +192,7 @@ class ArrayTableModel(QAbstractTableModel):
         return None
 
     def data(self, index, role=Qt.ItemDataRole.DisplayRole):
-        if not index.isValid():
+        if role not in _ROLES_ANSWERED or not index.isValid():  # a view asks ~10 roles per cell painted
             return None
         c = self._columns[index.column()]
         rec = self._rows[index.row()]
