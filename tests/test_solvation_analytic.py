@@ -119,7 +119,7 @@ def adk():
     return system, frame, topology
 
 
-@pytest.mark.parametrize("cutoff,salt", [(None, 0.1), (12.0, 0.0)])
+@pytest.mark.parametrize("cutoff,salt", [(None, 0.1), (12.0, 0.0), (9.0, 0.15)])
 def test_residue_pairs_equal_an_independent_numpy_loop(adk, cutoff, salt):
     """adk_open.pdb (MDAnalysisTests), OBC2: the numpy implementation's total matches OpenMM 8.6
     (ForceField + implicit/obc2.xml, Reference platform) to 1e-4, and our residue-pair table of
