@@ -30,6 +30,8 @@ def _hct_sum(i, x, rho, scaled, cutoff2, lo, hi):
     for j in range(lo, hi):
         dx, dy, dz = x[j, 0] - xi, x[j, 1] - yi, x[j, 2] - zi
         r2 = dx * dx + dy * dy + dz * dz
+        if r2 >= cutoff2:  # many of a listed residue pair's atom pairs (never without a cutoff)
+            continue
         s = scaled[j]
         r_true = math.sqrt(r2)
         ok = (j != i) & (r2 < cutoff2) & (r_true + s >= rho_i)
@@ -159,25 +161,27 @@ def born_radii_listed(x, rho, scaled, radius, alpha, beta, gamma, neck_index, ne
 @numba.njit(cache=True, error_model="numpy")
 def _pair_run(xa, ya, za, ba, x, q, born, lo, hi, inv_in, inv_out, kappa, cutoff2, inv_cutoff):
     """Sum over b in lo..hi-1 of (1/eps_in - exp(-kappa f)/eps_out) q_b (1/f - 1/r_c) for the
-    atom at (xa, ya, za) with Born radius ba (pairs at r >= r_c selected away)."""
+    atom at (xa, ya, za) with Born radius ba (pairs at r >= r_c skipped)."""
     acc = 0.0
     if kappa == 0.0:
         screen0 = inv_in - inv_out
         for b in range(lo, hi):
             dx, dy, dz = x[b, 0] - xa, x[b, 1] - ya, x[b, 2] - za
             r2 = dx * dx + dy * dy + dz * dz
+            if r2 >= cutoff2:
+                continue
             bb = ba * born[b]
             f = math.sqrt(r2 + bb * math.exp(-r2 / (4.0 * bb)))
-            e = screen0 * q[b] * (1.0 / f - inv_cutoff)
-            acc += e if r2 < cutoff2 else 0.0
+            acc += screen0 * q[b] * (1.0 / f - inv_cutoff)
     else:
         for b in range(lo, hi):
             dx, dy, dz = x[b, 0] - xa, x[b, 1] - ya, x[b, 2] - za
             r2 = dx * dx + dy * dy + dz * dz
+            if r2 >= cutoff2:
+                continue
             bb = ba * born[b]
             f = math.sqrt(r2 + bb * math.exp(-r2 / (4.0 * bb)))
-            e = (inv_in - math.exp(-kappa * f) * inv_out) * q[b] * (1.0 / f - inv_cutoff)
-            acc += e if r2 < cutoff2 else 0.0
+            acc += (inv_in - math.exp(-kappa * f) * inv_out) * q[b] * (1.0 / f - inv_cutoff)
     return acc
 
 
@@ -293,4 +297,42 @@ def gb_pair_rows(x, q, born, res_start, res_end, pair_j, row_start, row_order, c
                 acc = _pair_run(x[a, 0], x[a, 1], x[a, 2], born[a], x, q, born, lo, res_end[partner],
                                 inv_in, inv_out, kappa, cutoff2, inv_cutoff)
                 out[k] -= coulomb_constant * qa * acc
+    return out
+
+
+@numba.njit(cache=True, parallel=True, error_model="numpy")
+def gb_pair_terms(x, q, born, pair_a, pair_b, coulomb_constant, eps_in, eps_out, kappa, cutoff2,
+                  inv_cutoff):
+    """The GB pair term of each listed atom pair (the residue kernels' form, one pair at a time).
+
+    Parameters
+    ----------
+    x : (n, 3) float64
+        Positions, A.
+    q, born : (n,) float64
+        Charges (e) and Born radii (A).
+    pair_a, pair_b : (m,) int64
+        The two atoms of each pair (a != b).
+    coulomb_constant : float
+        k, kcal/mol A / e^2.
+    eps_in, eps_out : float
+        Solute and solvent dielectrics.
+    kappa : float
+        Debye-Hueckel screening, 1/A.
+    cutoff2 : float
+        Squared cutoff, A^2 (inf: none).
+    inv_cutoff : float
+        1 / cutoff, 1/A (0 without a cutoff).
+
+    Returns
+    -------
+    (m,) float64
+        -k (1/eps_in - exp(-kappa f)/eps_out) q_a q_b (1/f - 1/r_c), kcal/mol (0 at r >= r_c).
+    """
+    out = np.empty(pair_a.shape[0])
+    inv_in, inv_out = 1.0 / eps_in, 1.0 / eps_out
+    for k in prange(pair_a.shape[0]):
+        a, b = pair_a[k], pair_b[k]
+        out[k] = -coulomb_constant * q[a] * _pair_run(x[a, 0], x[a, 1], x[a, 2], born[a], x, q, born, b, b + 1,
+                                                      inv_in, inv_out, kappa, cutoff2, inv_cutoff)
     return out

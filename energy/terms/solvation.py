@@ -12,7 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from energy._kernels.born import born_radii, born_radii_listed, gb_pair_rows, gb_pair_table
+from energy._kernels.born import born_radii, born_radii_listed, gb_pair_rows, gb_pair_table, gb_pair_terms
 from energy._kernels.cells import search_rows
 from energy._kernels.csr import interleaved_rows, symmetric_rows
 from energy._kernels.neighbors import residue_spheres
@@ -120,6 +120,68 @@ def listed_residue_pairs(positions: np.ndarray, residue_order, cutoff_angstrom: 
     centers, radii = residue_spheres(positions, residue_order, None)
     pair_i, pair_j, row_start, _ = search_rows(centers, radii, cutoff_angstrom, None)
     return pair_i, pair_j, row_start
+
+
+def frame_born_radii(system: MolecularSystem, positions: np.ndarray, settings: EnergySettings,
+                     residue_order) -> np.ndarray:
+    """The Born radii of one frame as :func:`solvation_energies` computes them (its model,
+    parameters and cutoff), without the energies.
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system.
+    positions : (n_atoms, 3) float64
+        Coordinates, A.
+    settings : EnergySettings
+        ``implicit_solvent`` set; the cutoff.
+    residue_order : ResidueAtoms
+        The atoms of each residue together.
+
+    Returns
+    -------
+    (n_atoms,) float64
+        Born radii, A.
+    """
+    params = born_parameters(system, settings.implicit_solvent)
+    rc = settings.cutoff_angstrom
+    if rc is None:
+        return compute_born_radii(params, positions, None)
+    pair_i, pair_j, _ = listed_residue_pairs(positions, residue_order, rc)
+    return compute_born_radii(params, positions, rc, residue_order,
+                              symmetric_rows(system.n_residues, pair_i, pair_j))
+
+
+def atom_pair_polar(system: MolecularSystem, positions: np.ndarray, settings: EnergySettings,
+                    born: np.ndarray, pairs: np.ndarray) -> np.ndarray:
+    """The GB pair term of each atom pair, the atom-level entries a residue pair's
+    ``solvation_polar`` sums (with the self terms on the diagonal).
+
+    Parameters
+    ----------
+    system : MolecularSystem
+        The system (charges).
+    positions : (n_atoms, 3) float64
+        Coordinates, A.
+    settings : EnergySettings
+        ``implicit_solvent`` set; dielectrics, salt, cutoff.
+    born : (n_atoms,) float64
+        Born radii of this frame, A.
+    pairs : (m, 2) integer
+        Atom pairs (a != b).
+
+    Returns
+    -------
+    (m,) float64
+        kcal/mol per pair (0 at or beyond the cutoff).
+    """
+    pairs = np.asarray(pairs, np.int64).reshape(-1, 2)
+    rc = settings.cutoff_angstrom
+    return gb_pair_terms(np.ascontiguousarray(positions, np.float64), np.ascontiguousarray(system.charges, np.float64),
+                         np.ascontiguousarray(born, np.float64), np.ascontiguousarray(pairs[:, 0]),
+                         np.ascontiguousarray(pairs[:, 1]), COULOMB_CONSTANT, settings.dielectric,
+                         settings.solvent_dielectric, settings.kappa_per_angstrom,
+                         math.inf if rc is None else rc * rc, 0.0 if rc is None else 1.0 / rc)
 
 
 def self_energies(charges: np.ndarray, born: np.ndarray, settings: EnergySettings) -> np.ndarray:
