@@ -185,3 +185,20 @@ def test_atom_pair_gb_entries_sum_to_the_residue_pair_entry(adk, cutoff, salt):
         again = residue_pair_atom_energies(system, frame, settings, i, j)
         np.testing.assert_allclose(again.solvation_polar, atoms.solvation_polar, rtol=1e-12, atol=1e-12)
     assert abs(gb[picked[0]]) > 1.0  # not vacuous
+
+
+def test_dense_residue_limit_applies_only_without_a_cutoff(adk, monkeypatch):
+    """docs/physics.md: without a cutoff the GB pair sums use a dense residue table (a residue
+    limit, a settings error beyond it); with a cutoff they follow the listed pairs, no limit.
+    adk (214 residues) against a limit lowered to 100; the cutoff run's total is OpenMM's
+    (checked in test_solvation_vs_openmm at 12 A), here only that it runs and is the same as
+    with the normal limit."""
+    from energy.terms import solvation
+
+    system, frame, _ = adk
+    with_cutoff = EnergySettings(implicit_solvent="obc2", cutoff_angstrom=12.0, use_periodic=False)
+    expected = compute(system, frame, with_cutoff).totals["solvation_polar"]
+    monkeypatch.setattr(solvation, "MAX_RESIDUES", 100)
+    with pytest.raises(SettingsError, match="without a cutoff is limited to 100 residues"):
+        compute(system, frame, EnergySettings(implicit_solvent="obc2", use_periodic=False))
+    assert compute(system, frame, with_cutoff).totals["solvation_polar"] == expected
