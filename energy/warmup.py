@@ -68,6 +68,8 @@ def prepare_kernels(settings: EnergySettings | None = None) -> None:
         compute(system, frame, EnergySettings(cutoff_angstrom=10.0, electrostatics="reaction-field",
                                               switch_angstrom=8.0))
         compute(system, Frame(frame.positions), EnergySettings(cutoff_angstrom=10.0))
+        # implicit solvent with a cutoff: the listed Born-radius and GB pair kernels
+        compute(system, frame, EnergySettings(implicit_solvent="obc2", cutoff_angstrom=10.0))
     if "all" in wanted and "statistics" not in _prepared:  # trajectory statistics kernels
 
         pairs = (plain or compute(system, frame, EnergySettings())).residue_pairs

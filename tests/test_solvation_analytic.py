@@ -119,7 +119,7 @@ def adk():
     return system, frame, topology
 
 
-@pytest.mark.parametrize("cutoff,salt", [(None, 0.1), (12.0, 0.0)])
+@pytest.mark.parametrize("cutoff,salt", [(None, 0.1), (12.0, 0.0), (9.0, 0.15)])
 def test_residue_pairs_equal_an_independent_numpy_loop(adk, cutoff, salt):
     """adk_open.pdb (MDAnalysisTests), OBC2: the numpy implementation's total matches OpenMM 8.6
     (ForceField + implicit/obc2.xml, Reference platform) to 1e-4, and our residue-pair table of
@@ -141,3 +141,64 @@ def test_residue_pairs_equal_an_independent_numpy_loop(adk, cutoff, salt):
     ours[pairs.pair_i, pairs.pair_j] = pairs.column("solvation_polar")
     assert np.count_nonzero(table) > 1000
     np.testing.assert_allclose(ours, table, rtol=0, atol=1e-8)
+
+
+# --- atom-level entries of the drill-down ------------------------------------------------------
+
+@pytest.mark.parametrize("cutoff,salt", [(None, 0.0), (12.0, 0.1)])
+def test_atom_pair_gb_entries_sum_to_the_residue_pair_entry(adk, cutoff, salt):
+    """adk_open.pdb (MDAnalysisTests), OBC2: each atom pair of the drill-down carries the Still
+    pair term written out here in numpy from the frame's Born radii (Still et al. 1990, with the
+    OpenMM cutoff shift); over a residue pair they sum to its solvation_polar entry (whose table is
+    checked above against the numpy double loop and OpenMM), and on the diagonal the pairs plus
+    the residue's Born self terms do."""
+    from energy.decomposition.atom_pairs import residue_pair_atom_energies
+
+    system, frame, _ = adk
+    settings = EnergySettings(implicit_solvent="obc2", cutoff_angstrom=cutoff, salt_molar=salt,
+                              use_periodic=False)
+    result = compute(system, frame, settings)
+    solv = result.interactions["solvation"]
+    pairs = result.residue_pairs
+    gb = pairs.column("solvation_polar")
+    off = np.flatnonzero(pairs.pair_i != pairs.pair_j)
+    diag = np.flatnonzero(pairs.pair_i == pairs.pair_j)
+    picked = [off[np.argmax(np.abs(gb[off]))], off[np.argmin(np.abs(gb[off]) + (gb[off] == 0) * 1e9)],
+              diag[np.argmax(np.abs(gb[diag]))], off[len(off) // 2]]
+    kappa, shift = settings.kappa_per_angstrom, 0.0 if cutoff is None else 1.0 / cutoff
+    x, q, born = frame.positions, system.charges, solv["born_radius"]
+    for k in picked:
+        i, j = int(pairs.pair_i[k]), int(pairs.pair_j[k])
+        atoms = residue_pair_atom_energies(system, frame, settings, i, j, solv["born_radius"])
+        a, b = atoms.pairs[:, 0], atoms.pairs[:, 1]
+        r2 = ((x[a] - x[b]) ** 2).sum(axis=1)
+        bb = born[a] * born[b]
+        f = np.sqrt(r2 + bb * np.exp(-r2 / (4 * bb)))
+        still = np.where(r2 < (np.inf if cutoff is None else cutoff ** 2),
+                         -K * (1.0 - np.exp(-kappa * f) / EPS_OUT) * q[a] * q[b] * (1.0 / f - shift), 0.0)
+        np.testing.assert_allclose(atoms.solvation_polar, still, rtol=1e-12, atol=1e-12)
+        total = atoms.solvation_polar.sum()
+        if i == j:
+            total += solv["self_polar"][system.resindex == i].sum()
+        assert total == pytest.approx(gb[k], rel=0, abs=1e-8), (i, j)
+        # the Born radii computed by the drill-down itself (none given) are the same
+        again = residue_pair_atom_energies(system, frame, settings, i, j)
+        np.testing.assert_allclose(again.solvation_polar, atoms.solvation_polar, rtol=1e-12, atol=1e-12)
+    assert abs(gb[picked[0]]) > 1.0  # not vacuous
+
+
+def test_dense_residue_limit_applies_only_without_a_cutoff(adk, monkeypatch):
+    """docs/physics.md: without a cutoff the GB pair sums use a dense residue table (a residue
+    limit, a settings error beyond it); with a cutoff they follow the listed pairs, no limit.
+    adk (214 residues) against a limit lowered to 100; the cutoff run's total is OpenMM's
+    (checked in test_solvation_vs_openmm at 12 A), here only that it runs and is the same as
+    with the normal limit."""
+    from energy.terms import solvation
+
+    system, frame, _ = adk
+    with_cutoff = EnergySettings(implicit_solvent="obc2", cutoff_angstrom=12.0, use_periodic=False)
+    expected = compute(system, frame, with_cutoff).totals["solvation_polar"]
+    monkeypatch.setattr(solvation, "MAX_RESIDUES", 100)
+    with pytest.raises(SettingsError, match="without a cutoff is limited to 100 residues"):
+        compute(system, frame, EnergySettings(implicit_solvent="obc2", use_periodic=False))
+    assert compute(system, frame, with_cutoff).totals["solvation_polar"] == expected

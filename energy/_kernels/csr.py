@@ -212,3 +212,40 @@ def mapped_pair_keys(pair_i, pair_j, row, m: int) -> np.ndarray:
     """
     return _mapped_keys(np.ascontiguousarray(pair_i), np.ascontiguousarray(pair_j),
                         np.ascontiguousarray(row, np.int64), np.int64(m))
+
+
+def symmetric_rows(n, pair_i, pair_j):
+    """Both directions of a residue-pair table: every residue's partners, itself included (compiled).
+
+    Parameters
+    ----------
+    n : int
+        Number of residues.
+    pair_i, pair_j : (m,) integer
+        The listed pairs I <= J.
+
+    Returns
+    -------
+    partner_ptr : (n + 1,) int64
+        Residue I's partners are ``partner_res[partner_ptr[I]:partner_ptr[I+1]]``.
+    partner_res : (m', ) int32 (``PAIR_INDEX``)
+        Each pair (I, J), I < J, as J in row I and I in row J; (I, I) once in row I.
+    """
+    counts = np.zeros(n + 1, np.int64)
+    for k in range(len(pair_i)):
+        counts[pair_i[k] + 1] += 1
+        if pair_j[k] != pair_i[k]:
+            counts[pair_j[k] + 1] += 1
+    for r in range(n):
+        counts[r + 1] += counts[r]
+    partner_ptr = counts.copy()
+    fill = counts[:n].copy()
+    partner_res = np.empty(counts[n], PAIR_INDEX)
+    for k in range(len(pair_i)):
+        i, j = pair_i[k], pair_j[k]
+        partner_res[fill[i]] = j
+        fill[i] += 1
+        if j != i:
+            partner_res[fill[j]] = i
+            fill[j] += 1
+    return partner_ptr, partner_res

@@ -3,6 +3,8 @@
 :func:`atom_pair_energies` lists every nonbonded atom pair between two atom sets (or within one),
 with distance, Coulomb and LJ, exception pairs (1-4, and zero-valued 1-2/1-3) flagged.  It uses
 the same pair formula as the residue-pair kernel (:func:`energy.terms.nonbonded.pair_energies`).
+With implicit solvent it adds each pair's generalized Born term (the residue-pair entry of
+``solvation_polar`` is their sum, plus the residue's self terms on the diagonal).
 :func:`interaction_energy` sums it for two selections.
 """
 from __future__ import annotations
@@ -11,6 +13,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from energy._kernels.neighbors import ResidueAtoms
 from energy._kernels.pair_key import pair_keys, split_keys
 from energy._kernels.pbc import is_orthorhombic, minimum_image_vectors, periodic_cell
 from energy.decomposition.residue_pairs import is_member, sorted_unique
@@ -21,6 +24,7 @@ from energy.model.settings import EnergySettings
 from energy.model.system import Frame, MolecularSystem
 from energy.model.virtual_sites import placed_frame
 from energy.terms.nonbonded import KernelConstants, exception_energies, pair_energies
+from energy.terms.solvation import atom_pair_polar, frame_born_radii
 
 #: Atom pairs evaluated per block when a no-cutoff request spans many atoms.
 PAIR_BLOCK = 2_000_000
@@ -34,6 +38,8 @@ class AtomPairEnergies:
 
     ``pairs`` (n, 2) intp, ``distance`` (n,) A, ``coulomb`` and ``lj`` (n,), ``is_exception``
     (n,) bool (1-4 pairs with their own parameters; 1-2 and 1-3 pairs appear with zeros).
+    ``solvation_polar`` (n,): with implicit solvent, each pair's generalized Born term (every
+    pair counts, excluded ones included), else None.  ``total`` is Coulomb + LJ.
     """
 
     pairs: np.ndarray
@@ -41,6 +47,7 @@ class AtomPairEnergies:
     coulomb: np.ndarray
     lj: np.ndarray
     is_exception: np.ndarray
+    solvation_polar: np.ndarray | None = None
 
     @property
     def total(self) -> np.ndarray:
@@ -94,14 +101,16 @@ def _pair_geometry(system, frame, settings):
     """(positions with virtual sites placed, the cell nonbonded pairs may use, whether the
     minimum image applies, its cell matrix or None) for atom-pair evaluations."""
     x = placed_frame(system, frame).positions  # virtual sites from their parents
-    box = nonbonded_cell(frame.box, system.n_atoms, settings.use_periodic).box
+    # implicit solvent is non-periodic, as in the pipeline
+    box = nonbonded_cell(frame.box, system.n_atoms,
+                         settings.use_periodic and settings.implicit_solvent is None).box
     periodic = box is not None and settings.cutoff_angstrom is not None
     h = periodic_cell(box, settings.cutoff_angstrom) if periodic else None
     return x, box, periodic, h
 
 
 def atom_pair_energies(system: MolecularSystem, frame: Frame, settings: EnergySettings | None,
-                       atoms_a, atoms_b=None) -> AtomPairEnergies:
+                       atoms_a, atoms_b=None, born_radius=None) -> AtomPairEnergies:
     """Every nonbonded atom pair between ``atoms_a`` and ``atoms_b`` (within ``atoms_a`` if None).
 
     Ordinary pairs beyond the cutoff are left out; exception pairs are always listed.  Pairs are
@@ -119,13 +128,17 @@ def atom_pair_energies(system: MolecularSystem, frame: Frame, settings: EnergySe
         Atom indices of the first set (duplicates ignored).
     atoms_b : (n_b,) integer or None, optional
         Atom indices of the second set; None (default) lists the pairs within ``atoms_a``.
+    born_radius : (n_atoms,) float64 or None, optional
+        With implicit solvent: this frame's Born radii (A), e.g. the result's
+        ``interactions["solvation"]["born_radius"]`` (None: computed here, over the whole system).
 
     Returns
     -------
     AtomPairEnergies
         ``pairs`` (n, 2) intp (i < j; ordinary pairs sorted, then the exception pairs),
         ``distance`` (n,) float64 A, ``coulomb`` and ``lj`` (n,) float64 kcal/mol (``lj`` is the
-        chosen vdW form: LJ or exp-6), ``is_exception`` (n,) bool.
+        chosen vdW form: LJ or exp-6), ``is_exception`` (n,) bool, ``solvation_polar`` (n,)
+        float64 kcal/mol with implicit solvent (every atom pair within the cutoff is listed).
     """
     settings = settings or EnergySettings()
     x, box, periodic, h = _pair_geometry(system, frame, settings)
@@ -151,8 +164,17 @@ def atom_pair_energies(system: MolecularSystem, frame: Frame, settings: EnergySe
     coul_parts.append(coul_ex); lj_parts.append(lj_ex); d_parts.append(r_ex)
     all_pairs = np.concatenate([ordinary, ex[ex_sel]]).reshape(-1, 2)
     flags = np.concatenate([np.zeros(len(ordinary), bool), np.ones(len(ex_sel), bool)])
+    polar = None
+    if settings.implicit_solvent is not None:
+        born = (frame_born_radii(system, x, settings, system.derived("residue_atoms", _residue_atoms))
+                if born_radius is None else born_radius)
+        polar = atom_pair_polar(system, x, settings, born, all_pairs)
     return AtomPairEnergies(all_pairs, np.concatenate(d_parts), np.concatenate(coul_parts),
-                            np.concatenate(lj_parts), flags)
+                            np.concatenate(lj_parts), flags, polar)
+
+
+def _residue_atoms(system: MolecularSystem) -> ResidueAtoms:
+    return ResidueAtoms.from_resindex(system.resindex, system.n_residues)
 
 
 def residue_atoms(system: MolecularSystem, residue: int) -> np.ndarray:
@@ -173,8 +195,13 @@ def residue_atoms(system: MolecularSystem, residue: int) -> np.ndarray:
     return np.flatnonzero(system.resindex == residue)
 
 
-def residue_pair_atom_energies(system, frame, settings, res_i: int, res_j: int) -> AtomPairEnergies:
+def residue_pair_atom_energies(system, frame, settings, res_i: int, res_j: int,
+                               born_radius=None) -> AtomPairEnergies:
     """Atom pairs behind the residue-pair entry (i, j); i == j gives the intra-residue pairs.
+
+    With implicit solvent each pair carries its GB term: they sum to the entry's
+    ``solvation_polar``, which for i == j also holds the residue's Born self terms (the result's
+    ``interactions["solvation"]["self_polar"]``).
 
     Parameters
     ----------
@@ -186,6 +213,8 @@ def residue_pair_atom_energies(system, frame, settings, res_i: int, res_j: int) 
         Cutoff, electrostatics, vdW model, periodicity (None: the defaults).
     res_i, res_j : int
         Residue indices (0-based).
+    born_radius : (n_atoms,) float64 or None, optional
+        With implicit solvent: this frame's Born radii, A (None: computed here).
 
     Returns
     -------
@@ -193,7 +222,8 @@ def residue_pair_atom_energies(system, frame, settings, res_i: int, res_j: int) 
         As :func:`atom_pair_energies` (kcal/mol, A).
     """
     a = residue_atoms(system, res_i)
-    return atom_pair_energies(system, frame, settings, a, None if res_i == res_j else residue_atoms(system, res_j))
+    return atom_pair_energies(system, frame, settings, a, None if res_i == res_j else residue_atoms(system, res_j),
+                              born_radius)
 
 
 def interaction_energy(system, frame, settings, atoms_a, atoms_b) -> dict:

@@ -251,7 +251,9 @@ def compute_steps(system: MolecularSystem, frame: Frame, settings: EnergySetting
     # Implicit solvent: Born radii over the whole system, GB pairs per residue pair, self and
     # nonpolar terms on the residue diagonal (energy.terms.solvation).
     if settings.implicit_solvent is not None:
-        solv = solvation_energies(system, x, settings, res_atoms)
+        # with a cutoff, the nonbonded terms' residue pairs (non-periodic here) bound the GB pairs
+        listed = None if settings.cutoff_angstrom is None else (pair_i, pair_j, row_start)
+        solv = solvation_energies(system, x, settings, res_atoms, residue_pairs=listed)
         interactions["solvation"] = {"born_radius": solv.born_radius, "self_polar": solv.self_polar,
                                      "nonpolar": solv.nonpolar}
         contributions.append(("solvation_polar", solv.pair_i, solv.pair_j, solv.pair_polar))

@@ -14,6 +14,7 @@ constraints and flexible water (the engine applies its own cutoff settings).
 """
 from __future__ import annotations
 
+import dataclasses
 import os
 
 import numpy as np
@@ -108,6 +109,9 @@ def load_amber(prmtop: str, coords: str, frame: int = 0):
         types = None
     system = system_from_openmm(omm, top.topology, types, force_field=f"Amber topology {os.path.basename(prmtop)}",
                                 source_files=(prmtop, coords))
+    radius, screen = stored_gb_radii(top, system.n_atoms)
+    if radius is not None:
+        system = dataclasses.replace(system, topology_gb_radius=radius, topology_gb_screen=screen)
     if is_trajectory_path(coords):
         fr = _frame_from_trajectory(coords, system, frame)
     else:
@@ -125,6 +129,34 @@ def load_amber(prmtop: str, coords: str, frame: int = 0):
     if fr.box is None:
         fr = Frame(fr.positions, box_from_vectors(top.topology.getPeriodicBoxVectors()), fr.index, fr.source)
     return system, fr
+
+
+def stored_gb_radii(top, n_atoms: int):
+    """The generalized Born radii and screening factors an Amber topology stores (RADII, SCREEN).
+
+    Parameters
+    ----------
+    top : openmm.app.AmberPrmtopFile
+        The topology as OpenMM read it (its parsed ``%FLAG`` sections).
+    n_atoms : int
+        Number of atoms.
+
+    Returns
+    -------
+    radius : (n_atoms,) float64 or None
+        Intrinsic radii, A (None: the file has no complete RADII section).
+    screen : (n_atoms,) float64 or None
+        Screening factors (None with ``radius``).
+    """
+    try:
+        raw = top._prmtop._raw_data  # the parsed %FLAG sections (the source OpenMM itself reads them from)
+        radius = np.array([float(v) for v in raw["RADII"]], np.float64)
+        screen = np.array([float(v) for v in raw["SCREEN"]], np.float64)
+    except (AttributeError, KeyError, ValueError):
+        return None, None
+    if radius.shape != (n_atoms,) or screen.shape != (n_atoms,) or not np.all(radius > 0):
+        return None, None
+    return radius, screen
 
 
 class _TopWithIncludes:

@@ -185,6 +185,11 @@ class MolecularSystem:
     virtual_sites: object = None
     #: One-line notes of the loader (e.g. restraint forces of an OpenMM system left out).
     notes: tuple = ()
+    #: Generalized Born intrinsic radii (A) and screening factors stored in the topology (an
+    #: Amber prmtop's RADII and SCREEN columns), (n_atoms,) float64 each, or None: the
+    #: per-element sets are used (docs/physics.md, "Implicit solvent").
+    topology_gb_radius: np.ndarray | None = None
+    topology_gb_screen: np.ndarray | None = None
 
     def __post_init__(self):
         n = len(self.names)
@@ -225,6 +230,11 @@ class MolecularSystem:
                 raise ValueError(f"other_tables[{attr!r}]: a TermTable of a registered term's own table")
         set_("other_tables", dict(self.other_tables))
         set_("notes", tuple(str(n) for n in self.notes))
+        for key in ("topology_gb_radius", "topology_gb_screen"):
+            if getattr(self, key) is not None:
+                set_(key, _frozen_array(getattr(self, key), np.float64))
+                if getattr(self, key).shape != (n,):
+                    raise ValueError(f"{key}: shape {getattr(self, key).shape}, expected ({n},)")
         sites = self.virtual_sites
         if sites is not None and len(sites) and (sites.site.max() >= n or sites.parents.max() >= n):
             raise ValueError("virtual_sites: a site or parent index outside the atoms")

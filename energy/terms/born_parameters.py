@@ -4,7 +4,8 @@ for GBn2, the per-atom tanh coefficients and the neck-integral tables.
 The radii and factors are assigned per element (and a few bonded-partner rules) from the
 published sets; docs/physics.md, "Implicit solvent", lists them with their sources.  They are
 the sets OpenMM 8.6 assigns for ``implicit/obc2.xml`` and ``implicit/gbn2.xml`` (checked atom
-by atom in tests/test_solvation_vs_openmm.py), and the same rules serve PSF input.
+by atom in tests/test_solvation_vs_openmm.py), and the same rules serve PSF input.  An Amber
+topology's stored radii (and, for OBC2, screening factors) take their place on that route.
 """
 from __future__ import annotations
 
@@ -12,6 +13,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from energy.errors import SettingsError
 from energy.model.system import MolecularSystem
 
 #: Offset subtracted from the intrinsic radius before the descreening integral, A:
@@ -23,6 +25,8 @@ OBC2_TANH = (1.0, 0.8, 4.85)
 #: OpenMM 8.6's GBSAGBn2Force, 0.68 nm).
 GBN2_NECK_SCALE = 0.826836
 GBN2_NECK_CUT = 6.8
+#: The radii the GBn2 neck tables cover, A (Mongan et al. 2007's grid; OpenMM refuses others).
+GBN2_RADIUS_RANGE = (1.0, 2.0)
 
 #: mbondi2 radii, A (Onufriev, Bashford & Case 2004; Bondi 1964 with H on N at 1.3 A);
 #: elements not listed get 1.5 A.
@@ -201,7 +205,9 @@ def born_parameters(system: MolecularSystem, model: str) -> BornParameters:
     Parameters
     ----------
     system : MolecularSystem
-        Elements, bonds, atom and residue names are read.
+        Elements, bonds, atom and residue names are read.  When it carries a topology's own
+        radii (``topology_gb_radius``, an Amber prmtop), those replace the per-element radii, and
+        for ``obc2`` its screening factors (``topology_gb_screen``) replace the HCT set.
     model : str
         ``obc2`` (mbondi2 radii, HCT screening, OBC II tanh) or ``gbn2`` (mbondi3 radii, GBn2
         screening and per-element tanh coefficients, neck tables).
@@ -210,6 +216,11 @@ def born_parameters(system: MolecularSystem, model: str) -> BornParameters:
     -------
     BornParameters
         Per-atom arrays in system atom order (A, 1/A).
+
+    Raises
+    ------
+    SettingsError
+        For ``gbn2``, an intrinsic radius outside the neck tables' 1-2 A.
     """
     return system.derived(f"born_parameters_{model}", lambda s: _build(s, model))
 
@@ -217,16 +228,29 @@ def born_parameters(system: MolecularSystem, model: str) -> BornParameters:
 def _build(system: MolecularSystem, model: str) -> BornParameters:
     elements = [str(e) for e in system.elements]
     n = system.n_atoms
+    stored = system.topology_gb_radius is not None
     if model == "obc2":
-        radius = mbondi2_radii(system)
-        screen = np.array([_SCREEN_OBC.get(e, _SCREEN_OBC_DEFAULT) for e in elements], np.float64)
+        # an Amber topology's own radii and screening factors (as OpenMM's AmberPrmtopFile does)
+        radius = system.topology_gb_radius.copy() if stored else mbondi2_radii(system)
+        screen = (system.topology_gb_screen.copy() if stored else
+                  np.array([_SCREEN_OBC.get(e, _SCREEN_OBC_DEFAULT) for e in elements], np.float64))
         a, b, g = (np.full(n, v) for v in OBC2_TANH)
         z = np.zeros((1, 1))
         return BornParameters(model, radius, OFFSETS[model], screen, a, b, g, np.zeros(n, np.int64),
                               z, z, 0.0)
     if model != "gbn2":
         raise ValueError(f"unknown GB model {model!r}")
-    radius = mbondi3_radii(system)
+    # GBn2 keeps its own screening factors even with a topology's radii (OpenMM's AmberPrmtopFile,
+    # as sander and pmemd override the factors a topology stores for GBn and GBn2)
+    radius = system.topology_gb_radius.copy() if stored else mbondi3_radii(system)
+    outside = np.flatnonzero((radius < GBN2_RADIUS_RANGE[0]) | (radius > GBN2_RADIUS_RANGE[1]))
+    if len(outside):
+        where = f"{system.source_files[0]}: " if system.source_files else ""
+        source = "the topology's stored radius" if stored else "its mbondi3 radius"
+        raise SettingsError(f"{where}GBn2 needs intrinsic radii of {GBN2_RADIUS_RANGE[0]:g}-"
+                            f"{GBN2_RADIUS_RANGE[1]:g} A (its neck tables); atom {int(outside[0]) + 1} "
+                            f"({system.atom_label(int(outside[0]))}) has {source} {radius[outside[0]]:g} A"
+                            f"{f' ({len(outside) - 1} more)' if len(outside) > 1 else ''}; use obc2")
     resname = np.asarray(system.residues.resname)[system.resindex]
     nucleic = [str(r) in _NUCLEIC_RESIDUES for r in resname]
     screen = _per_element(elements, nucleic, _SCREEN_GBN2, _SCREEN_GBN2_NUCLEIC, _SCREEN_GBN2_DEFAULT)

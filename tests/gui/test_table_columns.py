@@ -7,6 +7,7 @@ from __future__ import annotations
 from pathlib import Path
 
 import numpy as np
+import pytest
 from PySide6.QtCore import Qt
 
 from app.gui.models.atom_table import AtomTableModel, pair_contributions
@@ -105,3 +106,28 @@ def test_sizing_on_the_widest_rows_gives_the_widths_of_sizing_on_every_row(qtbot
         size(table)
         widths.append([table.horizontalHeader().sectionSize(c) for c in range(3)])
     assert widths[0] == widths[1]
+
+
+def test_atom_table_gb_column_sums_to_the_salt_bridge_entry(qtbot):
+    """With GB OBC2 the atom table of the scenario's salt bridge A:GLU7 - B:LYS15 (samples/scenario,
+    invented demo data; its README numbers) shows each atom pair's GB term, outside Total; the
+    column sums to the pair's solvation_polar entry of the engine's residue-pair table (which
+    tests/test_solvation_analytic.py checks against a numpy double loop and OpenMM)."""
+    from app.state.document import LoadSpec, Snapshot
+    from energy.decomposition.pipeline import compute
+    from energy.io.loaders import load_system
+    from energy.model.settings import EnergySettings
+
+    loaded = load_system(str(FIXED))
+    result = compute(loaded.system, loaded.frame, EnergySettings(implicit_solvent="obc2"))
+    snap = Snapshot(LoadSpec(str(FIXED)), loaded, result)
+    labels = [snap.system.residues.label(k) for k in range(snap.system.n_residues)]
+    i, j = sorted((labels.index("A:GLU7"), labels.index("B:LYS15")))
+    model = AtomTableModel()
+    contrib = pair_contributions(snap, i, j)
+    model.set_contributions(snap.system, contrib)
+    gb = model.column_values("GB")[: contrib.n_nonbonded]
+    entry = result.residue_pairs.column("solvation_polar")[
+        np.flatnonzero((result.residue_pairs.pair_i == i) & (result.residue_pairs.pair_j == j))[0]]
+    assert gb.sum() == pytest.approx(entry, abs=1e-8) and entry > 50.0   # README: +90.0 kcal/mol
+    np.testing.assert_array_equal(model.column_values("Total")[: contrib.n_nonbonded], contrib.energies.total)

@@ -30,7 +30,8 @@ class PairContributions:
 
 def pair_contributions(snapshot, i: int, j: int) -> PairContributions:
     s, f, res = snapshot.system, snapshot.frame, snapshot.result
-    e = residue_pair_atom_energies(s, f, res.settings, i, j)
+    solvation = (getattr(res, "interactions", None) or {}).get("solvation") or {}
+    e = residue_pair_atom_energies(s, f, res.settings, i, j, solvation.get("born_radius"))
     return PairContributions((i, j), e, bonded_terms_for_pair(s, res, i, j))
 
 
@@ -76,6 +77,10 @@ class AtomTableModel(ArrayTableModel):
                 Column(short_label("lj"), np.concatenate([e.lj, nan]), "energy"),
                 Column("Total", np.concatenate([e.total, share]), "energy",
                        "for a bonded term: the share attributed to this residue pair"),
+                *([] if e.solvation_polar is None else [
+                    Column(short_label("solvation_polar"), np.concatenate([e.solvation_polar, nan]), "energy",
+                           "generalized Born pair term (not in Total; the residues' self terms sit on "
+                           "the diagonal entry)")]),
                 Column("Kind", np.array(kinds, dtype=object)),
                 Column("Charges (e)", np.array(charges, dtype=object)),
                 Column("Types", np.array(types, dtype=object), hidden=True)]
