@@ -162,3 +162,15 @@ def test_copies_must_cover_every_atom_once(both_routes):
                             np.array(["W"], object), np.array([1]))
     with pytest.raises(ValueError, match="exactly once"):
         with_copies(system, np.arange(n), [overlapping])
+
+
+def test_every_field_of_a_system_has_a_rule_for_copies():
+    """A field added to MolecularSystem must be given a rule in energy.model.copies (per atom,
+    rebuilt or shared), or copies would silently keep the representative-only value."""
+    from dataclasses import fields
+
+    from energy.model import copies
+    from energy.model.system import MolecularSystem
+    ruled = {*copies.PER_ATOM_FIELDS, *copies.OPTIONAL_PER_ATOM_FIELDS, *copies.REBUILT_FIELDS,
+             *copies.SHARED_FIELDS}
+    assert {f.name for f in fields(MolecularSystem)} == ruled

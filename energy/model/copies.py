@@ -17,6 +17,14 @@ import numpy as np
 from energy.model.system import TABLE_SHAPES, MolecularSystem, ResidueTable, TermTable
 from energy.model.virtual_sites import VirtualSites
 
+#: The fields of MolecularSystem that :func:`with_copies` places, by how (a new field must be
+#: added here; ``tests/test_repeated_molecules.py`` checks the inventory).
+PER_ATOM_FIELDS = ("names", "types", "elements", "charges", "lj_type")
+OPTIONAL_PER_ATOM_FIELDS = ("segids", "topology_gb_radius", "topology_gb_screen")
+REBUILT_FIELDS = ("resindex", "residues", "exception_pairs", "exception_qq", "exception_rmin", "exception_eps",
+                  *TABLE_SHAPES, "other_tables", "virtual_sites")
+SHARED_FIELDS = ("lj_rmin", "lj_eps", "cmap_maps", "force_field", "source_files", "notes")
+
 
 class NotSeparateMolecule(ValueError):
     """A representative shares a bonded term or an exception with an atom outside it, so its
@@ -169,13 +177,13 @@ def with_copies(system: MolecularSystem, final_of: np.ndarray, groups) -> tuple[
     tables = {attr: _table(system.table(attr), final_of, group_of, local_of, groups, attr)
               for attr in TABLE_SHAPES}
     others = {attr: _table(t, final_of, group_of, local_of, groups, attr) for attr, t in system.other_tables.items()}
-    per_atom = {key: _per_atom(getattr(system, key), n, final_of, groups)
-                for key in ("names", "types", "elements", "charges", "lj_type")}
+    per_atom = {key: _per_atom(getattr(system, key), n, final_of, groups) for key in PER_ATOM_FIELDS}
+    per_atom.update({key: _per_atom(getattr(system, key), n, final_of, groups)
+                     for key in OPTIONAL_PER_ATOM_FIELDS if getattr(system, key) is not None})
     full = replace(system, **per_atom, resindex=resindex, residues=residues,
                    exception_pairs=pairs, exception_qq=system.exception_qq[source],
                    exception_rmin=system.exception_rmin[source], exception_eps=system.exception_eps[source],
                    **tables, other_tables=others,
-                   segids=None if system.segids is None else _per_atom(system.segids, n, final_of, groups),
                    virtual_sites=_sites(system.virtual_sites, n, final_of, group_of, local_of, groups))
     return full, np.concatenate(sources)[order]
 
