@@ -57,6 +57,7 @@ class TermBarsView(pg.GraphicsLayoutWidget):
         self.values = {"system": None, "pair": None, "groups": None}
         self.titles = {"system": "Whole system", "pair": "Selected pair", "groups": "Group interaction"}
         self.plots, self.bars, self.texts = {}, {}, {}
+        self._shown_titles: dict = {}  # key -> (title, unit) last set on its plot
         for col, key in enumerate(self.values):
             p = self.addPlot(row=0, col=col, axisItems={"bottom": EnergyTickAxis("bottom")})
             p.setMenuEnabled(False); p.hideButtons(); p.setMouseEnabled(x=False, y=False)
@@ -71,6 +72,7 @@ class TermBarsView(pg.GraphicsLayoutWidget):
             p.getAxis("bottom").enableAutoSIPrefix(False)
             self.plots[key] = p
             self.texts[key] = []
+            self._shown_titles.pop(key, None)
         self._redraw()
 
     def set_unit(self, factor, unit) -> None:
@@ -92,10 +94,12 @@ class TermBarsView(pg.GraphicsLayoutWidget):
         p.setToolTip(sub)
         if len(sub) > SUBTITLE_CHARS:     # a title sets its plot's least width: long ones are cut
             sub = sub[:SUBTITLE_CHARS - 1] + "…"
-        p.setTitle(f"<span style='color:#222'>{self.titles[key]}</span>"
-                   + (f"<br><span style='color:#555;font-size:8pt'>{html.escape(sub)}</span>" if sub else ""),
-                   size="9pt")
-        p.setLabel("bottom", self.unit)
+        title = (f"<span style='color:#222'>{self.titles[key]}</span>"
+                 + (f"<br><span style='color:#555;font-size:8pt'>{html.escape(sub)}</span>" if sub else ""))
+        if (title, self.unit) != self._shown_titles.get(key):  # a new title or label lays the plot out again
+            self._shown_titles[key] = (title, self.unit)
+            p.setTitle(title, size="9pt")
+            p.setLabel("bottom", self.unit)
         texts = self.texts[key]
         if entry is None:
             if key in self.bars:
