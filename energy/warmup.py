@@ -82,7 +82,10 @@ def prepare_kernels(settings: EnergySettings | None = None) -> None:
         stats.merge(more)
         ones = np.ones(1)
         pair_energies(ones, ones, ones, ones, KernelConstants.from_settings(EnergySettings()).values)
-        for dtype in (np.int32, np.int64):  # solvent blocks: tables computed here and read from files
-            mapped_pair_keys(np.zeros(1, dtype), np.zeros(1, dtype), np.zeros(1, np.intp), 1)
+        for dtype in (np.int32, np.int64):  # solvent blocks: tables computed here and read from files,
+            for writable in (True, False):  # frozen (read-only: a numba type of its own) or not
+                index = np.zeros(1, dtype)
+                index.flags.writeable = writable
+                mapped_pair_keys(index, index, np.zeros(1, np.intp), 1)
         todo = todo | {"statistics"}
     _prepared |= todo
