@@ -264,7 +264,56 @@ def truncated_topology(topology, positions_angstrom, residues):
     return new, np.array(pos, np.float64).reshape(-1, 3), np.array(origin, np.intp)
 
 
-def template_models(topology, positions_angstrom, residues, force_field) -> dict:
+@dataclass(frozen=True)
+class Truncation:
+    """The truncated model of :func:`truncated_topology` parameterised by one ``createSystem``.
+
+    ``topology`` (openmm.app.Topology), ``positions`` (n, 3) A, ``origin`` (n,) intp (-1: rebuilt),
+    ``openmm_system`` (openmm.System, NoCutoff, no constraints).
+    """
+
+    topology: object
+    positions: np.ndarray
+    origin: np.ndarray
+    openmm_system: object
+
+
+def parameterised_truncation(topology, positions_angstrom, residues, force_field) -> Truncation:
+    """Every residue in ``residues`` truncated to alanine and the model parameterised once.
+
+    Parameters
+    ----------
+    topology : openmm.app.Topology
+        The wild type's (prepared) topology.
+    positions_angstrom : (n_atoms, 3) float64
+        Wild-type positions, A.
+    residues : sequence of int
+        Residue indices (0-based) to truncate.
+    force_field : openmm.app.ForceField
+        The force field of the wild type.
+
+    Returns
+    -------
+    Truncation
+        The truncated topology, positions (A), origins and its ``openmm.System``.
+
+    Raises
+    ------
+    EnergyError
+        If the force field cannot parameterise the truncated model.
+    """
+    from openmm import app
+    top, pos, origin = truncated_topology(topology, positions_angstrom, residues)
+    try:
+        omm = force_field.createSystem(top, nonbondedMethod=app.NoCutoff, constraints=None,
+                                       rigidWater=False, removeCMMotion=False)
+    except ValueError as exc:
+        raise EnergyError(f"the force field cannot parameterise the alanine mutants: "
+                          f"{' '.join(str(exc).split())[:200]}") from None
+    return Truncation(top, pos, origin, omm)
+
+
+def template_models(topology, positions_angstrom, residues, force_field, truncation: Truncation | None = None) -> dict:
     """Alanine models of ``residues`` parameterised by ``force_field`` (one ``createSystem``).
 
     Only the NonbondedForce parameters of the truncated residues are read (converted as
@@ -281,6 +330,8 @@ def template_models(topology, positions_angstrom, residues, force_field) -> dict
         Residue indices (0-based) to truncate.
     force_field : openmm.app.ForceField
         The force field of the wild type.
+    truncation : Truncation or None, optional
+        The :func:`parameterised_truncation` of the same residues, when the caller has it.
 
     Returns
     -------
@@ -292,17 +343,12 @@ def template_models(topology, positions_angstrom, residues, force_field) -> dict
     EnergyError
         If the force field cannot parameterise the truncated model.
     """
-    from openmm import NonbondedForce, app
+    from openmm import NonbondedForce
 
     from energy.io.openmm_nonbonded import RMIN_PER_SIGMA
     from energy.units import ANGSTROM_PER_NM, KJ_PER_KCAL
-    top, pos, origin = truncated_topology(topology, positions_angstrom, residues)
-    try:
-        omm = force_field.createSystem(top, nonbondedMethod=app.NoCutoff, constraints=None,
-                                       rigidWater=False, removeCMMotion=False)
-    except ValueError as exc:
-        raise EnergyError(f"the force field cannot parameterise the alanine mutants: "
-                          f"{' '.join(str(exc).split())[:200]}") from None
+    truncation = truncation or parameterised_truncation(topology, positions_angstrom, residues, force_field)
+    top, pos, origin, omm = truncation.topology, truncation.positions, truncation.origin, truncation.openmm_system
     nb = next(f for f in omm.getForces() if isinstance(f, NonbondedForce))
     atoms = list(top.atoms())
     by_residue = {}
