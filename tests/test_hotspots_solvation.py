@@ -17,6 +17,8 @@ descreen).
 """
 from __future__ import annotations
 
+import functools
+
 import numpy as np
 import openmm
 import pytest
@@ -86,8 +88,13 @@ def _openmm_solvation(path, model, cutoff=None):
     return {"solvation_polar": out[None], "solvation_nonpolar": out["ACE"] - out[None]}
 
 
+@functools.cache
+def _loaded(path):
+    return load_system(path)
+
+
 def _ours(path, settings):
-    loaded = load_system(path)
+    loaded = _loaded(path)
     totals = compute(loaded.system, loaded.frame, settings).totals
     return {t: totals[t] for t in ("coulomb", "lj", *SOLVATION)}
 
