@@ -23,11 +23,11 @@ import numpy as np
 
 from energy._kernels.born import gb_pair_table
 from energy._kernels.csr import interleaved_rows
-from energy.errors import EnergyError
+from energy.errors import EnergyError, SettingsError
 from energy.model.settings import EnergySettings
 from energy.model.system import Frame, MolecularSystem
 from energy.terms.born_parameters import BornParameters, born_parameters, neck_tables
-from energy.terms.solvation import ace_energies, compute_born_radii, self_energies
+from energy.terms.solvation import MAX_RESIDUES, ace_energies, compute_born_radii, self_energies
 from energy.units import COULOMB_CONSTANT
 
 #: The registry's many-body solvation terms the scan adds with implicit solvent.
@@ -88,7 +88,16 @@ def solvation_totals(params: BornParameters, positions, charges, resindex, setti
     dict
         ``solvation_polar`` (self terms plus every GB pair) and ``solvation_nonpolar`` (ACE, or 0),
         kcal/mol.
+
+    Raises
+    ------
+    SettingsError
+        If the atoms span more than :data:`~energy.terms.solvation.MAX_RESIDUES` residues (the GB
+        pair sums are gathered in a dense residue table, as in the energy scan).
     """
+    if len(np.unique(resindex)) > MAX_RESIDUES:
+        raise SettingsError(f"implicit solvent is limited to {MAX_RESIDUES} residues (the two selections "
+                            f"hold {len(np.unique(resindex))}); remove explicit water and ions from them first")
     x = np.ascontiguousarray(positions, np.float64)
     q = np.ascontiguousarray(charges, np.float64)
     rc = settings.cutoff_angstrom

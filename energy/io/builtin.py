@@ -181,7 +181,7 @@ def load_builtin_prepared(path: str, options, force_field=DEFAULT_FORCE_FIELD):
     """
     from openmm import app
 
-    from energy.io.preparation import UnmatchedResidues, prepare_structure
+    from energy.io.preparation import UnmatchedResidues, prepare_structure, unmatched_residues
     label = " + ".join([*force_field, *(os.path.basename(f) for f in options.forcefield_files)])
     ff = build_force_field(force_field, options.forcefield_files)
     check_coordinate_text(plain_file(path))  # strict numbers and records before OpenMM reads it
@@ -194,8 +194,9 @@ def load_builtin_prepared(path: str, options, force_field=DEFAULT_FORCE_FIELD):
     if any(os.path.basename(f) in FOUR_SITE_WATER_FILES for f in force_field):
         prepared = _with_extra_particles(prepared, ff)
     topology = prepared.topology
-    if ff.getUnmatchedResidues(topology):
-        raise _unmatched_error(path, ff, topology, options, label, gaps=prepared.record.gaps)
+    unmatched = unmatched_residues(topology, ff)
+    if unmatched:
+        raise _unmatched_error(path, ff, topology, options, label, unmatched, prepared.record.gaps)
     try:
         omm_system = ff.createSystem(topology, nonbondedMethod=app.NoCutoff, constraints=None,
                                      rigidWater=False, removeCMMotion=False)
