@@ -213,3 +213,30 @@ def test_switched_off_solvation_matches_openmm_without_the_removed_atoms(fixed):
         ref = binding(a, b) - wild
         assert scan.delta["solvation_polar"][k] == pytest.approx(ref, rel=1e-4), system.residues.label(r)
         assert abs(ref) > 0.1
+
+
+def test_scenario_gb_scan_matches_the_recorded_facts(fixed):
+    """samples/scenario/scenario.json "hotspots_gb", computed by samples/scenario_hotspots.py --gb
+    from OpenMM's own systems (ForceField + implicit/obc2.xml, CustomGBForce) without Tessera's
+    engine: per-term dE of the named residues, their ranks, the count above the marker; and the
+    clashing Trp on the clashing model."""
+    import json
+    import os
+
+    from data import SCENARIO_CLASH_PDB, SCENARIO_DIR
+    facts = json.load(open(os.path.join(SCENARIO_DIR, "scenario.json")))
+    gb = facts["hotspots_gb"]
+    scan = scan_loaded(fixed, EnergySettings(implicit_solvent="obc2"), A, B)
+    labels = list(scan.label)
+    assert len(scan) == gb["fixed"]["n_scanned"] and int(scan.is_hot.sum()) == gb["fixed"]["n_hot"]
+    assert labels[:5] == gb["fixed"]["top5"]
+    for label, terms in gb["fixed"]["terms_kcal_mol"].items():
+        k = labels.index(label)
+        assert k + 1 == gb["fixed"]["rank"][label]
+        for t, v in terms.items():
+            assert scan.delta[t][k] == pytest.approx(v, abs=0.002), (label, t)
+    clash = scan_loaded(load_system(SCENARIO_CLASH_PDB), EnergySettings(implicit_solvent="obc2"), A, B)
+    trp = facts["clash"][0]
+    k = list(clash.label).index(trp)
+    assert k == len(clash) - 1  # still the most favourable change: the removed clash dominates
+    assert clash.total[k] == pytest.approx(gb["clash"]["delta_kcal_mol"][trp], abs=0.002)

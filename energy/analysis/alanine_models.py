@@ -20,6 +20,7 @@ back has exactly the scanned coordinates.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
@@ -277,6 +278,12 @@ class Truncation:
     origin: np.ndarray
     openmm_system: object
 
+    @cached_property
+    def system(self) -> MolecularSystem:
+        """The truncated model as a :class:`MolecularSystem` (converted once, when asked for)."""
+        from energy.io.openmm_system import system_from_openmm
+        return system_from_openmm(self.openmm_system, self.topology)
+
 
 def parameterised_truncation(topology, positions_angstrom, residues, force_field) -> Truncation:
     """Every residue in ``residues`` truncated to alanine and the model parameterised once.
@@ -316,9 +323,11 @@ def parameterised_truncation(topology, positions_angstrom, residues, force_field
 def template_models(topology, positions_angstrom, residues, force_field, truncation: Truncation | None = None) -> dict:
     """Alanine models of ``residues`` parameterised by ``force_field`` (one ``createSystem``).
 
-    Only the NonbondedForce parameters of the truncated residues are read (converted as
+    The NonbondedForce parameters of the truncated residues are read (converted as
     :func:`energy.io.builtin.system_from_openmm` converts them: kJ -> kcal, nm -> A,
-    Rmin = 2^(1/6) sigma).
+    Rmin = 2^(1/6) sigma).  A force field whose LJ lives in a CustomNonbondedForce (CHARMM36:
+    the NonbondedForce carries only the charges) gets the LJ of the converted truncated model
+    (:attr:`Truncation.system`, :func:`per_atom_lj`).
 
     Parameters
     ----------
@@ -354,11 +363,17 @@ def template_models(topology, positions_angstrom, residues, force_field, truncat
     by_residue = {}
     for a in atoms:
         by_residue.setdefault(a.residue.index, []).append(a.index)
+    from openmm import CustomNonbondedForce
+    lj_elsewhere = any(isinstance(f, CustomNonbondedForce) for f in omm.getForces())
+    if lj_elsewhere:
+        rmin_half, eps = per_atom_lj(truncation.system)
     models = {}
     for r in residues:
         rows = np.array(by_residue[int(r)], np.intp)
         p = np.array([[v._value for v in nb.getParticleParameters(int(i))] for i in rows]).reshape(-1, 3)
+        rh, ee = ((rmin_half[rows], eps[rows]) if lj_elsewhere else
+                  (RMIN_PER_SIGMA * p[:, 1] * ANGSTROM_PER_NM / 2.0, p[:, 2] / KJ_PER_KCAL))
         models[int(r)] = ResidueModel(
-            int(r), origin[rows], np.array([atoms[i].name for i in rows]), pos[rows], p[:, 0],
-            RMIN_PER_SIGMA * p[:, 1] * ANGSTROM_PER_NM / 2.0, p[:, 2] / KJ_PER_KCAL, ALA_TEMPLATE)
+            int(r), origin[rows], np.array([atoms[i].name for i in rows]), pos[rows], p[:, 0], rh, ee,
+            ALA_TEMPLATE)
     return models

@@ -215,7 +215,6 @@ def template_born_parameters(truncation, residues, model: str) -> dict:
         :func:`~energy.analysis.alanine_models.template_models` (the residue's atoms in the
         truncated topology).
     """
-    from energy.io.openmm_system import system_from_openmm
-    truncated = system_from_openmm(truncation.openmm_system, truncation.topology)
+    truncated = truncation.system
     params = born_parameters(truncated, model)
     return {int(r): joined_parameters([(params, np.flatnonzero(truncated.resindex == int(r)))]) for r in residues}
