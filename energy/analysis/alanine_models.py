@@ -280,7 +280,14 @@ class Truncation:
 
     @cached_property
     def system(self) -> MolecularSystem:
-        """The truncated model as a :class:`MolecularSystem` (converted once, when asked for)."""
+        """The truncated model as a :class:`MolecularSystem` (converted once, when asked for).
+
+        Returns
+        -------
+        MolecularSystem
+            :func:`energy.io.openmm_system.system_from_openmm` of ``openmm_system`` and ``topology``
+            (kcal/mol, A).
+        """
         from energy.io.openmm_system import system_from_openmm
         return system_from_openmm(self.openmm_system, self.topology)
 

@@ -10,7 +10,9 @@ changes only the rows of its own residue, so
 
 (``removed`` and ``rebuilt`` in the result), with the pair forms, cutoff and minimum image of
 :func:`energy.decomposition.atom_pairs.atom_pair_energies`.  Rows are evaluated residue by residue
-(k atoms x the partner's atoms), never as one table of every A-B pair.
+(k atoms x the partner's atoms), never as one table of every A-B pair.  With implicit solvent the
+change of the generalized-Born solvation of binding is added per mutant
+(:mod:`energy.analysis.hotspot_solvation`: many-body, recomputed exactly).
 Conventions (classes, the 2 kcal/mol flag, what the number is not) are in docs/physics.md, "Alanine scan".
 """
 from __future__ import annotations
