@@ -10,11 +10,19 @@ field for the atoms, CB's hydrogens then set to an ideal staggered methyl, N-CA-
 every A-B atom pair of OpenMM's own NonbondedForce parameters (plain Coulomb, eps = 1,
 Lorentz-Berthelot LJ, no cutoff, vacuum).
 
-Run:  .venv/bin/python samples/scenario_hotspots.py
+With ``--gb`` it records the same scan with generalized Born solvation ("hotspots_gb"): each
+mutant's change of the solvation of binding, G_solv(AB) - G_solv(A) - G_solv(B), from OpenMM's
+own ``ForceField('amber14-all.xml', 'implicit/obc2.xml')`` systems of the complex and of each chain
+alone (CustomGBForce on the Reference platform; ``sasaMethod=None`` the polar part, ``'ACE'``
+minus that the nonpolar part; solute dielectric 1, solvent 78.5, no salt, no cutoff), added to the
+vacuum interaction change above.  On the clashing model only the residues named in the facts.
+
+Run:  .venv/bin/python samples/scenario_hotspots.py [--gb]
 """
 from __future__ import annotations
 
 import json
+import sys
 from pathlib import Path
 
 import numpy as np
@@ -55,6 +63,84 @@ def interaction(topology, positions_nm):
     return coul.sum() * KJ2KCAL, lj.sum() * KJ2KCAL
 
 
+FF_GB = app.ForceField("amber14-all.xml", "implicit/obc2.xml")
+
+
+def _gb_energy(topology, positions_nm, sasa):
+    import openmm
+    system = FF_GB.createSystem(topology, nonbondedMethod=app.NoCutoff, constraints=None, sasaMethod=sasa)
+    for g, force in enumerate(system.getForces()):
+        force.setForceGroup(g)
+    gb = next(g for g, f in enumerate(system.getForces()) if isinstance(f, openmm.CustomGBForce))
+    ctx = openmm.Context(system, openmm.VerletIntegrator(1.0), openmm.Platform.getPlatformByName("Reference"))
+    ctx.setPositions(positions_nm)
+    return ctx.getState(getEnergy=True, groups={gb}).getPotentialEnergy().value_in_unit(u.kilocalorie_per_mole)
+
+
+def solvation(topology, positions_nm, chains):
+    """Polar and nonpolar solvation (kcal/mol) of the chains ``chains`` alone."""
+    m = app.Modeller(topology, positions_nm * u.nanometer)
+    m.delete([c for c in m.topology.chains() if c.id not in chains])
+    x = np.asarray(m.getPositions().value_in_unit(u.nanometer))
+    polar = _gb_energy(m.topology, x, None)
+    return np.array([polar, _gb_energy(m.topology, x, "ACE") - polar])
+
+
+def binding_solvation(topology, positions_nm, mutated_chain=None, wild=None):
+    """G_solv(AB) - G_solv(A) - G_solv(B), polar and nonpolar; with ``mutated_chain`` the
+    unchanged chain's solvation is taken from ``wild`` (it cancels)."""
+    parts = {"AB": solvation(topology, positions_nm, {"A", "B"})}
+    for c in ("A", "B"):
+        parts[c] = solvation(topology, positions_nm, {c}) if c == mutated_chain or wild is None else wild[c]
+    return parts["AB"] - parts["A"] - parts["B"], parts
+
+
+def mutants(pdb, x, res, only=None):
+    """(label, topology, positions nm, chain) of each single alanine mutant."""
+    residues = list(pdb.topology.residues())
+    for r in res:
+        label = f"{residues[r].chain.id}:{residues[r].name}{residues[r].id}"
+        if only is not None and label not in only:
+            continue
+        m = app.Modeller(pdb.topology, pdb.positions)
+        m.delete([at for at in m.topology.atoms() if at.residue.index == r and at.name not in KEEP])
+        list(m.topology.residues())[r].name = "ALA"
+        m.addHydrogens(forcefield=None)
+        pos = np.asarray(m.getPositions().value_in_unit(u.nanometer))
+        res_m = list(m.topology.residues())[r]
+        byname = {at.name: at.index for at in res_m.atoms()}
+        n, ca, cb = (pos[byname[k]] * 10 for k in ("N", "CA", "CB"))
+        for k in range(3):  # ideal staggered methyl (Modeller's own placement is random), PDB precision
+            pos[byname[f"HB{k + 1}"]] = np.round(ideal(n, ca, cb, 1.09, 109.47, 60.0 + 120.0 * k), 3) / 10
+        yield label, m.topology, pos, residues[r].chain.id
+
+
+def interface(pdb, x):
+    atoms = list(pdb.topology.atoms())
+    chain = np.array([a.residue.chain.id for a in atoms])
+    a, b = np.flatnonzero(chain == "A"), np.flatnonzero(chain == "B")
+    coo = cKDTree(x[a] * 10).sparse_distance_matrix(cKDTree(x[b] * 10), 5.0, output_type="ndarray")
+    res = sorted({atoms[i].residue.index for i in a[coo["i"]]} | {atoms[j].residue.index for j in b[coo["j"]]})
+    residues = list(pdb.topology.residues())
+    return [r for r in res if residues[r].name not in ("GLY", "ALA")]
+
+
+def scan_gb(path, only=None):
+    """Per-term change (coulomb, lj, solvation_polar, solvation_nonpolar) of each mutant, kcal/mol."""
+    pdb = app.PDBFile(str(path))
+    x = pdb.getPositions(asNumpy=True).value_in_unit(u.nanometer)
+    wild_pair = np.array(interaction(pdb.topology, x))
+    wild_solv, wild_parts = binding_solvation(pdb.topology, x)
+    out = {}
+    for label, top, pos, chain in mutants(pdb, x, interface(pdb, x), only):
+        solv, _ = binding_solvation(top, pos, chain, wild_parts)
+        d = np.r_[np.array(interaction(top, pos)) - wild_pair, solv - wild_solv]
+        out[label] = dict(zip(("coulomb", "lj", "solvation_polar", "solvation_nonpolar"), d.tolist()))
+        print(f"{label:10s} " + " ".join(f"{v:9.3f}" for v in d) + f"  total {d.sum():9.3f}", flush=True)
+    wild = dict(zip(("coulomb", "lj", "solvation_polar", "solvation_nonpolar"), np.r_[wild_pair, wild_solv].tolist()))
+    return out, wild
+
+
 def scan(path):
     pdb = app.PDBFile(str(path))
     x = pdb.getPositions(asNumpy=True).value_in_unit(u.nanometer)
@@ -85,7 +171,35 @@ def scan(path):
     return out, ranked
 
 
+def main_gb():
+    facts = json.loads((OUT / "scenario.json").read_text())
+    keep = facts["salt_bridge"] + facts["hydrophobic"] + facts["clash"][:1]
+    block = {"method": "as 'hotspots', plus the change of the generalized-Born solvation of binding "
+             "G_solv(AB) - G_solv(A) - G_solv(B): OpenMM ForceField('amber14-all.xml', 'implicit/obc2.xml') "
+             "of the complex and of each chain alone, CustomGBForce on the Reference platform (polar: "
+             "sasaMethod=None; nonpolar: 'ACE' minus polar), solute dielectric 1, solvent 78.5, no salt, "
+             "no cutoff; computed by samples/scenario_hotspots.py --gb (independent of Tessera's engine); "
+             "on the clashing model only the residues listed"}
+    for variant, only in (("fixed", None), ("clash", set(keep))):
+        delta, wild = scan_gb(OUT / facts["files"][variant], only)
+        total = {k: sum(v.values()) for k, v in delta.items()}
+        ranked = sorted(total, key=lambda k: -total[k])
+        entry = {"wild_type_kcal_mol": {t: round(v, 3) for t, v in wild.items()},
+                 "delta_kcal_mol": {k: round(total[k], 3) for k in keep if k in total},
+                 "terms_kcal_mol": {k: {t: round(v, 3) for t, v in delta[k].items()} for k in keep if k in delta}}
+        if only is None:
+            entry.update({"n_scanned": len(delta), "top5": ranked[:5],
+                          "rank": {k: ranked.index(k) + 1 for k in keep if k in total},
+                          "n_hot": sum(v >= 2.0 for v in total.values())})
+        block[variant] = entry
+    facts = json.loads((OUT / "scenario.json").read_text())
+    facts["hotspots_gb"] = block
+    (OUT / "scenario.json").write_text(json.dumps(facts, indent=2) + "\n")
+
+
 def main():
+    if "--gb" in sys.argv[1:]:
+        return main_gb()
     facts = json.loads((OUT / "scenario.json").read_text())
     block = {"method": "alanine truncation (OpenMM Modeller, CB hydrogens as an ideal staggered methyl, "
              "amber14-all.xml), A-B nonbonded interaction change dE = E_int(mutant) - E_int(wild type), "

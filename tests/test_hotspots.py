@@ -226,26 +226,28 @@ def test_periodic_cutoff_scan_matches_the_written_mutant(tmp_path):
         assert scan.total[k] == pytest.approx(direct["total"] - wild["total"], abs=1e-6)
 
 
-def test_scan_under_another_force_field_matches_its_written_mutants(tmp_path):
-    """`tessera hotspots --forcefield amber19` (OpenMM's bundled amber19-all.xml): each dE equals
-    the written mutant loaded under Amber 19 and recomputed in full.  This checks the route with
-    a chosen force field end to end; it cannot tell Amber 19 from Amber 14 in the mutants, since
-    ff19SB keeps ff14SB's charges and LJ (CHARMM36 would, but the scenario's Amber-named termini
-    match no CHARMM36 template)."""
+@pytest.mark.parametrize("name", ["amber19", "charmm36"])
+def test_scan_under_another_force_field_matches_its_written_mutants(tmp_path, name):
+    """`tessera hotspots --forcefield amber19|charmm36` (OpenMM's bundled amber19-all.xml, and
+    charmm36.xml whose LJ is a CustomNonbondedForce and whose termini are patches): each dE, per
+    term, equals the written mutant loaded under the same force field and recomputed in full.
+    Amber 19 keeps ff14SB's charges and LJ, so only CHARMM36 tells the chosen force field's ALA
+    template from Amber 14's."""
     import json as _json
 
     from app.cli.main import main
     from energy.io.preparation import PreparationOptions
     out = tmp_path / "h.json"
-    assert main(["hotspots", SCENARIO_FIXED_PDB, "--select-a", A, "--select-b", B, "--forcefield", "amber19",
+    assert main(["hotspots", SCENARIO_FIXED_PDB, "--select-a", A, "--select-b", B, "--forcefield", name,
                  "--json", str(out), "--quiet"]) == 0
     rows = {r["label"]: r for r in _json.loads(out.read_text())["residues"]}
-    amber19 = PreparationOptions(force_field_name="amber19")
-    wild_loaded = load_system(SCENARIO_FIXED_PDB, preparation=amber19)
+    options = PreparationOptions(force_field_name=name)
+    wild_loaded = load_system(SCENARIO_FIXED_PDB, preparation=options)
     wild = selection_interaction(wild_loaded.system, wild_loaded.frame, None, A, B)
     for label in ("A:GLU7", "B:TRP33"):
         r = _index(wild_loaded.system, label)
         path, *_ = _write_mutant(wild_loaded, r, tmp_path)
-        mutant = load_system(path, preparation=amber19)
+        mutant = load_system(path, preparation=options)
         direct = selection_interaction(mutant.system, mutant.frame, None, A, B)
-        assert rows[label]["delta_total"] == pytest.approx(direct["total"] - wild["total"], abs=1e-6)
+        for term in ("coulomb", "lj"):
+            assert rows[label][f"delta_{term}"] == pytest.approx(direct[term] - wild[term], abs=1e-6), (label, term)

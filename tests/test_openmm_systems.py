@@ -347,3 +347,22 @@ def test_pdb_route_adds_the_sites_of_a_four_site_water(small_solvated, tmp_path,
     assert "amber19" in listing and "charmm36" in listing and "opc" in listing
     assert main(["scan", str(pdb), "--forcefield", "charmm36", "--water", "opc"]) == 2  # CHARMM36 has no OPC
     assert "--water opc: the charmm36 force field has" in capsys.readouterr().err
+
+
+def test_charmm36_accepts_amber_named_termini_and_matches_openmm():
+    """The scenario's PDB (Amber-named termini: H1/H2/H3, OXT) under --forcefield charmm36: OpenMM's
+    createSystem matches its termini through CHARMM36's NTER/CTER patches (getUnmatchedResidues,
+    which ignores patches, reported every terminus and the loader used to refuse them).  Every term
+    against ForceField('charmm36.xml', 'charmm36/water.xml').createSystem on OpenMM's own PDBFile
+    read of the same file, Reference platform (tests/openmm_terms.py)."""
+    from data import SCENARIO_FIXED_PDB
+    files = force_field_files("charmm36")
+    system, frame, _, _ = load_builtin(SCENARIO_FIXED_PDB, force_field=files)
+    pdb = app.PDBFile(SCENARIO_FIXED_PDB)
+    omm = app.ForceField(*files).createSystem(pdb.topology, nonbondedMethod=app.NoCutoff, constraints=None,
+                                              rigidWater=False, removeCMMotion=False)
+    assert system.n_atoms == pdb.topology.getNumAtoms()
+    names = [a.name for a in next(pdb.topology.residues()).atoms()]
+    assert {"H2", "H3"} <= set(names)  # an Amber-style N terminus (OpenMM reads H1 as H)
+    ours = compute(system, frame, EnergySettings())
+    _compare_terms(ours, reference_terms(omm, pdb.topology, frame.positions))

@@ -20,6 +20,7 @@ back has exactly the scanned coordinates.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
@@ -264,12 +265,35 @@ def truncated_topology(topology, positions_angstrom, residues):
     return new, np.array(pos, np.float64).reshape(-1, 3), np.array(origin, np.intp)
 
 
-def template_models(topology, positions_angstrom, residues, force_field) -> dict:
-    """Alanine models of ``residues`` parameterised by ``force_field`` (one ``createSystem``).
+@dataclass(frozen=True)
+class Truncation:
+    """The truncated model of :func:`truncated_topology` parameterised by one ``createSystem``.
 
-    Only the NonbondedForce parameters of the truncated residues are read (converted as
-    :func:`energy.io.builtin.system_from_openmm` converts them: kJ -> kcal, nm -> A,
-    Rmin = 2^(1/6) sigma).
+    ``topology`` (openmm.app.Topology), ``positions`` (n, 3) A, ``origin`` (n,) intp (-1: rebuilt),
+    ``openmm_system`` (openmm.System, NoCutoff, no constraints).
+    """
+
+    topology: object
+    positions: np.ndarray
+    origin: np.ndarray
+    openmm_system: object
+
+    @cached_property
+    def system(self) -> MolecularSystem:
+        """The truncated model as a :class:`MolecularSystem` (converted once, when asked for).
+
+        Returns
+        -------
+        MolecularSystem
+            :func:`energy.io.openmm_system.system_from_openmm` of ``openmm_system`` and ``topology``
+            (kcal/mol, A).
+        """
+        from energy.io.openmm_system import system_from_openmm
+        return system_from_openmm(self.openmm_system, self.topology)
+
+
+def parameterised_truncation(topology, positions_angstrom, residues, force_field) -> Truncation:
+    """Every residue in ``residues`` truncated to alanine and the model parameterised once.
 
     Parameters
     ----------
@@ -284,6 +308,49 @@ def template_models(topology, positions_angstrom, residues, force_field) -> dict
 
     Returns
     -------
+    Truncation
+        The truncated topology, positions (A), origins and its ``openmm.System``.
+
+    Raises
+    ------
+    EnergyError
+        If the force field cannot parameterise the truncated model.
+    """
+    from openmm import app
+    top, pos, origin = truncated_topology(topology, positions_angstrom, residues)
+    try:
+        omm = force_field.createSystem(top, nonbondedMethod=app.NoCutoff, constraints=None,
+                                       rigidWater=False, removeCMMotion=False)
+    except ValueError as exc:
+        raise EnergyError(f"the force field cannot parameterise the alanine mutants: "
+                          f"{' '.join(str(exc).split())[:200]}") from None
+    return Truncation(top, pos, origin, omm)
+
+
+def template_models(topology, positions_angstrom, residues, force_field, truncation: Truncation | None = None) -> dict:
+    """Alanine models of ``residues`` parameterised by ``force_field`` (one ``createSystem``).
+
+    The NonbondedForce parameters of the truncated residues are read (converted as
+    :func:`energy.io.builtin.system_from_openmm` converts them: kJ -> kcal, nm -> A,
+    Rmin = 2^(1/6) sigma).  A force field whose LJ lives in a CustomNonbondedForce (CHARMM36:
+    the NonbondedForce carries only the charges) gets the LJ of the converted truncated model
+    (:attr:`Truncation.system`, :func:`per_atom_lj`).
+
+    Parameters
+    ----------
+    topology : openmm.app.Topology
+        The wild type's (prepared) topology.
+    positions_angstrom : (n_atoms, 3) float64
+        Wild-type positions, A.
+    residues : sequence of int
+        Residue indices (0-based) to truncate.
+    force_field : openmm.app.ForceField
+        The force field of the wild type.
+    truncation : Truncation or None, optional
+        The :func:`parameterised_truncation` of the same residues, when the caller has it.
+
+    Returns
+    -------
     dict
         Residue index -> :class:`ResidueModel` (method :data:`ALA_TEMPLATE`).
 
@@ -292,27 +359,28 @@ def template_models(topology, positions_angstrom, residues, force_field) -> dict
     EnergyError
         If the force field cannot parameterise the truncated model.
     """
-    from openmm import NonbondedForce, app
+    from openmm import NonbondedForce
 
     from energy.io.openmm_nonbonded import RMIN_PER_SIGMA
     from energy.units import ANGSTROM_PER_NM, KJ_PER_KCAL
-    top, pos, origin = truncated_topology(topology, positions_angstrom, residues)
-    try:
-        omm = force_field.createSystem(top, nonbondedMethod=app.NoCutoff, constraints=None,
-                                       rigidWater=False, removeCMMotion=False)
-    except ValueError as exc:
-        raise EnergyError(f"the force field cannot parameterise the alanine mutants: "
-                          f"{' '.join(str(exc).split())[:200]}") from None
+    truncation = truncation or parameterised_truncation(topology, positions_angstrom, residues, force_field)
+    top, pos, origin, omm = truncation.topology, truncation.positions, truncation.origin, truncation.openmm_system
     nb = next(f for f in omm.getForces() if isinstance(f, NonbondedForce))
     atoms = list(top.atoms())
     by_residue = {}
     for a in atoms:
         by_residue.setdefault(a.residue.index, []).append(a.index)
+    from openmm import CustomNonbondedForce
+    lj_elsewhere = any(isinstance(f, CustomNonbondedForce) for f in omm.getForces())
+    if lj_elsewhere:
+        rmin_half, eps = per_atom_lj(truncation.system)
     models = {}
     for r in residues:
         rows = np.array(by_residue[int(r)], np.intp)
         p = np.array([[v._value for v in nb.getParticleParameters(int(i))] for i in rows]).reshape(-1, 3)
+        rh, ee = ((rmin_half[rows], eps[rows]) if lj_elsewhere else
+                  (RMIN_PER_SIGMA * p[:, 1] * ANGSTROM_PER_NM / 2.0, p[:, 2] / KJ_PER_KCAL))
         models[int(r)] = ResidueModel(
-            int(r), origin[rows], np.array([atoms[i].name for i in rows]), pos[rows], p[:, 0],
-            RMIN_PER_SIGMA * p[:, 1] * ANGSTROM_PER_NM / 2.0, p[:, 2] / KJ_PER_KCAL, ALA_TEMPLATE)
+            int(r), origin[rows], np.array([atoms[i].name for i in rows]), pos[rows], p[:, 0], rh, ee,
+            ALA_TEMPLATE)
     return models

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from energy.analysis.alanine_models import switched_off_model, template_models
+from energy.analysis.alanine_models import parameterised_truncation, switched_off_model, template_models
 from energy.analysis.hotspots import (
     DEFAULT_INTERFACE_ANGSTROM,
     NOT_SCANNED,
@@ -21,7 +21,7 @@ from energy.analysis.hotspots import (
     interface_residues,
     residue_flag,
 )
-from energy.errors import SelectionError, SettingsError
+from energy.errors import SelectionError
 from energy.io.selection import select_atoms, universe_for
 
 
@@ -108,12 +108,7 @@ def scan_loaded(loaded, settings, select_a: str, select_b: str,
     ------
     SelectionError
         Invalid, overlapping or residue-splitting selections, or no interface.
-    SettingsError
-        Implicit-solvent settings (the scan is in vacuo).
     """
-    if settings is not None and getattr(settings, "implicit_solvent", None):
-        raise SettingsError("the alanine scan does not include generalized-Born solvation yet: run it "
-                            "without implicit solvent (the scan's energies are in vacuo)")
     system, frame = loaded.system, loaded.frame
     u = universe_for(system, frame)
     atoms_a = select_atoms(system, frame, select_a, u)
@@ -126,13 +121,18 @@ def scan_loaded(loaded, settings, select_a: str, select_b: str,
     switched = [r for r in scanned if flags.get(r) == "disulfide" or loaded.prepared_topology is None
                 or (flags.get(r) == "proline" and _is_chain_start(system, r))]
     templated = [r for r in scanned if r not in set(switched)]
-    models = {}
+    models, model_born = {}, None
     if templated:
         if force_field is None:
             from energy.io.builtin import build_force_field
             force_field = build_force_field()
-        models.update(template_models(loaded.prepared_topology, frame.positions, templated, force_field))
+        truncation = parameterised_truncation(loaded.prepared_topology, frame.positions, templated, force_field)
+        models.update(template_models(loaded.prepared_topology, frame.positions, templated, force_field,
+                                      truncation))
+        if settings is not None and settings.implicit_solvent is not None:
+            from energy.analysis.hotspot_solvation import template_born_parameters
+            model_born = template_born_parameters(truncation, templated, settings.implicit_solvent)
     for r in switched:
         models[r] = switched_off_model(system, frame.positions, r, system.bonds.atoms)
     return alanine_scan(system, frame, settings, atoms_a, atoms_b, models, skipped, flags,
-                        select_a, select_b, interface_angstrom, progress)
+                        select_a, select_b, interface_angstrom, progress, model_born)

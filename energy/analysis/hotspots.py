@@ -10,7 +10,9 @@ changes only the rows of its own residue, so
 
 (``removed`` and ``rebuilt`` in the result), with the pair forms, cutoff and minimum image of
 :func:`energy.decomposition.atom_pairs.atom_pair_energies`.  Rows are evaluated residue by residue
-(k atoms x the partner's atoms), never as one table of every A-B pair.
+(k atoms x the partner's atoms), never as one table of every A-B pair.  With implicit solvent the
+change of the generalized-Born solvation of binding is added per mutant
+(:mod:`energy.analysis.hotspot_solvation`: many-body, recomputed exactly).
 Conventions (classes, the 2 kcal/mol flag, what the number is not) are in docs/physics.md, "Alanine scan".
 """
 from __future__ import annotations
@@ -68,7 +70,7 @@ def pair_term_values(pairs_coulomb: np.ndarray, pairs_lj: np.ndarray) -> dict:
     -------
     dict
         Term name -> (n,) float64 kcal/mol, in registry order (the pairwise terms: Coulomb and LJ;
-        the many-body generalized-Born terms are not part of the scan).
+        the many-body generalized-Born terms have no per-pair form and are added apart).
 
     Raises
     ------
@@ -76,8 +78,8 @@ def pair_term_values(pairs_coulomb: np.ndarray, pairs_lj: np.ndarray) -> dict:
         If the registry holds a nonbonded term that has no atom-pair form here.
     """
     known = {"coulomb": pairs_coulomb, "lj": pairs_lj}
-    # the generalized-Born terms are many-body (Born radii) and zero in vacuo; the scan runs in
-    # vacuo only (scan_loaded refuses implicit-solvent settings) and leaves them out
+    # the generalized-Born terms are many-body (Born radii): not pair values; with implicit
+    # solvent the scan adds them from energy.analysis.hotspot_solvation
     missing = [t for t in registry.NONBONDED_TERMS if t not in known and t not in MANY_BODY_TERMS]
     if missing:
         raise EnergyError(f"the alanine scan has no atom-pair form for the term(s) {', '.join(missing)}")
@@ -90,8 +92,10 @@ class HotspotScan:
 
     ``residue`` (n,) intp; ``side`` (n,) str ``"A"``/``"B"``; ``label``, ``resname``,
     ``side_chain_class``, ``method`` (:data:`ALA_TEMPLATE` or :data:`SWITCHED_OFF`) and ``flag``
-    (``""``, ``"proline"``, ``"disulfide"``) (n,) str; ``delta`` term -> (n,) float64 kcal/mol;
-    ``removed`` and ``rebuilt`` (n,) kcal/mol (dE = removed + rebuilt); ``lost_partner`` (n, 3)
+    (``""``, ``"proline"``, ``"disulfide"``) (n,) str; ``delta`` term -> (n,) float64 kcal/mol
+    (with implicit solvent also ``solvation_polar`` and ``solvation_nonpolar``: the change of the
+    binding solvation, energy.analysis.hotspot_solvation); ``removed`` and ``rebuilt`` (n,) kcal/mol,
+    the pairwise terms' split (dE = removed + rebuilt + the solvation terms); ``lost_partner`` (n, 3)
     intp (-1 padding) and ``lost_energy`` (n, 3) kcal/mol: partner residues with the largest
     increase; ``wild_type`` term -> kcal/mol; ``skipped``: (residue, reason) pairs.
     """
@@ -305,7 +309,8 @@ def _wild_type_total(system, frame, settings, atoms_a, atoms_b, kc, box) -> dict
 def alanine_scan(system: MolecularSystem, frame: Frame, settings: EnergySettings | None, atoms_a, atoms_b,
                  models: dict, skipped=(), flags: dict | None = None, select_a: str = "",
                  select_b: str = "", interface_angstrom: float = DEFAULT_INTERFACE_ANGSTROM,
-                 progress: Callable[[int, int], bool] | None = None) -> HotspotScan:
+                 progress: Callable[[int, int], bool] | None = None,
+                 model_born: dict | None = None) -> HotspotScan:
     """The alanine scan of the residues in ``models`` against the other side.
 
     Parameters
@@ -330,6 +335,10 @@ def alanine_scan(system: MolecularSystem, frame: Frame, settings: EnergySettings
         The interface distance used (recorded), A.
     progress : callable or None, optional
         ``progress(done, total)`` after each residue; returning False stops (cancel).
+    model_born : dict or None, optional
+        With implicit solvent: residue index -> BornParameters of its model's atoms (needed for
+        models with rebuilt atoms, :func:`energy.analysis.hotspot_solvation.template_born_parameters`;
+        a switched-off model takes its atoms' wild-type parameters).
 
     Returns
     -------
@@ -339,8 +348,8 @@ def alanine_scan(system: MolecularSystem, frame: Frame, settings: EnergySettings
     Raises
     ------
     EnergyError
-        If a scanned residue has exception (bonded) pairs with the other side, or the scan was
-        cancelled.
+        If a scanned residue has exception (bonded) pairs with the other side, a model with rebuilt
+        atoms lacks its GB parameters (implicit solvent), or the scan was cancelled.
     """
     settings = settings or EnergySettings()
     check_frame(system, frame)
@@ -348,12 +357,20 @@ def alanine_scan(system: MolecularSystem, frame: Frame, settings: EnergySettings
     atoms_b = np.unique(np.asarray(atoms_b, np.intp))
     check_sides(system, atoms_a, atoms_b)
     flags = flags or {}
-    box = nonbonded_cell(frame.box, system.n_atoms, settings.use_periodic).box
+    # implicit solvent is a non-periodic model (as in the pipeline): no minimum image then
+    box = nonbonded_cell(frame.box, system.n_atoms, settings.use_periodic and settings.implicit_solvent is None).box
     box = box if box is not None and settings.cutoff_angstrom is not None else None
-    kc = KernelConstants.from_settings(settings)
+    kc = KernelConstants.from_settings(settings.coulomb_settings())
     # The wild type once: its A-B total, and below each scanned residue's own rows (computed once).
     wild_total = _wild_type_total(system, frame, settings, atoms_a, atoms_b, kc, box)
     names = list(wild_total)
+    solvation = None
+    if settings.implicit_solvent is not None:
+        from energy.analysis.hotspot_solvation import SOLVATION_TERMS, BindingSolvation
+        solvation = BindingSolvation(system, frame, settings, atoms_a, atoms_b)
+        wild_total.update(solvation.wild_type)
+        model_born = model_born or {}
+    columns = names + ([] if solvation is None else list(SOLVATION_TERMS))
     in_a = np.zeros(system.n_atoms, bool)
     in_a[atoms_a] = True
     ex = system.exception_pairs
@@ -372,6 +389,9 @@ def alanine_scan(system: MolecularSystem, frame: Frame, settings: EnergySettings
         wild, wi, wj = _model_rows(_wild_type_rows(system, frame, own), partner, system, frame, settings, kc, box)
         mutant, _, pj = _model_rows(model, partner, system, frame, settings, kc, box)
         delta = {t: float(mutant[t].sum() - wild[t].sum()) for t in names}
+        pairwise = sum(delta.values())
+        if solvation is not None:
+            delta.update(solvation.delta(model, "A" if in_a[own[0]] else "B", model_born.get(r)))
         wt_total = sum(wild[t] for t in names)
         mut_total = sum(mutant[t] for t in names)
         deleted = ~np.isin(own[wi], model.origin[model.origin >= 0])
@@ -384,15 +404,15 @@ def alanine_scan(system: MolecularSystem, frame: Frame, settings: EnergySettings
         out["residue"].append(r)
         out["side"].append("A" if in_a[own[0]] else "B")
         out["removed"].append(removed)
-        out["rebuilt"].append(sum(delta.values()) - removed)
+        out["rebuilt"].append(pairwise - removed)
         out["lost_p"].append(np.pad(top, (0, LOST_CONTACTS - len(top)), constant_values=-1))
         out["lost_e"].append(np.pad(change[top], (0, LOST_CONTACTS - len(top)), constant_values=0.0))
-        out["delta"].append([delta[t] for t in names])
+        out["delta"].append([delta[t] for t in columns])
         if progress is not None and progress(k + 1, len(residues)) is False:
             raise EnergyError("alanine scan cancelled")
 
     n = len(residues)
-    delta = np.array(out["delta"], float).reshape(n, len(names))
+    delta = np.array(out["delta"], float).reshape(n, len(columns))
     total = delta.sum(axis=1)
     rank = np.argsort(-total, kind="stable")
     res = np.array(out["residue"], np.intp).reshape(n)[rank]
@@ -404,7 +424,7 @@ def alanine_scan(system: MolecularSystem, frame: Frame, settings: EnergySettings
         side_chain_class=np.array([SIDE_CHAIN_CLASS.get(str(nm), "other") for nm in resname], dtype=str).reshape(n),
         method=np.array([models[int(i)].method for i in res], dtype=str).reshape(n),
         flag=np.array([flags.get(int(i), "") for i in res], dtype=str).reshape(n),
-        delta={t: delta[rank, c] for c, t in enumerate(names)},
+        delta={t: delta[rank, c] for c, t in enumerate(columns)},
         removed=np.array(out["removed"], float).reshape(n)[rank],
         rebuilt=np.array(out["rebuilt"], float).reshape(n)[rank],
         lost_partner=np.array(out["lost_p"], np.intp).reshape(n, LOST_CONTACTS)[rank],

@@ -179,7 +179,7 @@ def load_builtin_prepared(path: str, options, force_field=DEFAULT_FORCE_FIELD):
     ------
     StructureFileError, UnknownResidueError
     """
-    from energy.io.preparation import UnmatchedResidues, prepare_structure
+    from energy.io.preparation import UnmatchedResidues, prepare_structure, unmatched_residues
     label = " + ".join([*force_field, *(os.path.basename(f) for f in options.forcefield_files)])
     ff = build_force_field(force_field, options.forcefield_files)
     check_coordinate_text(plain_file(path))  # strict numbers and records before OpenMM reads it
@@ -193,7 +193,7 @@ def load_builtin_prepared(path: str, options, force_field=DEFAULT_FORCE_FIELD):
             raise UnknownResidueError(f"{path}: {exc}") from None
         if four_site:
             prepared = _with_extra_particles(prepared, ff)
-        if prepared.split is not None and ff.getUnmatchedResidues(prepared.topology):
+        if prepared.split is not None and unmatched_residues(prepared.topology, ff):
             continue  # read the whole file, so that the message counts every residue
         built = _parameterised(path, prepared, ff, label, options)
         if built is not None:
@@ -209,11 +209,13 @@ def _parameterised(path, prepared, ff, label, options):
 
     from openmm import app
 
+    from energy.io.preparation import unmatched_residues
     from energy.io.repeated_molecules import full_topology
     from energy.model.copies import NotSeparateMolecule, with_copies
     topology = prepared.topology
-    if ff.getUnmatchedResidues(topology):
-        raise _unmatched_error(path, ff, topology, options, label, gaps=prepared.record.gaps)
+    unmatched = unmatched_residues(topology, ff)
+    if unmatched:
+        raise _unmatched_error(path, ff, topology, options, label, unmatched, prepared.record.gaps)
     try:
         omm_system = ff.createSystem(topology, nonbondedMethod=app.NoCutoff, constraints=None,
                                      rigidWater=False, removeCMMotion=False)

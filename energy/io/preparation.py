@@ -329,6 +329,37 @@ class UnmatchedResidues(UnknownResidueError):
         self.topology, self.residues, self.gaps = topology, list(residues), list(gaps)
 
 
+def unmatched_residues(topology, force_field) -> list:
+    """Residues that no template of ``force_field`` matches, patched templates included.
+
+    OpenMM's ``getUnmatchedResidues`` compares each residue with the templates as written, so a
+    force field whose terminal forms are patches (CHARMM36's NTER and CTER) reports every chain
+    terminus although ``createSystem`` applies the patches and matches them.  For a force field
+    with patches, a report is therefore checked by ``createSystem``: when it parameterises the
+    topology, nothing is unmatched; when it fails, the report stands (it may then also name
+    residues a patch would have matched).
+
+    Parameters
+    ----------
+    topology : openmm.app.Topology
+    force_field : openmm.app.ForceField
+
+    Returns
+    -------
+    list of openmm.app.Residue
+    """
+    from openmm import app
+    unmatched = force_field.getUnmatchedResidues(topology)
+    if unmatched and getattr(force_field, "_patches", None):  # OpenMM keeps the patch definitions here
+        try:
+            force_field.createSystem(topology, nonbondedMethod=app.NoCutoff, constraints=None,
+                                     rigidWater=False, removeCMMotion=False)
+        except ValueError:
+            return unmatched
+        return []
+    return unmatched
+
+
 def unmatched_as_they_are(topology, force_field):
     """Residues that match no template of ``force_field`` and that OpenMM adds no hydrogens to.
 
@@ -410,9 +441,9 @@ def prepare_structure(path: str, options: PreparationOptions, force_field, force
             raise UnmatchedResidues(topology, unknown, record.gaps)
         topology, positions = add_hydrogens(topology, positions, force_field, options.ph, record)
     if options.drop_unmatched:
-        unmatched = force_field.getUnmatchedResidues(topology)
+        unmatched = unmatched_residues(topology, force_field)
         topology, positions = drop_residues(topology, positions, unmatched, record)
-    if options.repair and record.atoms_added and not force_field.getUnmatchedResidues(topology):
+    if options.repair and record.atoms_added and not unmatched_residues(topology, force_field):
         from_file = [_atom_key(a) in file_keys or _renamed(a, record) for a in topology.atoms()]
         positions = relax_added_atoms(topology, positions, force_field, from_file, record)
     for chain, number, icode, old, new in record.renamed_atoms:
@@ -447,4 +478,4 @@ def prepared_pdb_text(topology, positions) -> str:
 
 __all__ = ["GAP_C_N_ANGSTROM", "PreparationOptions", "PreparationRecord", "PreparedStructure",
            "UnmatchedResidues", "find_gaps", "grouped_listing", "prepare_structure", "split_chains",
-           "prepared_pdb_text", "unmatched_as_they_are"]
+           "prepared_pdb_text", "unmatched_as_they_are", "unmatched_residues"]

@@ -14,6 +14,28 @@ CAVEAT = (f"dE = E_int(mutant) - E_int(wild type), MM interaction energy of one 
           f"relaxation, entropy or solvent); 'hot' marks dE >= {HOT_SPOT_KCAL_MOL:g} kcal/mol, the "
           "experimental convention for the binding free energy change (ddG) of an alanine mutation, "
           "used here only as a marker")
+#: The same line for a scan with implicit solvent.
+CAVEAT_SOLVATED = (f"dE = change of the MM interaction energy plus the change of the generalized-Born "
+                   f"solvation of binding, G_solv(AB) - G_solv(A) - G_solv(B), of one structure (no "
+                   f"relaxation, entropy or explicit water); 'hot' marks dE >= {HOT_SPOT_KCAL_MOL:g} "
+                   "kcal/mol, the experimental convention for the binding free energy change (ddG) of an "
+                   "alanine mutation, used here only as a marker")
+
+
+def caveat(scan: HotspotScan) -> str:
+    """The caveat line of a scan (:data:`CAVEAT`, or :data:`CAVEAT_SOLVATED` with implicit solvent).
+
+    Parameters
+    ----------
+    scan : HotspotScan
+        The scan.
+
+    Returns
+    -------
+    str
+        One line.
+    """
+    return CAVEAT_SOLVATED if scan.settings.implicit_solvent is not None else CAVEAT
 
 
 def hotspot_rows(scan: HotspotScan, system) -> list[dict]:
@@ -31,7 +53,8 @@ def hotspot_rows(scan: HotspotScan, system) -> list[dict]:
     list of dict
         ``rank`` (int, 1-based), ``residue`` (int, 0-based index), ``label``, ``side``,
         ``resname``, ``class``, ``method``, ``flag`` (str), ``delta_total`` and
-        ``delta_<term>``, ``removed``, ``rebuilt`` (float, kcal/mol), ``hot`` (bool) and
+        ``delta_<term>`` (``delta_solvation_polar`` and ``delta_solvation_nonpolar`` with implicit
+        solvent), ``removed``, ``rebuilt`` (float, kcal/mol; the pairwise terms' split), ``hot`` (bool) and
         ``lost_contacts`` (list of ``{"label", "residue", "delta"}``, kcal/mol).
     """
     total = scan.total
@@ -111,7 +134,8 @@ def hotspot_document(scan: HotspotScan, system, inputs: dict, timings: dict | No
     -------
     dict
         ``inputs``, ``settings``, ``selections``, ``interface_angstrom``, ``methods``,
-        ``caveat``, ``hot_spot_kcal_mol``, ``wild_type`` (term -> kcal/mol), ``residues`` (the
+        ``caveat``, ``hot_spot_kcal_mol``, ``wild_type`` (term -> kcal/mol; with implicit solvent
+        the solvation terms are the wild type's solvation of binding), ``residues`` (the
         rows of :func:`hotspot_rows`), ``skipped`` (label and reason), ``timings``.
     """
     rows = hotspot_rows(scan, system)
@@ -120,10 +144,13 @@ def hotspot_document(scan: HotspotScan, system, inputs: dict, timings: dict | No
     return {"inputs": inputs,
             "settings": {"cutoff_angstrom": s.cutoff_angstrom, "switch_angstrom": s.switch_angstrom,
                          "electrostatics": s.electrostatics, "dielectric": s.dielectric,
-                         "vdw": s.vdw, "periodic": s.use_periodic},
+                         "vdw": s.vdw, "periodic": s.use_periodic and s.implicit_solvent is None,
+                         "implicit_solvent": s.implicit_solvent,
+                         **({"solvent_dielectric": s.solvent_dielectric, "salt_molar": s.salt_molar,
+                             "nonpolar": s.nonpolar} if s.implicit_solvent is not None else {})},
             "selections": {"a": scan.select_a, "b": scan.select_b},
             "interface_angstrom": scan.interface_angstrom, "methods": list(scan.methods),
-            "caveat": CAVEAT, "hot_spot_kcal_mol": HOT_SPOT_KCAL_MOL,
+            "caveat": caveat(scan), "hot_spot_kcal_mol": HOT_SPOT_KCAL_MOL,
             "wild_type": {**scan.wild_type, "total": float(sum(scan.wild_type.values()))},
             "residues": rows,
             "skipped": [{"label": system.residues.label(r), "residue": r, "reason": why}
@@ -154,7 +181,8 @@ def summary_text(scan: HotspotScan, system, top: int = 15) -> str:
     lines = [f"alanine scan of {scan.select_a!r} vs {scan.select_b!r}: {len(rows)} interface residues "
              f"within {scan.interface_angstrom:g} A, {len(scan.skipped)} left out; method: "
              f"{', '.join(scan.methods)}",
-             f"wild-type interaction {wt:.2f} kcal/mol (" +
+             f"wild-type {'interaction + solvation of binding' if scan.settings.implicit_solvent else 'interaction'} "
+             f"{wt:.2f} kcal/mol (" +
              ", ".join(f"{t} {v:.2f}" for t, v in scan.wild_type.items()) + ")",
              "rank  residue      class        dE_total " + " ".join(f"{'d' + t:>9s}" for t in terms)
              + "  hot  flag       lost most"]
@@ -168,5 +196,5 @@ def summary_text(scan: HotspotScan, system, top: int = 15) -> str:
         lines.append("method 'side chain switched off': the atoms beyond CB are removed from the "
                      "interaction, no ALA template (residues: "
                      + ", ".join(r["label"] for r in rows if r["method"] != "ALA template") + ")")
-    lines.append("note: " + CAVEAT)
+    lines.append("note: " + caveat(scan))
     return "\n".join(lines)

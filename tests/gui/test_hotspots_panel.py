@@ -76,3 +76,26 @@ def test_the_scan_can_be_cancelled(qtbot, opened):
     qtbot.waitUntil(lambda: opened.hotspots._job is None, timeout=120000)
     assert opened.hotspots.scan is None
     assert "cancelled" in panel.summary.text()
+
+
+def test_scan_with_implicit_solvent_settings_shows_the_solvation_columns(qtbot, opened):
+    """Compute settings with GB (OBC2 + ACE): the window's scan adds the solvation of binding,
+    column by column equal to the engine's scan with the same settings (itself checked against
+    OpenMM's CustomGBForce in tests/test_hotspots_solvation.py)."""
+    from energy.model.settings import EnergySettings
+    w = opened
+    w.set_energy_settings(EnergySettings(implicit_solvent="obc2"))
+    qtbot.waitUntil(lambda: not w.busy, timeout=120000)
+    panel = w.hotspot_panel
+    panel.group_a.setText("segid A"); panel.group_b.setText("segid B")
+    with qtbot.waitSignal(w.hotspots.scanned, timeout=240000):
+        panel.run_button.click()
+    expected = scan_loaded(w.snapshot.loaded, w.energy_settings, "segid A", "segid B")
+    assert set(expected.delta) == {"coulomb", "lj", "solvation_polar", "solvation_nonpolar"}
+    model = panel.model
+    np.testing.assert_allclose(model.column_values("ΔE"), expected.total, atol=1e-9)
+    np.testing.assert_allclose(model.column_values("Δ GB"), expected.delta["solvation_polar"], atol=1e-9)
+    np.testing.assert_allclose(model.column_values("Δ SA"), expected.delta["solvation_nonpolar"], atol=1e-9)
+    assert "generalized-Born (OBC2) solvation of binding" in panel.summary.text()
+    panel.select_residue(int(expected.residue[0]))
+    assert "solvation of binding" in panel.lost_text()

@@ -27,7 +27,7 @@ from app.gui.models.array_table import ArrayTableModel, Column
 from app.gui.views.flow_layout import FlowLayout
 from app.gui.views.tables import fit_columns, record_table, show_row
 from energy.analysis.hotspots import DEFAULT_INTERFACE_ANGSTROM, HOT_SPOT_KCAL_MOL
-from energy.output.hotspots import CAVEAT
+from energy.output.hotspots import CAVEAT, caveat
 from energy.terms.registry import long_label, short_label
 
 HOT = QColor("#b2182b")
@@ -151,11 +151,15 @@ class HotspotView(QWidget):
         self.model.set_columns(columns, n)
         fit_columns(self.table)
         n_hot = int(scan.is_hot.sum())
+        self.summary.setToolTip(caveat(scan))
         self.summary.setText(
             f"<b>{n} interface residue(s)</b> within {scan.interface_angstrom:g} Å ({len(scan.skipped)} "
             f"left out: Gly, Ala, non-protein); {n_hot} with ΔE ≥ {HOT_SPOT_KCAL_MOL:g} kcal/mol. "
-            f"Method: {', '.join(scan.methods)}. Single structure, no relaxation, entropy or solvent: "
-            "a guide to where to look.")
+            f"Method: {', '.join(scan.methods)}. "
+            + (f"ΔE includes the generalized-Born ({scan.settings.implicit_solvent.upper()}) solvation of "
+               "binding. Single structure, no relaxation, entropy or explicit water: "
+               if scan.settings.implicit_solvent else "Single structure, no relaxation, entropy or solvent: ")
+            + "a guide to where to look.")
         self._draw_bars()
 
     def _draw_bars(self) -> None:
@@ -235,9 +239,11 @@ class HotspotView(QWidget):
             return
         lost = [(int(p), float(e)) for p, e in zip(self.scan.lost_partner[k], self.scan.lost_energy[k]) if p >= 0]
         text = ", ".join(f"{self.system.residues.label(p)} (+{e:.2f})" for p, e in lost) or "none"
+        solvation = sum(v[k] for t, v in self.scan.delta.items() if t.startswith("solvation_"))
+        solvated = f", solvation of binding {solvation:+.2f}" if self.scan.settings.implicit_solvent else ""
         self.lost.setText(f"<b>{self.scan.label[k]}</b> → Ala: ΔE {self.scan.total[k]:+.2f} kcal/mol "
                           f"(removed {self.scan.removed[k]:+.2f}, rebuilt CB hydrogens and charges "
-                          f"{self.scan.rebuilt[k]:+.2f}); contacts that lose the most: {text}")
+                          f"{self.scan.rebuilt[k]:+.2f}{solvated}); contacts that lose the most: {text}")
 
     def picked_bars(self) -> list:
         """(residue number, dE) of the bar circled on each chain's plot."""
