@@ -291,3 +291,4 @@ class DistanceProfileView(QWidget):
         y0, y1 = min(float(ys.min()), 0.0), max(float(ys.max()), 0.0)
         pad = 0.08 * ((y1 - y0) or 1.0)
         self.plot.setRange(xRange=(x0, x1), yRange=(y0 - pad, y1 + pad), padding=0)
+        self.plot.getViewBox().updateMatrix()  # the new view transform now, not during the paint (one paint)

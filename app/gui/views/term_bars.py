@@ -138,3 +138,4 @@ class TermBarsView(pg.GraphicsLayoutWidget):
         p.setXRange(lo - (0.75 * span if lo < 0 else 0.05 * span),
                     hi + (0.75 * span if hi > 0 else 0.05 * span), padding=0)
         p.setYRange(-0.6, len(y) - 0.4, padding=0)
+        p.getViewBox().updateMatrix()  # the new view transform now, not during the paint (which would paint twice)
