@@ -56,6 +56,7 @@ bench: $(STAMP)
 	$(PY) benchmarks/result_file_bench.py
 	QT_QPA_PLATFORM=offscreen $(PY) benchmarks/window_bench.py
 	$(PY) benchmarks/scan_process_bench.py
+	$(PY) benchmarks/selection_memory_bench.py
 	$(PY) benchmarks/gb_bench.py
 	$(PY) benchmarks/hotspots_bench.py
 
