@@ -77,7 +77,10 @@ class AtomContributionsView(QWidget):
         cols = [Column("Residue", np.array([lab(int(k)) for k in contacts.residues], dtype=object),
                        sort_key=contacts.residues),
                 Column("Total", contacts.total, "energy", "all terms of this residue with the solute residue")]
-        cols += [Column(short_label(t), contacts.values[t], "energy") for t in NONBONDED_TERMS]
+        # Coulomb and LJ always; the solvation terms only when computed (implicit solvent), so that
+        # the residue names keep their width in a narrow dock
+        cols += [Column(short_label(t), contacts.values[t], "energy") for t in NONBONDED_TERMS
+                 if t in ("coulomb", "lj") or np.any(contacts.values[t])]
         cols.append(Column("Closest heavy atoms", contacts.min_heavy_distance, "distance",
                            "shortest heavy-atom distance between the two residues, Å"))
         self.contacts_model.set_columns(cols, len(contacts))
