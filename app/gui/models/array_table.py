@@ -132,6 +132,10 @@ class ArrayTableModel(QAbstractTableModel):
                     picks += [int(members[np.argmax(v[members])]), int(members[np.argmin(v[members])])]
         return sorted(set(int(p) for p in picks))
 
+    def column_kind(self, column: int) -> str:
+        """The kind of ``column`` (``text``, ``energy``, ``distance``, ``number``)."""
+        return self._columns[column].kind
+
     def column_of(self, title: str) -> int:
         """Index of the column titled ``title`` (-1 when there is none)."""
         return next((k for k, c in enumerate(self._columns) if c.title == title), -1)

@@ -23,6 +23,7 @@ class ResidueRosterView(QWidget):
         self.table = record_table("rosterTable", self.model, size_from_rows=40)
         self.model.units_in_header = False        # the caption names the unit (narrow panel)
         self.units = QLabel(""); self.units.setObjectName("rosterUnits")
+        self.units.setWordWrap(True)  # a caption sets no least width for its narrow dock
         self.find = QLineEdit(); self.find.setPlaceholderText("Filter residues")
         self.find.setClearButtonEnabled(True)
 
