@@ -193,27 +193,27 @@ def load_builtin_prepared(path: str, options, force_field=DEFAULT_FORCE_FIELD):
             raise UnknownResidueError(f"{path}: {exc}") from None
         if four_site:
             prepared = _with_extra_particles(prepared, ff)
-        if prepared.split is not None and unmatched_residues(prepared.topology, ff):
+        unmatched = unmatched_residues(prepared.topology, ff)
+        if prepared.split is not None and unmatched:
             continue  # read the whole file, so that the message counts every residue
-        built = _parameterised(path, prepared, ff, label, options)
+        built = _parameterised(path, prepared, ff, label, options, unmatched)
         if built is not None:
             return built
     raise AssertionError("unreachable: the whole file is always parameterised")
 
 
-def _parameterised(path, prepared, ff, label, options):
-    """(system, frame, topology, prepared) of a prepared structure, the repeated molecules placed
-    back (:func:`energy.model.copies.with_copies`); None when they turn out not to be separate
-    molecules (the caller then reads the whole file)."""
+def _parameterised(path, prepared, ff, label, options, unmatched):
+    """(system, frame, topology, prepared) of a prepared structure whose ``unmatched`` residues
+    (:func:`energy.io.preparation.unmatched_residues`) the caller found, the repeated molecules
+    placed back (:func:`energy.model.copies.with_copies`); None when they turn out not to be
+    separate molecules (the caller then reads the whole file)."""
     from dataclasses import replace
 
     from openmm import app
 
-    from energy.io.preparation import unmatched_residues
     from energy.io.repeated_molecules import full_topology
     from energy.model.copies import NotSeparateMolecule, with_copies
     topology = prepared.topology
-    unmatched = unmatched_residues(topology, ff)
     if unmatched:
         raise _unmatched_error(path, ff, topology, options, label, unmatched, prepared.record.gaps)
     try:

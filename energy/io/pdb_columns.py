@@ -25,7 +25,8 @@ class AtomColumns:
     OpenMM reads them), ``chains``, ``resseq``, ``icodes``, ``elements``, ``serials``: (n,) str,
     stripped.  ``altloc``: (n,) bool, an alternate-location label is set.  ``positions``: (n, 3)
     float64 A, or None when a coordinate field is not a plain decimal number (the strict checks
-    of :mod:`energy.io.structure_text` name it).
+    of :mod:`energy.io.structure_text` name it).  ``plain``: every record fits its columns (54 to
+    80 characters) with plainly written coordinates and occupancy (:func:`text_records_plain`).
     """
 
     line: np.ndarray
@@ -38,6 +39,7 @@ class AtomColumns:
     serials: np.ndarray
     altloc: np.ndarray
     positions: np.ndarray | None
+    plain: bool = False
 
 
 def _text_column(matrix, lo: int, hi: int) -> np.ndarray:
@@ -129,10 +131,8 @@ def record_matrix(lines: list[str], index: np.ndarray) -> np.ndarray:
     return np.frombuffer(body.encode("latin-1", "replace"), np.uint8).reshape(len(index), RECORD_WIDTH)
 
 
-def coordinate_records_plain(lines: list[str]) -> bool:
-    """True when every ATOM/HETATM record fits its columns (54 to 80 characters) and its x, y,
-    z fields (columns 31-54) are plain decimals (:func:`plain_decimals`), and its occupancy
-    (columns 55-60) is blank or one.
+def atom_columns(lines: list[str]) -> AtomColumns:
+    """Read the ATOM/HETATM records among ``lines`` by their fixed columns.
 
     Parameters
     ----------
@@ -141,26 +141,49 @@ def coordinate_records_plain(lines: list[str]) -> bool:
 
     Returns
     -------
-    bool
-        False means "read it line by line", not that anything is wrong.
+    AtomColumns
     """
     index = atom_record_lines(record_names(lines))
     widths = np.array([len(lines[k].rstrip()) for k in index], np.intp)
-    if len(index) and (widths.min() < 54 or widths.max() > RECORD_WIDTH):
-        return False
     matrix = record_matrix(lines, index)
-    xyz = matrix[:, 30:54].reshape(len(index), 3, 8)
+    fields = matrix[:, 30:54].reshape(len(index), 3, 8)
+    positions = None
+    if all(plain_decimals(fields[:, axis]).all() for axis in range(3)):
+        positions = np.ascontiguousarray(fields).view("S8").reshape(-1, 3).astype(np.float64)
     occupancy = matrix[:, 54:60]
-    blank = (occupancy == ord(" ")).all(axis=1)
-    return bool(all(plain_decimals(xyz[:, axis]).all() for axis in range(3))
-                and (blank | plain_decimals(occupancy)).all())
+    plain = bool(positions is not None and (not len(index) or (widths.min() >= 54 and widths.max() <= RECORD_WIDTH))
+                 and ((occupancy == ord(" ")).all(axis=1) | plain_decimals(occupancy)).all())
+    resnames = _text_column(matrix, 17, 21)
+    return AtomColumns(line=index, names=_text_column(matrix, 12, 16), resnames=resnames,
+                       chains=_text_column(matrix, 21, 22), resseq=_text_column(matrix, 22, 26),
+                       icodes=_text_column(matrix, 26, 27), elements=_text_column(matrix, 76, 78),
+                       serials=_text_column(matrix, 6, 11), altloc=matrix[:, 16] != ord(" "),
+                       positions=positions, plain=plain)
 
 
 @functools.lru_cache(maxsize=2)
+def text_atom_columns(text: str) -> AtomColumns:
+    """:func:`atom_columns` of a whole PDB text, kept for the last two texts: the strict
+    coordinate check, the record check and the split of the solvent read the same text one
+    after the other, and the columns are read once for all three.
+
+    Parameters
+    ----------
+    text : str
+        PDB text.
+
+    Returns
+    -------
+    AtomColumns
+        ``line`` indexes ``text.splitlines()`` (the same lines with or without their ends).
+    """
+    return atom_columns(text.splitlines())
+
+
 def text_records_plain(text: str) -> bool:
-    """:func:`coordinate_records_plain` of a whole single-model PDB text, kept for the last two
-    texts (the strict coordinate check and the record check read the same file one after the
-    other).
+    """True when a single-model PDB text's ATOM/HETATM records all fit their columns (54 to 80
+    characters), with x, y, z (columns 31-54) plain decimals (:func:`plain_decimals`) and an
+    occupancy (columns 55-60) blank or one.
 
     Parameters
     ----------
@@ -171,39 +194,10 @@ def text_records_plain(text: str) -> bool:
     -------
     bool
         False for a text with MODEL records (those are compared line by line) or with any record
-        that is not plainly written.
+        that is not plainly written: "read it line by line", not that anything is wrong.
     """
-    lines = text.splitlines()
-    return not any(ln.startswith("MODEL") for ln in lines) and coordinate_records_plain(lines)
+    return not (text.startswith("MODEL") or "\nMODEL" in text) and text_atom_columns(text).plain
 
 
-def atom_columns(lines: list[str], records: np.ndarray | None = None) -> AtomColumns:
-    """Read the ATOM/HETATM records among ``lines`` by their fixed columns.
-
-    Parameters
-    ----------
-    lines : list of str
-        PDB text split into lines.
-    records : (n_lines,) str, optional
-        :func:`record_names` of ``lines``, if already at hand.
-
-    Returns
-    -------
-    AtomColumns
-    """
-    index = atom_record_lines(record_names(lines) if records is None else records)
-    matrix = record_matrix(lines, index)
-    fields = matrix[:, 30:54].reshape(len(index), 3, 8)
-    positions = None
-    if all(plain_decimals(fields[:, axis]).all() for axis in range(3)):
-        positions = np.ascontiguousarray(fields).view("S8").reshape(-1, 3).astype(np.float64)
-    resnames = _text_column(matrix, 17, 21)
-    return AtomColumns(line=index, names=_text_column(matrix, 12, 16), resnames=resnames,
-                       chains=_text_column(matrix, 21, 22), resseq=_text_column(matrix, 22, 26),
-                       icodes=_text_column(matrix, 26, 27), elements=_text_column(matrix, 76, 78),
-                       serials=_text_column(matrix, 6, 11), altloc=matrix[:, 16] != ord(" "),
-                       positions=positions)
-
-
-__all__ = ["AtomColumns", "RECORD_WIDTH", "atom_columns", "coordinate_records_plain", "plain_decimals",
+__all__ = ["AtomColumns", "RECORD_WIDTH", "atom_columns", "plain_decimals", "text_atom_columns",
            "atom_record_lines", "record_matrix", "record_names", "text_records_plain"]

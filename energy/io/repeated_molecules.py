@@ -24,7 +24,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from energy.io.pdb_columns import atom_columns, record_names
+from energy.io.pdb_columns import record_names, text_atom_columns
 from energy.model.copies import CopyGroup
 from energy.model.residue_classes import SOLVENT_CLASSES, residue_class
 
@@ -138,7 +138,7 @@ def split_repeated(text: str) -> SplitStructure | None:
     records = record_names(lines)
     if np.count_nonzero(records == "MODEL ") > 1:
         return None
-    cols = atom_columns(lines, records)
+    cols = text_atom_columns(text)  # read once for the record checks and the split
     n = len(cols.line)
     if n == 0 or cols.positions is None:
         return None

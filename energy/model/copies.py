@@ -91,7 +91,7 @@ def _per_atom(values, n, final_of, groups):
     return out
 
 
-def _sites(sites, n, final_of, group_of, local_of, groups):
+def _sites(sites, final_of, group_of, local_of, groups):
     if sites is None or not len(sites):
         return sites
     site_atoms, source = _repeated_rows(np.column_stack([sites.site, sites.parents]), final_of, group_of,
@@ -184,7 +184,7 @@ def with_copies(system: MolecularSystem, final_of: np.ndarray, groups) -> tuple[
                    exception_pairs=pairs, exception_qq=system.exception_qq[source],
                    exception_rmin=system.exception_rmin[source], exception_eps=system.exception_eps[source],
                    **tables, other_tables=others,
-                   virtual_sites=_sites(system.virtual_sites, n, final_of, group_of, local_of, groups))
+                   virtual_sites=_sites(system.virtual_sites, final_of, group_of, local_of, groups))
     return full, np.concatenate(sources)[order]
 
 
